@@ -1,0 +1,142 @@
+//! Command-line front door: argument types (clap) and one module per command.
+
+pub mod simulate;
+
+use std::path::PathBuf;
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+
+/// leadline: live view, filter tuning and measurement for ECG and biopotential front ends.
+///
+/// Not a medical device; not for diagnosis. Electrodes on a person: battery-powered or isolated
+/// equipment only.
+#[derive(Debug, Parser)]
+#[command(name = "leadline", version, about, long_about = None)]
+pub struct Cli {
+    #[command(subcommand)]
+    pub command: Option<Command>,
+}
+
+/// The commands. With none, the monitor opens on the simulator.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Open the live monitor window (the default).
+    Monitor(MonitorArgs),
+    /// Generate a synthetic ECG stream as the modelled board would send it.
+    Simulate(SimulateArgs),
+}
+
+/// Options of `leadline monitor`.
+#[derive(Debug, Clone, Args, Default)]
+pub struct MonitorArgs {
+    /// Signal source: `synth` (the built-in simulator).
+    #[arg(long, default_value = "synth", value_name = "SPEC")]
+    pub source: String,
+    /// Simulator sample rate, Hz (125–4000).
+    #[arg(long, value_name = "HZ")]
+    pub fs: Option<f64>,
+    /// Simulator channels (1–8).
+    #[arg(long, value_name = "N")]
+    pub channels: Option<usize>,
+    /// Close the window after this many seconds and exit 0 (smoke tests, screenshots).
+    #[arg(long, value_name = "SECONDS")]
+    pub exit_after: Option<f64>,
+    /// Save a PNG of the window just before exiting (needs --exit-after).
+    #[arg(long, value_name = "PNG", requires = "exit_after")]
+    pub screenshot: Option<PathBuf>,
+    /// Window size in logical pixels, WIDTHxHEIGHT.
+    #[arg(long, value_name = "WxH", default_value = "1280x800")]
+    pub size: String,
+}
+
+/// Output format of `leadline simulate`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SimFormat {
+    /// `time_s` then one column per channel, in --units.
+    Csv,
+    /// The text-line wire format: ADC counts, `# key=value` metadata first.
+    Ascii,
+}
+
+/// Units of CSV output.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum Units {
+    /// ADC counts exactly as produced.
+    Counts,
+    /// Volts at the electrodes.
+    #[value(name = "V")]
+    Volts,
+    /// Millivolts at the electrodes.
+    #[value(name = "mV")]
+    Millivolts,
+    /// Microvolts at the electrodes.
+    #[value(name = "uV")]
+    Microvolts,
+}
+
+/// Options of `leadline simulate`. Levels are RMS at the electrodes.
+#[derive(Debug, Clone, Args)]
+pub struct SimulateArgs {
+    /// Sample rate, Hz (125–4000).
+    #[arg(long, default_value_t = 500.0, value_name = "HZ")]
+    pub fs: f64,
+    /// Length of the stream, s.
+    #[arg(long, default_value_t = 10.0, value_name = "S")]
+    pub seconds: f64,
+    /// Channels (1–8).
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub channels: usize,
+    /// Mean heart rate, bpm.
+    #[arg(long, default_value_t = 72.0, value_name = "BPM")]
+    pub hr: f64,
+    /// Heart-rate variability (standard deviation), bpm.
+    #[arg(long, default_value_t = 1.0, value_name = "BPM")]
+    pub hrv: f64,
+    /// Random seed: the same seed and options give the same bytes.
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub seed: u64,
+    /// Mains frequency, Hz.
+    #[arg(long, default_value_t = 50.0, value_name = "HZ")]
+    pub mains: f64,
+    /// Mains fundamental, RMS µV.
+    #[arg(long, default_value_t = 30.0, value_name = "UV")]
+    pub mains_uv: f64,
+    /// Respiration-like baseline wander, RMS µV.
+    #[arg(long, default_value_t = 60.0, value_name = "UV")]
+    pub wander_uv: f64,
+    /// Slow electrode drift, RMS µV.
+    #[arg(long, default_value_t = 40.0, value_name = "UV")]
+    pub drift_uv: f64,
+    /// Broadband muscle-like noise, RMS µV.
+    #[arg(long, default_value_t = 8.0, value_name = "UV")]
+    pub noise_uv: f64,
+    /// Electrode offset, mV (DC).
+    #[arg(long, default_value_t = 25.0, value_name = "MV")]
+    pub offset_mv: f64,
+    /// R-wave amplitude, mV.
+    #[arg(long, default_value_t = 1.2, value_name = "MV")]
+    pub r_mv: f64,
+    /// The reading laptop is on its mains charger (stronger mains coupling).
+    #[arg(long)]
+    pub charger: bool,
+    /// Electrodes swapped (inverted signal).
+    #[arg(long)]
+    pub inverted: bool,
+    /// An electrode is off: the input floats to the rails.
+    #[arg(long)]
+    pub lead_off: bool,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = SimFormat::Csv)]
+    pub format: SimFormat,
+    /// Units of CSV values (input-referred unless counts).
+    #[arg(long, value_enum, default_value_t = Units::Millivolts)]
+    pub units: Units,
+    /// Output file, or - for standard output.
+    #[arg(long, default_value = "-", value_name = "PATH")]
+    pub out: String,
+}
+
+/// A bad argument or input detected after parsing (exit code 2, like clap's own errors).
+#[derive(Debug, thiserror::Error)]
+#[error("{0}")]
+pub struct BadInput(pub String);

@@ -1,0 +1,8 @@
+//! Digital filtering: designs ([`design`]) return plain second-order sections; the runtime
+//! cascade ([`chain`]) owns the state and retunes without reallocating.
+
+pub mod chain;
+pub mod design;
+
+pub use chain::{Chain, ChainSettings, HighPass, LowPass, Notch};
+pub use design::{DesignError, Section};

@@ -1,0 +1,275 @@
+//! The monitor application: owns the pipeline, takes snapshots in `logic`, draws in `ui`.
+
+use std::path::PathBuf;
+use std::sync::{Arc, Mutex};
+use std::time::{Duration, Instant};
+
+use anyhow::Result;
+use eframe::egui;
+
+use super::panels;
+use super::state::{Settings, TraceUnit, View};
+use crate::msg::Control;
+use crate::pipeline::{Pipeline, PipelineConfig, PipelineError};
+use crate::process::{MAX_WINDOW_S, MIN_WINDOW_S, Notify};
+use crate::source::{Pacing, SourceSpec};
+
+/// Start-up options that are not settings.
+#[derive(Debug, Clone, Default)]
+pub struct AppOptions {
+    /// Close after this many seconds.
+    pub exit_after_s: Option<f64>,
+    /// Save a PNG of the last frame before closing.
+    pub screenshot: Option<PathBuf>,
+    /// Show the first-start caution.
+    pub show_caution: bool,
+}
+
+type Shot = Arc<Mutex<Option<Arc<egui::ColorImage>>>>;
+
+/// The monitor.
+pub struct LeadlineApp {
+    settings: Settings,
+    view: View,
+    pipeline: Pipeline,
+    notify: Notify,
+    paused: bool,
+    caution_open: bool,
+    opts: AppOptions,
+    started: Instant,
+    shot: Shot,
+    shot_requested: Option<Instant>,
+    outcome: Arc<Mutex<Result<()>>>,
+    pending: Vec<Control>,
+}
+
+fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, PipelineError> {
+    Pipeline::start(
+        PipelineConfig {
+            source: SourceSpec::Synth(settings.synth.clone()),
+            chain: settings.chain,
+            window_s: settings.window_s,
+            display_hz: settings.display_hz,
+            pacing: Pacing::RealTime,
+            limit_s: None,
+            record: false,
+        },
+        notify,
+    )
+}
+
+impl LeadlineApp {
+    /// Starts the pipeline for `settings`. `outcome` receives the result of an `--exit-after` run.
+    ///
+    /// # Errors
+    /// [`PipelineError`] when the source cannot start.
+    pub fn new(
+        settings: Settings,
+        notify: Notify,
+        opts: AppOptions,
+        outcome: Arc<Mutex<Result<()>>>,
+    ) -> Result<Self, PipelineError> {
+        let pipeline = start_pipeline(&settings, Arc::clone(&notify))?;
+        Ok(Self {
+            settings,
+            view: View::default(),
+            pipeline,
+            notify,
+            paused: false,
+            caution_open: opts.show_caution,
+            opts,
+            started: Instant::now(),
+            shot: Arc::new(Mutex::new(None)),
+            shot_requested: None,
+            outcome,
+            pending: Vec::new(),
+        })
+    }
+
+    /// Current settings (tests read them).
+    pub fn settings(&self) -> &Settings {
+        &self.settings
+    }
+
+    /// Latest data (tests read it).
+    pub fn view(&self) -> &View {
+        &self.view
+    }
+
+    /// Takes the newest snapshot unless paused. Called from `logic` (and by tests).
+    pub fn poll(&mut self) {
+        if let Some(s) = self.pipeline.latest_snapshot()
+            && !self.paused
+        {
+            self.view.snapshot = Some(s);
+            self.view.snapshots_seen += 1;
+        }
+    }
+
+    fn restart_source(&mut self) {
+        match start_pipeline(&self.settings, Arc::clone(&self.notify)) {
+            Ok(p) => {
+                self.pipeline = p;
+                self.view = View::default();
+            }
+            Err(e) => {
+                // Keep the old stream; the settings panel shows the refused values until changed.
+                eprintln!("leadline: {e}");
+            }
+        }
+    }
+
+    fn exit_logic(&mut self, ctx: &egui::Context) {
+        let Some(limit) = self.opts.exit_after_s else {
+            return;
+        };
+        let elapsed = self.started.elapsed().as_secs_f64();
+        if elapsed < limit {
+            ctx.request_repaint_after(Duration::from_secs_f64(limit - elapsed));
+            return;
+        }
+        let Some(path) = self.opts.screenshot.clone() else {
+            ctx.send_viewport_cmd(egui::ViewportCommand::Close);
+            return;
+        };
+        let taken = self.shot.lock().ok().and_then(|mut g| g.take());
+        if let Some(img) = taken {
+            let r = super::screenshot::save_png(&img, &path);
+            if r.is_ok() {
+                eprintln!("screenshot saved to {}", path.display());
+            }
+            if let Ok(mut o) = self.outcome.lock() {
+                *o = r;
+            }
+            self.opts.screenshot = None;
+            ctx.send_viewport_cmd(egui::ViewportCommand::Close);
+        } else if let Some(t) = self.shot_requested {
+            if t.elapsed() > Duration::from_secs(5) {
+                if let Ok(mut o) = self.outcome.lock() {
+                    *o = Err(anyhow::anyhow!("the window never delivered a screenshot"));
+                }
+                ctx.send_viewport_cmd(egui::ViewportCommand::Close);
+            }
+            ctx.request_repaint_after(Duration::from_millis(50));
+        } else {
+            let slot = Arc::clone(&self.shot);
+            let waker = ctx.clone();
+            ctx.request_screenshot(move |img| {
+                if let Ok(mut g) = slot.lock() {
+                    *g = Some(img);
+                }
+                waker.request_repaint();
+            });
+            self.shot_requested = Some(Instant::now());
+            ctx.request_repaint();
+        }
+    }
+
+    /// Draws the whole window and queues the resulting Controls.
+    pub fn show(&mut self, ui: &mut egui::Ui) {
+        let fs = self
+            .view
+            .snapshot
+            .as_ref()
+            .map_or(self.settings.synth.fs_hz, |s| s.fs_hz);
+
+        egui::Panel::top("top-bar").show(ui, |ui| {
+            ui.horizontal(|ui| {
+                ui.label(egui::RichText::new("leadline").strong().size(18.0));
+                ui.separator();
+                let label = if self.paused { "Resume" } else { "Freeze" };
+                if ui
+                    .button(label)
+                    .on_hover_text(
+                        "Freeze the traces to look closely; data keep flowing underneath.",
+                    )
+                    .clicked()
+                {
+                    self.paused = !self.paused;
+                    self.pending.push(Control::DisplayPaused(self.paused));
+                }
+                ui.separator();
+                let w = ui
+                    .add(
+                        egui::Slider::new(&mut self.settings.window_s, MIN_WINDOW_S..=MAX_WINDOW_S)
+                            .text("Time window")
+                            .suffix(" s")
+                            .max_decimals(0),
+                    )
+                    .on_hover_text("How many seconds of signal the traces show.");
+                if w.changed() {
+                    self.pending.push(Control::Window(self.settings.window_s));
+                }
+                ui.separator();
+                ui.selectable_value(&mut self.settings.unit, TraceUnit::Millivolts, "mV");
+                ui.selectable_value(&mut self.settings.unit, TraceUnit::Microvolts, "µV");
+                let n = self.settings.synth.channels;
+                if n > 1 {
+                    ui.separator();
+                    ui.add(
+                        egui::Slider::new(&mut self.settings.channel, 0..=n - 1)
+                            .text("Channel index"),
+                    );
+                }
+            });
+        });
+
+        egui::Panel::bottom("status-bar").show(ui, |ui| {
+            panels::status::show(ui, &self.view, self.pipeline.label(), self.paused);
+            panels::caution::reminder(ui);
+        });
+
+        egui::Panel::left("controls")
+            .default_size(300.0)
+            .show(ui, |ui| {
+                egui::ScrollArea::vertical().show(ui, |ui| {
+                    ui.heading("Filters");
+                    if panels::chain::show(ui, &mut self.settings.chain, fs) {
+                        self.pending.push(Control::Chain(self.settings.chain));
+                    }
+                    if let Some(e) = self
+                        .view
+                        .snapshot
+                        .as_ref()
+                        .and_then(|s| s.chain_error.as_ref())
+                    {
+                        ui.colored_label(ui.visuals().error_fg_color, format!("Not applied: {e}"));
+                    }
+                    ui.add_space(10.0);
+                    ui.heading("Simulated bench");
+                    let changed = panels::simulator::show(ui, &mut self.settings.synth);
+                    if changed.restart {
+                        self.settings.channel =
+                            self.settings.channel.min(self.settings.synth.channels - 1);
+                        self.restart_source();
+                    } else if changed.live {
+                        self.pending
+                            .push(Control::Synth(Box::new(self.settings.synth.clone())));
+                    }
+                });
+            });
+
+        egui::CentralPanel::default_margins().show(ui, |ui| {
+            panels::trace::show(ui, &self.view, &self.settings);
+        });
+
+        if panels::caution::first_start(ui.ctx(), &mut self.caution_open) {
+            super::state::acknowledge_caution();
+        }
+
+        for c in self.pending.drain(..) {
+            self.pipeline.control(c);
+        }
+    }
+}
+
+impl eframe::App for LeadlineApp {
+    fn logic(&mut self, ctx: &egui::Context, _frame: &mut eframe::Frame) {
+        self.poll();
+        self.exit_logic(ctx);
+    }
+
+    fn ui(&mut self, ui: &mut egui::Ui, _frame: &mut eframe::Frame) {
+        self.show(ui);
+    }
+}

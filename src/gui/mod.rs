@@ -1,0 +1,95 @@
+//! The monitor window (eframe, glow backend). Panels read the view and return the Control they
+//! want sent; the app applies them after drawing.
+
+pub mod app;
+pub mod panels;
+pub mod screenshot;
+pub mod state;
+
+use std::sync::Arc;
+
+use anyhow::{Context, Result};
+
+pub use app::{AppOptions, LeadlineApp};
+
+use crate::cli::{BadInput, MonitorArgs};
+
+fn parse_size(s: &str) -> Result<[f32; 2]> {
+    let (w, h) = s
+        .split_once('x')
+        .ok_or_else(|| BadInput(format!("--size {s}: expected WIDTHxHEIGHT, e.g. 1280x800")))?;
+    let w: f32 = w
+        .trim()
+        .parse()
+        .map_err(|_| BadInput(format!("--size {s}: bad width")))?;
+    let h: f32 = h
+        .trim()
+        .parse()
+        .map_err(|_| BadInput(format!("--size {s}: bad height")))?;
+    if !(320.0..=8000.0).contains(&w) || !(240.0..=8000.0).contains(&h) {
+        return Err(BadInput(format!("--size {s}: between 320x240 and 8000x8000")).into());
+    }
+    Ok([w, h])
+}
+
+/// Opens the monitor window and returns when it closes.
+///
+/// # Errors
+/// A bad option, no display, or a screenshot that could not be written.
+pub fn run(args: &MonitorArgs) -> Result<()> {
+    if args.source != "synth" {
+        return Err(BadInput(format!(
+            "--source {}: this build reads only `synth` (the built-in simulator)",
+            args.source
+        ))
+        .into());
+    }
+    if let Some(s) = args.exit_after
+        && !(s.is_finite() && s > 0.0)
+    {
+        return Err(BadInput(format!(
+            "--exit-after {s}: must be a positive number of seconds"
+        ))
+        .into());
+    }
+    let size = parse_size(&args.size)?;
+    let mut settings = state::Settings::default();
+    if let Some(fs) = args.fs {
+        settings.synth.fs_hz = fs;
+    }
+    if let Some(n) = args.channels {
+        settings.synth.channels = n;
+    }
+    settings.synth.validate()?;
+    let opts = AppOptions {
+        exit_after_s: args.exit_after,
+        screenshot: args.screenshot.clone(),
+        show_caution: !state::caution_acknowledged(),
+    };
+    let outcome = Arc::new(std::sync::Mutex::new(Ok(())));
+    let outcome_app = Arc::clone(&outcome);
+    let native = eframe::NativeOptions {
+        viewport: eframe::egui::ViewportBuilder::default()
+            .with_title("leadline")
+            .with_inner_size(size)
+            .with_min_inner_size([640.0, 420.0]),
+        renderer: eframe::Renderer::Glow,
+        ..Default::default()
+    };
+    eframe::run_native(
+        "leadline",
+        native,
+        Box::new(move |cc| {
+            let ctx = cc.egui_ctx.clone();
+            let notify: crate::process::Notify = Arc::new(move || ctx.request_repaint());
+            let app = LeadlineApp::new(settings, notify, opts, outcome_app)?;
+            Ok(Box::new(app))
+        }),
+    )
+    .map_err(|e| anyhow::anyhow!("cannot open the monitor window: {e}"))
+    .context("is a display available? (under CI: xvfb-run)")?;
+    match outcome.lock() {
+        Ok(mut g) => std::mem::replace(&mut *g, Ok(())),
+        Err(_) => Err(anyhow::anyhow!("the window thread failed")),
+    }
+}

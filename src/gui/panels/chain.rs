@@ -1,0 +1,86 @@
+//! Filter controls: one group per stage, corners on logarithmic sliders.
+
+use eframe::egui;
+
+use crate::dsp::chain::ChainSettings;
+
+/// Draws the chain controls. Returns true when anything changed.
+pub fn show(ui: &mut egui::Ui, chain: &mut ChainSettings, fs_hz: f64) -> bool {
+    let before = *chain;
+    let nyq = fs_hz / 2.0;
+    ui.horizontal(|ui| {
+        if ui
+            .button("Monitoring 0.67–40 Hz")
+            .on_hover_text("Typical bedside-monitor band (common practice). A causal high-pass this high distorts the ST segment.")
+            .clicked()
+        {
+            chain.highpass.corner_hz = 0.67;
+            chain.lowpass.corner_hz = 40.0_f64.min(0.45 * fs_hz);
+        }
+        if ui
+            .button("Diagnostic 0.05–150 Hz")
+            .on_hover_text("Diagnostic ECG band (Kligfield et al. 2007, AHA/ACCF/HRS).")
+            .clicked()
+        {
+            chain.highpass.corner_hz = 0.05;
+            chain.lowpass.corner_hz = 150.0_f64.min(0.45 * fs_hz);
+        }
+    });
+    ui.separator();
+
+    ui.checkbox(&mut chain.highpass.enabled, "High-pass")
+        .on_hover_text("Removes baseline wander and electrode drift below the corner.");
+    ui.add_enabled_ui(chain.highpass.enabled, |ui| {
+        ui.add(
+            egui::Slider::new(&mut chain.highpass.corner_hz, 0.05..=5.0)
+                .logarithmic(true)
+                .text("High-pass corner")
+                .suffix(" Hz")
+                .max_decimals(2),
+        )
+        .on_hover_text("−3 dB frequency of the Butterworth high-pass.");
+        ui.add(egui::Slider::new(&mut chain.highpass.order, 1..=8).text("High-pass order"))
+            .on_hover_text(
+                "Butterworth order: each step adds 6 dB/octave of roll-off and more phase shift.",
+            );
+    });
+    ui.separator();
+
+    ui.checkbox(&mut chain.notch.enabled, "Mains notch")
+        .on_hover_text("Second-order notch at the mains frequency (−3 dB bandwidth = f0/Q).");
+    ui.add_enabled_ui(chain.notch.enabled, |ui| {
+        ui.horizontal(|ui| {
+            ui.selectable_value(&mut chain.notch.mains_hz, 50.0, "50 Hz");
+            ui.selectable_value(&mut chain.notch.mains_hz, 60.0, "60 Hz");
+        });
+        ui.add(
+            egui::Slider::new(&mut chain.notch.q, 1.0..=100.0)
+                .logarithmic(true)
+                .text("Notch Q")
+                .max_decimals(1),
+        )
+        .on_hover_text("Higher Q: narrower notch, less damage to the QRS, longer ringing, less tolerance of mains drift.");
+        ui.label(format!("bandwidth {:.2} Hz", chain.notch.mains_hz / chain.notch.q));
+        ui.add(egui::Slider::new(&mut chain.notch.harmonics, 0..=4).text("Harmonic notches"))
+            .on_hover_text("Also notch harmonics 2… of the mains (those below Nyquist).");
+    });
+    ui.separator();
+
+    ui.checkbox(&mut chain.lowpass.enabled, "Low-pass")
+        .on_hover_text("Removes muscle noise and high-frequency hiss above the corner.");
+    ui.add_enabled_ui(chain.lowpass.enabled, |ui| {
+        ui.add(
+            egui::Slider::new(&mut chain.lowpass.corner_hz, 5.0..=(0.45 * fs_hz).max(6.0))
+                .logarithmic(true)
+                .text("Low-pass corner")
+                .suffix(" Hz")
+                .max_decimals(1),
+        )
+        .on_hover_text(format!(
+            "−3 dB frequency of the Butterworth low-pass (below Nyquist, {nyq} Hz)."
+        ));
+        ui.add(egui::Slider::new(&mut chain.lowpass.order, 1..=8).text("Low-pass order"))
+            .on_hover_text("Butterworth order of the low-pass.");
+    });
+    *chain != before
+}

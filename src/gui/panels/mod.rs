@@ -1,0 +1,7 @@
+//! One file per panel. Each reads settings/view and reports what the user changed.
+
+pub mod caution;
+pub mod chain;
+pub mod simulator;
+pub mod status;
+pub mod trace;

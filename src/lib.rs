@@ -1,0 +1,44 @@
+//! leadline: see, filter and measure the signal of an ECG (or other biopotential) front end live.
+//!
+//! Not a medical device, not for diagnosis. With electrodes on a person, use only battery-powered
+//! or properly isolated equipment (IEC 60601-1 and local regulations apply).
+//!
+//! # Layout
+//! ```text
+//!  source thread            DSP thread                               GUI thread (eframe)
+//!  synth (serial, file)     scale → chain → display columns          drains Snapshots in logic(),
+//!    │                        → RecordBlock (never dropped)          draws in ui(), sends Control
+//!    ▼                         │
+//!  RawBlock ──bounded──▶ process::run ──Snapshot, drop-oldest──▶ gui::app
+//!            ◀────────────── Control (unbounded, tiny) ◀──────────────
+//! ```
+//! - [`pipeline`] is the only place that creates channels and starts (named) threads.
+//! - [`source`]: where samples come from ([`source::synth`] is the default).
+//! - [`process`]: the DSP thread body. [`dsp`]: filter designs and the runtime chain.
+//! - [`scale`]: counts → volts at the ADC → µV at the electrodes.
+//! - [`wire`]: byte formats to and from a microcontroller. [`gui`], [`cli`]: the two front doors.
+//! - `dsp`, `scale`, `wire` never import egui.
+//!
+//! # Units and conventions
+//! - Signal values inside the program are input-referred microvolts (µV at the electrodes) in f64,
+//!   unless a name says otherwise (`_v`, `_mv`, `counts`).
+//! - Time zero is the first sample of the stream; sample n is at n / fs seconds.
+//! - Frequencies are in Hz (`_hz`), heart rates in beats per minute (`_bpm`).
+//! - Multi-channel blocks are frame-major: all channels of frame 0, then frame 1, …
+
+pub mod cli;
+pub mod dsp;
+pub mod gui;
+pub mod msg;
+pub mod pipeline;
+pub mod process;
+pub mod rng;
+pub mod scale;
+pub mod source;
+pub mod wire;
+
+/// The caution shown on the first screen and in the README.
+pub const CAUTION: &str = "leadline is a bench and teaching tool: not a medical device and not for \
+diagnosis or monitoring of patients. When electrodes are on a person, use only battery-powered or \
+properly isolated equipment (laptop off its charger, isolated USB), and follow IEC 60601-1, local \
+regulations and licensed practice.";

@@ -1,0 +1,32 @@
+//! The `leadline` binary: parse the command line, hand over to the GUI or one CLI command.
+
+use std::process::ExitCode;
+
+use clap::Parser;
+use leadline::cli::{Cli, Command, MonitorArgs};
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        None => leadline::gui::run(&MonitorArgs {
+            source: "synth".into(),
+            size: "1280x800".into(),
+            ..MonitorArgs::default()
+        }),
+        Some(Command::Monitor(a)) => leadline::gui::run(&a),
+        Some(Command::Simulate(a)) => leadline::cli::simulate::run(&a),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            eprintln!("leadline: {e:#}");
+            if e.downcast_ref::<leadline::cli::BadInput>().is_some()
+                || e.downcast_ref::<leadline::source::SynthError>().is_some()
+            {
+                ExitCode::from(2)
+            } else {
+                ExitCode::from(1)
+            }
+        }
+    }
+}

@@ -1,0 +1,134 @@
+//! Types that cross threads: blocks of samples in, snapshots for the display, control messages back.
+
+use crate::dsp::chain::ChainSettings;
+use crate::scale::InputScale;
+use crate::source::SynthSettings;
+
+/// What the numbers in a [`RawBlock`] are.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum SampleUnit {
+    /// ADC counts, converted with this scale.
+    Counts(InputScale),
+    /// Already input-referred microvolts.
+    Microvolts,
+}
+
+/// A block of frames from a source, interleaved channel by channel.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RawBlock {
+    /// Block counter of the source, from 0.
+    pub seq: u64,
+    /// Index (from the start of the stream) of the first frame in the block.
+    pub first_sample: u64,
+    /// Sample rate, Hz.
+    pub fs_hz: f64,
+    /// Channels per frame.
+    pub channels: usize,
+    /// Unit of `data`.
+    pub unit: SampleUnit,
+    /// `frames × channels` values, frame-major.
+    pub data: Vec<f64>,
+    /// When the source produced the block (for latency figures).
+    pub made_at: std::time::Instant,
+}
+
+impl RawBlock {
+    /// Frames in the block.
+    pub fn frames(&self) -> usize {
+        self.data.len() / self.channels.max(1)
+    }
+}
+
+/// Processed samples for the recorder: input-referred µV, raw and filtered, never dropped.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RecordBlock {
+    /// Index of the first frame.
+    pub first_sample: u64,
+    /// Sample rate, Hz.
+    pub fs_hz: f64,
+    /// Channels per frame.
+    pub channels: usize,
+    /// Input-referred µV before the chain, frame-major.
+    pub raw_uv: Vec<f64>,
+    /// Input-referred µV after the chain, frame-major.
+    pub filtered_uv: Vec<f64>,
+    /// The source's values as received (counts or µV), frame-major.
+    pub received: Vec<f64>,
+}
+
+/// A min/max-per-column reduction of one trace over the display window.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Columns {
+    /// Time of the first column's first sample, s since the stream started.
+    pub t0_s: f64,
+    /// Time covered by one column, s.
+    pub dt_s: f64,
+    /// Lowest value in each column, µV.
+    pub min: Vec<f32>,
+    /// Highest value in each column, µV.
+    pub max: Vec<f32>,
+}
+
+/// One channel's display traces.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct ChannelTrace {
+    /// Before the chain.
+    pub raw: Columns,
+    /// After the chain.
+    pub filtered: Columns,
+}
+
+/// Counters of the whole pipeline. All are totals since the pipeline started.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Stats {
+    /// Frames that reached the DSP thread.
+    pub frames: u64,
+    /// Blocks that reached the DSP thread.
+    pub blocks: u64,
+    /// Frames missing between blocks (a gap in `first_sample`).
+    pub frames_lost: u64,
+    /// Snapshots the GUI had not taken when a newer one was ready (display only; no data lost).
+    pub snapshots_dropped: u64,
+    /// Samples at an ADC rail.
+    pub clipped: u64,
+    /// Samples that were NaN or infinite and were replaced by the previous value.
+    pub bad_values: u64,
+    /// Worst source-to-snapshot latency seen in the last second, ms.
+    pub latency_ms: f64,
+}
+
+/// What the GUI gets, at most at the display rate.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Snapshot {
+    /// Sample rate, Hz.
+    pub fs_hz: f64,
+    /// Time of the newest sample, s since the stream started.
+    pub t_end_s: f64,
+    /// Window the traces cover, s.
+    pub window_s: f64,
+    /// Per-channel display traces.
+    pub traces: Vec<ChannelTrace>,
+    /// The chain the DSP thread is running now.
+    pub chain: ChainSettings,
+    /// Why the last requested chain was refused, if it was.
+    pub chain_error: Option<String>,
+    /// Input scale in force (None for sources that deliver µV).
+    pub scale: Option<InputScale>,
+    /// Counters.
+    pub stats: Stats,
+    /// The source has ended (a finite run or a file).
+    pub source_done: bool,
+}
+
+/// Messages from the GUI (or CLI) to the threads. Tiny and rare: the channel is unbounded.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Control {
+    /// Run this chain from now on (state is kept where the structure allows).
+    Chain(ChainSettings),
+    /// New simulator settings (levels, rate, switches).
+    Synth(Box<SynthSettings>),
+    /// Display window length, s (2–30).
+    Window(f64),
+    /// Stop sending snapshots (the data still flow to the recorder) or resume.
+    DisplayPaused(bool),
+}

@@ -1,0 +1,208 @@
+//! The only place that creates channels and starts threads.
+//!
+//! ```text
+//! source thread ──RawBlock, bounded 64, blocking──▶ DSP thread ──Snapshot, bounded 2, drop-oldest──▶ GUI
+//!      ▲                                               │
+//!      └─ SynthSettings (unbounded, tiny) ◀─ Control ──┴──RecordBlock, bounded 256, blocking──▶ recorder
+//! ```
+//! The source never drops (it waits); the recorder path never drops; only the display path drops
+//! snapshots, and counts them.
+
+use std::sync::Arc;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::thread::JoinHandle;
+
+use crossbeam_channel::{Receiver, Sender, bounded, unbounded};
+
+use crate::dsp::chain::ChainSettings;
+use crate::msg::{Control, RecordBlock, Snapshot};
+use crate::process::{self, DspConfig, DspPorts, Notify};
+use crate::source::{Pacing, SourceSpec, Synth, SynthError, SynthSettings, run_synth};
+
+/// Blocks of 10 ms: 64 of them let the DSP thread fall 0.64 s behind before the source waits.
+const RAW_DEPTH: usize = 64;
+/// The GUI only ever wants the newest snapshot; one spare lets it take one while the next is made.
+const SNAPSHOT_DEPTH: usize = 2;
+/// 2.5 s of blocks queued for a slow disk before the DSP thread waits.
+const RECORD_DEPTH: usize = 256;
+
+/// Why a pipeline did not start.
+#[derive(Debug, thiserror::Error)]
+pub enum PipelineError {
+    /// The simulator refused its settings.
+    #[error("simulator: {0}")]
+    Synth(#[from] SynthError),
+    /// The OS would not start a thread.
+    #[error("cannot start the {0} thread: {1}")]
+    Spawn(&'static str, std::io::Error),
+}
+
+/// What to run.
+#[derive(Debug, Clone)]
+pub struct PipelineConfig {
+    /// Where the samples come from.
+    pub source: SourceSpec,
+    /// The chain to start with.
+    pub chain: ChainSettings,
+    /// Display window, s.
+    pub window_s: f64,
+    /// Most snapshots per second (the display rate).
+    pub display_hz: f64,
+    /// Real time or as fast as possible.
+    pub pacing: Pacing,
+    /// Stop the source after this many seconds of signal (None: run until stopped).
+    pub limit_s: Option<f64>,
+    /// Deliver every processed sample on [`Pipeline::take_records`].
+    pub record: bool,
+}
+
+impl Default for PipelineConfig {
+    fn default() -> Self {
+        Self {
+            source: SourceSpec::Synth(SynthSettings::default()),
+            chain: ChainSettings::default(),
+            window_s: 10.0,
+            display_hz: 30.0,
+            pacing: Pacing::RealTime,
+            limit_s: None,
+            record: false,
+        }
+    }
+}
+
+/// The running threads. Dropping it stops and joins them.
+pub struct Pipeline {
+    control_tx: Sender<Control>,
+    synth_tx: Sender<SynthSettings>,
+    snapshots: Receiver<Snapshot>,
+    records: Option<Receiver<RecordBlock>>,
+    stop: Arc<AtomicBool>,
+    threads: Vec<JoinHandle<()>>,
+    label: String,
+}
+
+impl Pipeline {
+    /// Starts the source and DSP threads. `notify` is called after every snapshot.
+    ///
+    /// # Errors
+    /// [`PipelineError`] when the source refuses its settings or a thread cannot start.
+    pub fn start(cfg: PipelineConfig, notify: Notify) -> Result<Self, PipelineError> {
+        let stop = Arc::new(AtomicBool::new(false));
+        let (raw_tx, raw_rx) = bounded(RAW_DEPTH);
+        let (snapshot_tx, snapshot_rx) = bounded(SNAPSHOT_DEPTH);
+        // Control messages are a few per second at most: unbounded cannot grow in practice.
+        let (control_tx, control_rx) = unbounded();
+        let (synth_tx, synth_rx) = unbounded();
+        let (record_tx, record_rx) = if cfg.record {
+            let (t, r) = bounded(RECORD_DEPTH);
+            (Some(t), Some(r))
+        } else {
+            (None, None)
+        };
+        let label = cfg.source.label();
+
+        let mut threads = Vec::new();
+        match cfg.source {
+            SourceSpec::Synth(settings) => {
+                let limit = cfg.limit_s.map(|s| (s * settings.fs_hz).round() as u64);
+                let synth = Synth::new(settings)?;
+                let stop = Arc::clone(&stop);
+                let pacing = cfg.pacing;
+                threads.push(
+                    std::thread::Builder::new()
+                        .name("leadline-source".into())
+                        .spawn(move || run_synth(synth, raw_tx, synth_rx, &stop, pacing, limit))
+                        .map_err(|e| PipelineError::Spawn("source", e))?,
+                );
+            }
+        }
+        let dsp_cfg = DspConfig {
+            chain: cfg.chain,
+            window_s: cfg.window_s,
+            display_hz: cfg.display_hz,
+        };
+        let ports = DspPorts {
+            raw_rx,
+            control_rx,
+            snapshot_tx,
+            snapshot_drain: snapshot_rx.clone(),
+            record_tx,
+        };
+        let dsp_stop = Arc::clone(&stop);
+        let spawned = std::thread::Builder::new()
+            .name("leadline-dsp".into())
+            .spawn(move || process::run(dsp_cfg, ports, &dsp_stop, notify));
+        match spawned {
+            Ok(h) => threads.push(h),
+            Err(e) => {
+                stop.store(true, Ordering::Relaxed);
+                for t in threads.drain(..) {
+                    let _ = t.join();
+                }
+                return Err(PipelineError::Spawn("dsp", e));
+            }
+        }
+        Ok(Self {
+            control_tx,
+            synth_tx,
+            snapshots: snapshot_rx,
+            records: record_rx,
+            stop,
+            threads,
+            label,
+        })
+    }
+
+    /// Sends a control message to the thread it concerns.
+    pub fn control(&self, c: Control) {
+        // A send fails only when the thread has ended; then there is nothing left to control.
+        match c {
+            Control::Synth(s) => {
+                let _ = self.synth_tx.send(*s);
+            }
+            other => {
+                let _ = self.control_tx.send(other);
+            }
+        }
+    }
+
+    /// The newest snapshot, if one arrived since the last call (older ones are skipped).
+    pub fn latest_snapshot(&self) -> Option<Snapshot> {
+        self.snapshots.try_iter().last()
+    }
+
+    /// The snapshot channel itself, for callers that wait on it.
+    pub fn snapshots(&self) -> &Receiver<Snapshot> {
+        &self.snapshots
+    }
+
+    /// The recorder path (only when started with `record: true`; once).
+    pub fn take_records(&mut self) -> Option<Receiver<RecordBlock>> {
+        self.records.take()
+    }
+
+    /// Short description of the source for the status line.
+    pub fn label(&self) -> &str {
+        &self.label
+    }
+
+    /// True once every thread has ended (a finite source ran out).
+    pub fn is_finished(&self) -> bool {
+        self.threads.iter().all(JoinHandle::is_finished)
+    }
+
+    /// Stops and joins the threads. Each thread looks at the stop flag at least every 20 ms.
+    pub fn shutdown(&mut self) {
+        self.stop.store(true, Ordering::Relaxed);
+        for t in self.threads.drain(..) {
+            // A panicked worker has already printed its message; shutting down goes on.
+            let _ = t.join();
+        }
+    }
+}
+
+impl Drop for Pipeline {
+    fn drop(&mut self) {
+        self.shutdown();
+    }
+}

@@ -1,0 +1,413 @@
+//! The DSP thread body: scale → chain → display columns → Snapshot, and every processed sample to
+//! the recorder path.
+
+use std::collections::VecDeque;
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::time::{Duration, Instant};
+
+use crossbeam_channel::{Receiver, RecvTimeoutError, Sender, TrySendError};
+
+use crate::dsp::chain::{Chain, ChainSettings};
+use crate::msg::{
+    ChannelTrace, Columns, Control, RawBlock, RecordBlock, SampleUnit, Snapshot, Stats,
+};
+use crate::scale::InputScale;
+use crate::source::run::send_blocking;
+
+/// About one column per pixel of a wide trace; the GUI never draws more points than this.
+pub const TARGET_COLUMNS: usize = 1200;
+/// Longest display window, s: the ring buffers hold this much.
+pub const MAX_WINDOW_S: f64 = 30.0;
+/// Shortest display window, s.
+pub const MIN_WINDOW_S: f64 = 2.0;
+
+/// The callback the DSP thread calls after each Snapshot (the GUI passes `request_repaint`).
+pub type Notify = std::sync::Arc<dyn Fn() + Send + Sync>;
+
+/// One trace's recent samples and their min/max columns, kept up to date sample by sample so a
+/// snapshot costs the number of columns, not the number of samples in the window.
+#[derive(Debug, Clone)]
+struct TraceBuf {
+    ring: VecDeque<f32>,
+    ring_cap: usize,
+    total: u64,
+    spc: usize,
+    keep_cols: usize,
+    col_min: VecDeque<f32>,
+    col_max: VecDeque<f32>,
+    first_col: u64,
+    cur_min: f32,
+    cur_max: f32,
+    cur_n: usize,
+}
+
+impl TraceBuf {
+    fn new(fs: f64, window_s: f64) -> Self {
+        let ring_cap = (MAX_WINDOW_S * fs).ceil() as usize + 1;
+        let mut t = Self {
+            ring: VecDeque::with_capacity(ring_cap),
+            ring_cap,
+            total: 0,
+            spc: 1,
+            keep_cols: 1,
+            col_min: VecDeque::new(),
+            col_max: VecDeque::new(),
+            first_col: 0,
+            cur_min: f32::INFINITY,
+            cur_max: f32::NEG_INFINITY,
+            cur_n: 0,
+        };
+        t.set_window(fs, window_s);
+        t
+    }
+
+    fn set_window(&mut self, fs: f64, window_s: f64) {
+        let window_samples = (window_s * fs).ceil().max(1.0);
+        self.spc = ((window_samples / TARGET_COLUMNS as f64).ceil() as usize).max(1);
+        self.keep_cols = (window_samples / self.spc as f64).ceil() as usize + 1;
+        // Rebuild the columns from the samples we still hold, aligned to absolute sample indices.
+        self.col_min.clear();
+        self.col_max.clear();
+        self.cur_n = 0;
+        self.cur_min = f32::INFINITY;
+        self.cur_max = f32::NEG_INFINITY;
+        let start = self.total - self.ring.len() as u64;
+        let aligned = start.div_ceil(self.spc as u64) * self.spc as u64;
+        self.first_col = aligned / self.spc as u64;
+        let ring = std::mem::take(&mut self.ring);
+        let total = self.total;
+        self.total = aligned;
+        for &v in ring.iter().skip((aligned - start) as usize) {
+            self.push_column_sample(v);
+            self.total += 1;
+        }
+        debug_assert_eq!(self.total, total);
+        self.total = total;
+        self.ring = ring;
+    }
+
+    fn push_column_sample(&mut self, v: f32) {
+        self.cur_min = self.cur_min.min(v);
+        self.cur_max = self.cur_max.max(v);
+        self.cur_n += 1;
+        if self.cur_n == self.spc {
+            self.col_min.push_back(self.cur_min);
+            self.col_max.push_back(self.cur_max);
+            self.cur_n = 0;
+            self.cur_min = f32::INFINITY;
+            self.cur_max = f32::NEG_INFINITY;
+            while self.col_min.len() > self.keep_cols {
+                self.col_min.pop_front();
+                self.col_max.pop_front();
+                self.first_col += 1;
+            }
+        }
+    }
+
+    fn push(&mut self, v: f32) {
+        if self.ring.len() == self.ring_cap {
+            self.ring.pop_front();
+        }
+        self.ring.push_back(v);
+        self.push_column_sample(v);
+        self.total += 1;
+    }
+
+    fn columns(&self, fs: f64) -> Columns {
+        let n = self.col_min.len() + usize::from(self.cur_n > 0);
+        let mut min = Vec::with_capacity(n);
+        let mut max = Vec::with_capacity(n);
+        min.extend(self.col_min.iter());
+        max.extend(self.col_max.iter());
+        if self.cur_n > 0 {
+            min.push(self.cur_min);
+            max.push(self.cur_max);
+        }
+        Columns {
+            t0_s: (self.first_col * self.spc as u64) as f64 / fs,
+            dt_s: self.spc as f64 / fs,
+            min,
+            max,
+        }
+    }
+}
+
+/// Everything the DSP thread is started with.
+pub struct DspConfig {
+    /// Chain to start with.
+    pub chain: ChainSettings,
+    /// Display window, s.
+    pub window_s: f64,
+    /// Most snapshots per second.
+    pub display_hz: f64,
+}
+
+/// The channels the DSP thread talks on. Policies are set where they are created (pipeline.rs).
+pub struct DspPorts {
+    pub raw_rx: Receiver<RawBlock>,
+    pub control_rx: Receiver<Control>,
+    pub snapshot_tx: Sender<Snapshot>,
+    /// Second handle on the snapshot channel, used to drop the oldest snapshot when full.
+    pub snapshot_drain: Receiver<Snapshot>,
+    pub record_tx: Option<Sender<RecordBlock>>,
+}
+
+struct Running {
+    fs: f64,
+    channels: usize,
+    chain: Chain,
+    raw: Vec<TraceBuf>,
+    filtered: Vec<TraceBuf>,
+    last_uv: Vec<f64>,
+    next_sample: u64,
+}
+
+/// Runs until `stop` is set or the source hangs up (then a last snapshot marks the end).
+pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
+    let DspConfig {
+        mut chain,
+        mut window_s,
+        display_hz,
+    } = cfg;
+    let period = Duration::from_secs_f64(1.0 / display_hz.clamp(1.0, 240.0));
+    let mut stats = Stats::default();
+    let mut state: Option<Running> = None;
+    let mut chain_error: Option<String> = None;
+    let mut paused = false;
+    let mut scale: Option<InputScale> = None;
+    let mut last_snapshot = Instant::now() - period;
+    let mut oldest_pending: Option<Instant> = None;
+    let mut latency_window_start = Instant::now();
+    let mut latency_max_ms: f64 = 0.0;
+
+    loop {
+        if stop.load(Ordering::Relaxed) {
+            return;
+        }
+        while let Ok(c) = ports.control_rx.try_recv() {
+            match c {
+                Control::Chain(s) => {
+                    chain = s;
+                    match state.as_mut().map(|r| r.chain.retune(s)) {
+                        Some(Err(e)) => chain_error = Some(e.to_string()),
+                        _ => chain_error = None,
+                    }
+                }
+                Control::Window(w) => {
+                    window_s = w.clamp(MIN_WINDOW_S, MAX_WINDOW_S);
+                    if let Some(r) = state.as_mut() {
+                        for t in r.raw.iter_mut().chain(r.filtered.iter_mut()) {
+                            t.set_window(r.fs, window_s);
+                        }
+                    }
+                }
+                Control::DisplayPaused(p) => paused = p,
+                // Simulator settings go straight to the source thread.
+                Control::Synth(_) => {}
+            }
+        }
+
+        let block = match ports.raw_rx.recv_timeout(Duration::from_millis(20)) {
+            Ok(b) => Some(b),
+            Err(RecvTimeoutError::Timeout) => None,
+            Err(RecvTimeoutError::Disconnected) => {
+                if let Some(r) = &state {
+                    let snap = snapshot(r, window_s, &chain_error, scale, &stats, true);
+                    offer(&ports, snap, &mut stats);
+                    notify();
+                }
+                return;
+            }
+        };
+
+        if let Some(block) = block {
+            let fresh = match &state {
+                Some(r) => r.fs != block.fs_hz || r.channels != block.channels,
+                None => true,
+            };
+            if fresh {
+                let built = Chain::new(chain, block.fs_hz, block.channels).or_else(|e| {
+                    chain_error = Some(e.to_string());
+                    // Run a pass-through chain rather than nothing until the user fixes it.
+                    let bypass = ChainSettings {
+                        highpass: crate::dsp::HighPass {
+                            enabled: false,
+                            ..chain.highpass
+                        },
+                        notch: crate::dsp::Notch {
+                            enabled: false,
+                            ..chain.notch
+                        },
+                        lowpass: crate::dsp::LowPass {
+                            enabled: false,
+                            ..chain.lowpass
+                        },
+                        gain: 1.0,
+                    };
+                    Chain::new(bypass, block.fs_hz, block.channels)
+                });
+                let Ok(c) = built else { return };
+                state = Some(Running {
+                    fs: block.fs_hz,
+                    channels: block.channels,
+                    chain: c,
+                    raw: (0..block.channels)
+                        .map(|_| TraceBuf::new(block.fs_hz, window_s))
+                        .collect(),
+                    filtered: (0..block.channels)
+                        .map(|_| TraceBuf::new(block.fs_hz, window_s))
+                        .collect(),
+                    last_uv: vec![0.0; block.channels],
+                    next_sample: block.first_sample,
+                });
+            }
+            let Some(r) = state.as_mut() else { continue };
+            if block.first_sample > r.next_sample {
+                stats.frames_lost += block.first_sample - r.next_sample;
+            }
+            r.next_sample = block.first_sample + block.frames() as u64;
+            stats.blocks += 1;
+            stats.frames += block.frames() as u64;
+            oldest_pending.get_or_insert(block.made_at);
+
+            let mut uv = Vec::with_capacity(block.data.len());
+            scale = match block.unit {
+                SampleUnit::Counts(s) => Some(s),
+                SampleUnit::Microvolts => None,
+            };
+            for (i, &v) in block.data.iter().enumerate() {
+                let ch = i % r.channels;
+                let value = match block.unit {
+                    SampleUnit::Counts(s) => {
+                        if s.is_rail(v) {
+                            stats.clipped += 1;
+                        }
+                        s.counts_to_uv(v)
+                    }
+                    SampleUnit::Microvolts => v,
+                };
+                let value = if value.is_finite() {
+                    value
+                } else {
+                    stats.bad_values += 1;
+                    r.last_uv[ch]
+                };
+                r.last_uv[ch] = value;
+                uv.push(value);
+            }
+            let mut filt = uv.clone();
+            r.chain.process_interleaved(&mut filt);
+            for (i, (&a, &b)) in uv.iter().zip(&filt).enumerate() {
+                let ch = i % r.channels;
+                r.raw[ch].push(a as f32);
+                r.filtered[ch].push(b as f32);
+            }
+            if let Some(tx) = &ports.record_tx {
+                let rec = RecordBlock {
+                    first_sample: block.first_sample,
+                    fs_hz: block.fs_hz,
+                    channels: block.channels,
+                    raw_uv: uv,
+                    filtered_uv: filt,
+                    received: block.data,
+                };
+                if !send_blocking(tx, rec, stop) {
+                    return;
+                }
+            }
+        }
+
+        let now = Instant::now();
+        if let (Some(r), false) = (&state, paused)
+            && now.duration_since(last_snapshot) >= period
+            && oldest_pending.is_some()
+        {
+            if let Some(t) = oldest_pending.take() {
+                latency_max_ms = latency_max_ms.max(now.duration_since(t).as_secs_f64() * 1e3);
+            }
+            if now.duration_since(latency_window_start) >= Duration::from_secs(1) {
+                stats.latency_ms = latency_max_ms;
+                latency_max_ms = 0.0;
+                latency_window_start = now;
+            }
+            let snap = snapshot(r, window_s, &chain_error, scale, &stats, false);
+            offer(&ports, snap, &mut stats);
+            last_snapshot = now;
+            notify();
+        }
+    }
+}
+
+fn snapshot(
+    r: &Running,
+    window_s: f64,
+    chain_error: &Option<String>,
+    scale: Option<InputScale>,
+    stats: &Stats,
+    done: bool,
+) -> Snapshot {
+    Snapshot {
+        fs_hz: r.fs,
+        t_end_s: r.next_sample as f64 / r.fs,
+        window_s,
+        traces: r
+            .raw
+            .iter()
+            .zip(&r.filtered)
+            .map(|(a, b)| ChannelTrace {
+                raw: a.columns(r.fs),
+                filtered: b.columns(r.fs),
+            })
+            .collect(),
+        chain: *r.chain.settings(),
+        chain_error: chain_error.clone(),
+        scale,
+        stats: stats.clone(),
+        source_done: done,
+    }
+}
+
+/// Display path policy: never wait for the GUI; when it has not taken the previous snapshot,
+/// drop that one (counted) and offer the new one.
+fn offer(ports: &DspPorts, snap: Snapshot, stats: &mut Stats) {
+    let mut snap = snap;
+    loop {
+        match ports.snapshot_tx.try_send(snap) {
+            Ok(()) => return,
+            Err(TrySendError::Full(back)) => {
+                if ports.snapshot_drain.try_recv().is_ok() {
+                    stats.snapshots_dropped += 1;
+                }
+                snap = back;
+                snap.stats.snapshots_dropped = stats.snapshots_dropped;
+            }
+            Err(TrySendError::Disconnected(_)) => return,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn columns_hold_min_and_max_of_each_group() {
+        let fs = 1000.0;
+        let mut t = TraceBuf::new(fs, 2.4); // 2400 samples → 2 samples per column
+        assert_eq!(t.spc, 2);
+        for n in 0..5000 {
+            t.push(n as f32);
+        }
+        let c = t.columns(fs);
+        assert_eq!(c.min.len(), t.keep_cols);
+        let last = c.min.len() - 1;
+        assert_eq!((c.min[last], c.max[last]), (4998.0, 4999.0));
+        assert!((c.t0_s + c.dt_s * last as f64 - 4.998).abs() < 1e-9);
+        // A longer window is rebuilt from the ring with the same alignment.
+        t.set_window(fs, 10.0);
+        let c = t.columns(fs);
+        assert_eq!(t.spc, 9);
+        assert_eq!(c.max[c.max.len() - 1], 4999.0);
+        assert_eq!(c.min[0] as u64 % 9, 0);
+    }
+}
