@@ -27,6 +27,9 @@ const C2_HZ: f64 = 0.01;
 /// tachogram repeats only after 512 s.
 const RR_GRID_HZ: f64 = 1.0 / 512.0;
 const RR_COMPONENTS: usize = 255;
+/// Start in diastole (θ = π, z on the isoelectric line) so a stream opens on baseline rather than
+/// in the middle of an R wave (ECGSYN starts at (1, 0, 0.04), i.e. on the R event).
+const START_STATE: [f64; 3] = [-1.0, 0.0, 0.0];
 /// Internal integration rate floor: RK4 steps are never longer than 1 ms.
 const MIN_INTERNAL_HZ: f64 = 1000.0;
 
@@ -144,7 +147,7 @@ impl EcgModel {
     ) -> Self {
         let substeps = (MIN_INTERNAL_HZ / fs_hz).ceil().max(1.0) as usize;
         let mut m = Self {
-            state: [1.0, 0.0, 0.04],
+            state: START_STATE,
             t_s: 0.0,
             dt_s: 1.0 / (fs_hz * substeps as f64),
             substeps,
@@ -176,7 +179,7 @@ impl EcgModel {
     /// variability for three beats.
     fn calibration_peak(&self, hr_bpm: f64) -> f64 {
         let mut probe = self.clone();
-        probe.state = [1.0, 0.0, 0.04];
+        probe.state = START_STATE;
         probe.t_s = 0.0;
         probe.rr.rr_std_s = 0.0;
         probe.rr.cache = None;
