@@ -3,6 +3,7 @@
 
 pub mod chain;
 pub mod design;
+pub mod response;
 
 pub use chain::{Chain, ChainSettings, HighPass, LowPass, Notch};
 pub use design::{DesignError, Section};
