@@ -35,6 +35,7 @@ pub mod process;
 pub mod rng;
 pub mod scale;
 pub mod source;
+pub mod store;
 pub mod wire;
 
 /// The caution shown on the first screen and in the README.

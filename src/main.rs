@@ -15,6 +15,9 @@ fn main() -> ExitCode {
         }),
         Some(Command::Monitor(a)) => leadline::gui::run(&a),
         Some(Command::Simulate(a)) => leadline::cli::simulate::run(&a),
+        Some(Command::Sos(a)) => leadline::cli::sos::run(&a),
+        Some(Command::Response(a)) => leadline::cli::response::run(&a),
+        Some(Command::Filter(a)) => leadline::cli::filter::run(&a).map(|_| ()),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -1,6 +1,9 @@
 //! Command-line front door: argument types (clap) and one module per command.
 
+pub mod filter;
+pub mod response;
 pub mod simulate;
+pub mod sos;
 
 use std::path::PathBuf;
 
@@ -24,6 +27,158 @@ pub enum Command {
     Monitor(MonitorArgs),
     /// Generate a synthetic ECG stream as the modelled board would send it.
     Simulate(SimulateArgs),
+    /// Print the chain's second-order sections as JSON ([b0,b1,b2,a0,a1,a2] rows, scipy's sos layout).
+    Sos(SosArgs),
+    /// Write the chain's frequency response (magnitude, phase, group delay) to CSV.
+    Response(ResponseArgs),
+    /// Filter a recorded file through the chain (or convert it, with no stage given).
+    Filter(FilterArgs),
+}
+
+/// The filter chain on the command line. Each stage is used only when its corner is given.
+#[derive(Debug, Clone, Args, Default)]
+pub struct ChainArgs {
+    /// High-pass corner (−3 dB), Hz.
+    #[arg(long, value_name = "HZ")]
+    pub highpass: Option<f64>,
+    /// High-pass Butterworth order (1–8).
+    #[arg(long, default_value_t = 2, value_name = "N")]
+    pub highpass_order: u32,
+    /// Mains notch frequency, Hz.
+    #[arg(long, value_name = "HZ")]
+    pub notch: Option<f64>,
+    /// Notch Q (−3 dB bandwidth = frequency / Q).
+    #[arg(long, default_value_t = 30.0, value_name = "Q")]
+    pub notch_q: f64,
+    /// Extra notches at harmonics 2… (0–4).
+    #[arg(long, default_value_t = 0, value_name = "N")]
+    pub notch_harmonics: u32,
+    /// Low-pass corner (−3 dB), Hz.
+    #[arg(long, value_name = "HZ")]
+    pub lowpass: Option<f64>,
+    /// Low-pass Butterworth order (1–8).
+    #[arg(long, default_value_t = 4, value_name = "N")]
+    pub lowpass_order: u32,
+    /// Plain gain after the filters, V/V.
+    #[arg(long, default_value_t = 1.0, value_name = "G")]
+    pub gain: f64,
+}
+
+impl ChainArgs {
+    /// The chain these flags describe.
+    pub fn settings(&self) -> crate::dsp::ChainSettings {
+        use crate::dsp::{ChainSettings, HighPass, LowPass, Notch};
+        ChainSettings {
+            highpass: HighPass {
+                enabled: self.highpass.is_some(),
+                corner_hz: self.highpass.unwrap_or(0.5),
+                order: self.highpass_order,
+            },
+            notch: Notch {
+                enabled: self.notch.is_some(),
+                mains_hz: self.notch.unwrap_or(50.0),
+                q: self.notch_q,
+                harmonics: self.notch_harmonics,
+            },
+            lowpass: LowPass {
+                enabled: self.lowpass.is_some(),
+                corner_hz: self.lowpass.unwrap_or(40.0),
+                order: self.lowpass_order,
+            },
+            gain: self.gain,
+        }
+    }
+
+    /// The sections at `fs`, with a bad design reported as bad input (exit code 2).
+    ///
+    /// # Errors
+    /// [`BadInput`] with the design error's message.
+    pub fn design(&self, fs: f64) -> Result<Vec<crate::dsp::Section>, BadInput> {
+        self.settings()
+            .design(fs)
+            .map_err(|e| BadInput(e.to_string()))
+    }
+}
+
+/// Options of `leadline sos`.
+#[derive(Debug, Clone, Args)]
+pub struct SosArgs {
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Sample rate, Hz.
+    #[arg(long, value_name = "HZ")]
+    pub fs: f64,
+}
+
+/// Options of `leadline response`.
+#[derive(Debug, Clone, Args)]
+pub struct ResponseArgs {
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Sample rate, Hz.
+    #[arg(long, value_name = "HZ")]
+    pub fs: f64,
+    /// Number of log-spaced frequencies from 0.01 Hz to just below Nyquist.
+    #[arg(
+        long,
+        default_value_t = 512,
+        value_name = "N",
+        conflicts_with = "freqs"
+    )]
+    pub points: usize,
+    /// Explicit frequencies, Hz, comma-separated.
+    #[arg(long, value_name = "F1,F2,..", value_delimiter = ',')]
+    pub freqs: Option<Vec<f64>>,
+    /// Output CSV (freq_hz,mag_db,phase_deg,group_delay_s), or - for standard output.
+    #[arg(long, default_value = "-", value_name = "FILE")]
+    pub out: String,
+}
+
+/// Unit of the values in an input or output file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum FileUnitArg {
+    #[value(name = "V")]
+    Volts,
+    #[value(name = "mV")]
+    Millivolts,
+    #[value(name = "uV")]
+    Microvolts,
+}
+
+impl FileUnitArg {
+    /// The store's unit.
+    pub fn unit(self) -> crate::store::FileUnit {
+        match self {
+            FileUnitArg::Volts => crate::store::FileUnit::Volts,
+            FileUnitArg::Millivolts => crate::store::FileUnit::Millivolts,
+            FileUnitArg::Microvolts => crate::store::FileUnit::Microvolts,
+        }
+    }
+}
+
+/// Options of `leadline filter`.
+#[derive(Debug, Clone, Args)]
+pub struct FilterArgs {
+    /// Recording to read: .csv/.txt (time column or --fs), .f32/.f64 raw little-endian (--fs).
+    #[arg(long, value_name = "FILE")]
+    pub input: PathBuf,
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Output file; its extension chooses the format (.csv, .f32, .f64).
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Filter forward and backward: no phase shift, |H|² magnitude (recorded data only).
+    #[arg(long)]
+    pub zero_phase: bool,
+    /// Sample rate, Hz, for files that do not carry one.
+    #[arg(long, value_name = "HZ")]
+    pub fs: Option<f64>,
+    /// Channels per frame of a raw input.
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub channels: usize,
+    /// Unit of the input values (and of the output).
+    #[arg(long, value_enum, default_value_t = FileUnitArg::Millivolts)]
+    pub units: FileUnitArg,
 }
 
 /// Options of `leadline monitor`.

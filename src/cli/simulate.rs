@@ -7,6 +7,7 @@ use anyhow::{Context, Result};
 
 use super::{SimFormat, SimulateArgs, Units};
 use crate::source::{Synth, SynthSettings};
+use crate::store::csv::time_text;
 use crate::wire::ascii;
 
 /// Simulator settings from the command line.
@@ -28,16 +29,6 @@ pub fn settings(a: &SimulateArgs) -> SynthSettings {
         inverted: a.inverted,
         lead_off: a.lead_off,
         ..SynthSettings::default()
-    }
-}
-
-/// Formats sample n's time so that it is exact where fs allows and never loses order.
-pub fn time_text(n: u64, fs: f64) -> String {
-    let t = n as f64 / fs;
-    if (1e6 / fs).fract() == 0.0 {
-        format!("{t:.6}")
-    } else {
-        format!("{t:.9}")
     }
 }
 

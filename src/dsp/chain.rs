@@ -288,6 +288,16 @@ pub fn filter_once(sections: &[Section], x: &mut [f64]) {
     }
 }
 
+/// Filters `x` in place, one pass, starting in the steady state of its first sample, so a DC
+/// offset in a recording does not ring through the high-pass at the start.
+pub fn filter_settled(sections: &[Section], x: &mut [f64]) {
+    let Some(&first) = x.first() else { return };
+    let mut c = Cascade::new(sections, first);
+    for v in x {
+        *v = c.run(*v);
+    }
+}
+
 /// Edge padding used by [`zero_phase`]: 3 × (2·sections + 1 − trailing zero taps), as
 /// scipy.signal.sosfiltfilt computes it by default.
 pub fn zero_phase_padlen(sections: &[Section]) -> usize {

@@ -1,0 +1,167 @@
+//! Files: reading recordings for replay and the offline commands, writing results.
+//!
+//! - [`csv`]: our CSV (`time_s`, one column per channel) and generic oscilloscope-style CSVs.
+//! - [`raw`]: headerless little-endian f32/f64, frame-major.
+//!
+//! A [`Recording`] holds input-referred µV per channel, whatever the file's unit.
+
+pub mod csv;
+pub mod raw;
+
+use std::path::Path;
+
+/// Unit of values in a file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FileUnit {
+    Volts,
+    Millivolts,
+    Microvolts,
+}
+
+impl FileUnit {
+    /// µV per file unit.
+    pub fn to_uv(self) -> f64 {
+        match self {
+            FileUnit::Volts => 1e6,
+            FileUnit::Millivolts => 1e3,
+            FileUnit::Microvolts => 1.0,
+        }
+    }
+
+    /// The unit's name in headers and messages.
+    pub fn name(self) -> &'static str {
+        match self {
+            FileUnit::Volts => "V",
+            FileUnit::Millivolts => "mV",
+            FileUnit::Microvolts => "uV",
+        }
+    }
+}
+
+/// Why a file could not be read or written. Messages name the file and, where known, the line.
+#[derive(Debug, thiserror::Error)]
+pub enum StoreError {
+    /// The OS refused (missing file, permissions, full disk).
+    #[error("{path}: {source}")]
+    Io {
+        path: String,
+        #[source]
+        source: std::io::Error,
+    },
+    /// The content is not what the format promises.
+    #[error("{path}: {reason}")]
+    Malformed { path: String, reason: String },
+    /// The sample rate is neither in the file nor given.
+    #[error("{path}: no sample rate: the file has no time column or fs= line; give --fs HZ")]
+    NoRate { path: String },
+    /// The extension names no format we read or write.
+    #[error("{path}: unknown file type (expected .csv, .txt, .f32 or .f64)")]
+    UnknownType { path: String },
+}
+
+impl StoreError {
+    pub(crate) fn io(path: &Path, source: std::io::Error) -> Self {
+        StoreError::Io {
+            path: path.display().to_string(),
+            source,
+        }
+    }
+
+    pub(crate) fn malformed(path: &Path, reason: impl Into<String>) -> Self {
+        StoreError::Malformed {
+            path: path.display().to_string(),
+            reason: reason.into(),
+        }
+    }
+}
+
+/// A recording in memory: channels of input-referred µV at one rate.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Recording {
+    /// Sample rate, Hz.
+    pub fs_hz: f64,
+    /// Channel names (from the header, or ch1, ch2, …).
+    pub names: Vec<String>,
+    /// The file's own sample times, s, if it had a time column (kept so outputs share the time base).
+    pub time_s: Option<Vec<f64>>,
+    /// One vector per channel, µV.
+    pub channels: Vec<Vec<f64>>,
+}
+
+impl Recording {
+    /// Frames in the recording.
+    pub fn len(&self) -> usize {
+        self.channels.first().map_or(0, Vec::len)
+    }
+
+    /// True when there are no frames.
+    pub fn is_empty(&self) -> bool {
+        self.len() == 0
+    }
+
+    /// Time of frame `i`, s: the file's own time base when it had one.
+    pub fn time_of(&self, i: usize) -> f64 {
+        match &self.time_s {
+            Some(t) => t[i],
+            None => i as f64 / self.fs_hz,
+        }
+    }
+}
+
+/// What the reader needs to know that a file may not say.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ReadOptions {
+    /// Sample rate if the file has none (required for raw files).
+    pub fs_hz: Option<f64>,
+    /// Unit of the values.
+    pub unit: FileUnit,
+    /// Channels per frame of a raw file.
+    pub channels: usize,
+}
+
+impl Default for ReadOptions {
+    fn default() -> Self {
+        Self {
+            fs_hz: None,
+            unit: FileUnit::Millivolts,
+            channels: 1,
+        }
+    }
+}
+
+fn extension(path: &Path) -> String {
+    path.extension()
+        .and_then(|e| e.to_str())
+        .unwrap_or("")
+        .to_ascii_lowercase()
+}
+
+/// Reads a recording, choosing the format by extension.
+///
+/// # Errors
+/// [`StoreError`] with the file name and the reason.
+pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
+    match extension(path).as_str() {
+        "csv" | "txt" | "tsv" => csv::read(path, opts),
+        "f32" => raw::read(path, raw::Sample::F32, opts),
+        "f64" => raw::read(path, raw::Sample::F64, opts),
+        _ => Err(StoreError::UnknownType {
+            path: path.display().to_string(),
+        }),
+    }
+}
+
+/// Writes a recording, choosing the format by extension.
+///
+/// # Errors
+/// [`StoreError`] when the file cannot be written.
+pub fn write(path: &Path, rec: &Recording, unit: FileUnit) -> Result<(), StoreError> {
+    match extension(path).as_str() {
+        "csv" | "txt" => csv::write(path, rec, unit),
+        "f32" => raw::write(path, rec, raw::Sample::F32, unit),
+        "f64" => raw::write(path, rec, raw::Sample::F64, unit),
+        _ => Err(StoreError::UnknownType {
+            path: path.display().to_string(),
+        }),
+    }
+}

@@ -1,0 +1,199 @@
+//! The command-line contract: sos, response, filter and simulate, run as a user would run them.
+// Helpers outside #[test] functions unwrap too: a panic is the failure report.
+#![allow(clippy::unwrap_used)]
+
+use std::path::PathBuf;
+use std::process::Command;
+
+fn leadline(args: &[&str]) -> std::process::Output {
+    Command::new(env!("CARGO_BIN_EXE_leadline"))
+        .args(args)
+        .output()
+        .unwrap()
+}
+
+fn tmp(name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("leadline-cli-{}", std::process::id()));
+    std::fs::create_dir_all(&d).unwrap();
+    d.join(name)
+}
+
+#[test]
+fn sos_prints_scipy_layout_rows() {
+    let o = leadline(&[
+        "sos",
+        "--highpass",
+        "0.5",
+        "--notch",
+        "60",
+        "--lowpass",
+        "40",
+        "--fs",
+        "1000",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let rows: Vec<Vec<f64>> = serde_json::from_slice(&o.stdout).unwrap();
+    // HP order 2 (1 section) + notch (1) + LP order 4 (2).
+    assert_eq!(rows.len(), 4);
+    assert!(rows.iter().all(|r| r.len() == 6 && r[3] == 1.0));
+    let notch = leadline::dsp::design::notch(60.0, 30.0, 1000.0).unwrap();
+    // serde_json's default float parser may be one ulp off the printed (round-trip) value.
+    for (got, want) in rows[1]
+        .iter()
+        .zip([notch.b0, notch.b1, notch.b2, 1.0, notch.a1, notch.a2])
+    {
+        assert!(
+            (got - want).abs() <= 1e-15 * want.abs().max(1.0),
+            "{got} vs {want}"
+        );
+    }
+}
+
+#[test]
+fn response_writes_the_promised_columns() {
+    let out = tmp("resp.csv");
+    let o = leadline(&[
+        "response",
+        "--lowpass",
+        "40",
+        "--fs",
+        "500",
+        "--freqs",
+        "1,40,100",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = std::fs::read_to_string(&out).unwrap();
+    let lines: Vec<&str> = text.lines().collect();
+    assert_eq!(lines[0], "freq_hz,mag_db,phase_deg,group_delay_s");
+    let at40: Vec<f64> = lines[2].split(',').map(|v| v.parse().unwrap()).collect();
+    assert!((at40[1] + 3.0103).abs() < 1e-3, "{}", lines[2]);
+    let o = leadline(&[
+        "response",
+        "--lowpass",
+        "40",
+        "--fs",
+        "500",
+        "--points",
+        "64",
+    ]);
+    assert_eq!(String::from_utf8(o.stdout).unwrap().lines().count(), 65);
+}
+
+#[test]
+fn filter_keeps_the_time_base_and_converts_formats() {
+    let input = tmp("in.csv");
+    let o = leadline(&[
+        "simulate",
+        "--fs",
+        "250",
+        "--seconds",
+        "4",
+        "--channels",
+        "2",
+        "--out",
+        input.to_str().unwrap(),
+    ]);
+    assert!(o.status.success());
+    let out = tmp("out.csv");
+    let o = leadline(&[
+        "filter",
+        "--input",
+        input.to_str().unwrap(),
+        "--highpass",
+        "0.5",
+        "--notch",
+        "50",
+        "--lowpass",
+        "40",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let a = std::fs::read_to_string(&input).unwrap();
+    let b = std::fs::read_to_string(&out).unwrap();
+    assert_eq!(a.lines().count(), b.lines().count());
+    assert_eq!(b.lines().next().unwrap(), "time_s,ch1,ch2");
+    for (la, lb) in a.lines().zip(b.lines()).skip(1) {
+        let t = |l: &str| l.split(',').next().unwrap().parse::<f64>().unwrap();
+        assert_eq!(t(la), t(lb), "same time column");
+    }
+    // No stage: a plain conversion to raw f64 keeps the values (in mV) exactly.
+    let raw = tmp("out.f64");
+    let o = leadline(&[
+        "filter",
+        "--input",
+        input.to_str().unwrap(),
+        "--out",
+        raw.to_str().unwrap(),
+    ]);
+    assert!(o.status.success());
+    let bytes = std::fs::read(&raw).unwrap();
+    assert_eq!(bytes.len(), 1000 * 2 * 8);
+    let first: f64 = a
+        .lines()
+        .nth(1)
+        .unwrap()
+        .split(',')
+        .nth(1)
+        .unwrap()
+        .parse()
+        .unwrap();
+    let got = f64::from_le_bytes(bytes[..8].try_into().unwrap());
+    assert!((got - first).abs() < 1e-12, "{got} vs {first}");
+    // Zero-phase from raw back to CSV.
+    let back = tmp("back.csv");
+    let o = leadline(&[
+        "filter",
+        "--input",
+        raw.to_str().unwrap(),
+        "--fs",
+        "250",
+        "--channels",
+        "2",
+        "--zero-phase",
+        "--lowpass",
+        "30",
+        "--out",
+        back.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert_eq!(
+        std::fs::read_to_string(&back).unwrap().lines().count(),
+        1001
+    );
+}
+
+#[test]
+fn bad_input_exits_2_with_a_one_line_reason() {
+    let o = leadline(&["sos", "--lowpass", "300", "--fs", "500"]);
+    assert_eq!(o.status.code(), Some(2));
+    let err = String::from_utf8(o.stderr).unwrap();
+    assert!(err.contains("Nyquist") && err.lines().count() == 1, "{err}");
+    let missing = tmp("nope.csv");
+    let o = leadline(&[
+        "filter",
+        "--input",
+        missing.to_str().unwrap(),
+        "--out",
+        tmp("x.csv").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(1), "a missing file is an I/O failure");
+    let garbage = tmp("garbage.csv");
+    std::fs::write(&garbage, "hello\nworld\n").unwrap();
+    let o = leadline(&[
+        "filter",
+        "--input",
+        garbage.to_str().unwrap(),
+        "--out",
+        tmp("y.csv").to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("no rows of numbers"));
+    let o = leadline(&["simulate", "--fs", "50"]);
+    assert_eq!(o.status.code(), Some(2));
+    for cmd in ["simulate", "monitor", "sos", "response", "filter"] {
+        assert!(leadline(&[cmd, "--help"]).status.success(), "{cmd} --help");
+    }
+}
