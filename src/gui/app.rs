@@ -41,6 +41,17 @@ pub struct LeadlineApp {
     shot_requested: Option<Instant>,
     outcome: Arc<Mutex<Result<()>>>,
     pending: Vec<Control>,
+    response: panels::response::ResponseCache,
+    lower: LowerView,
+}
+
+/// What the strip under the traces shows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum LowerView {
+    /// The chain's magnitude, phase and group delay.
+    Response,
+    /// Nothing: the traces take the whole height.
+    Hidden,
 }
 
 fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, PipelineError> {
@@ -83,6 +94,8 @@ impl LeadlineApp {
             shot_requested: None,
             outcome,
             pending: Vec::new(),
+            response: Default::default(),
+            lower: LowerView::Response,
         })
     }
 
@@ -249,8 +262,33 @@ impl LeadlineApp {
                 });
             });
 
+        self.response.update(&self.settings.chain, fs);
         egui::CentralPanel::default_margins().show(ui, |ui| {
-            panels::trace::show(ui, &self.view, &self.settings);
+            let total = ui.available_height();
+            let lower_h = if self.lower == LowerView::Hidden {
+                0.0
+            } else {
+                (0.36 * total).clamp(150.0, 320.0)
+            };
+            let trace_h = total - lower_h - 30.0;
+            ui.allocate_ui(egui::vec2(ui.available_width(), trace_h), |ui| {
+                panels::trace::show(ui, &self.view, &self.settings);
+            });
+            ui.horizontal(|ui| {
+                ui.selectable_value(&mut self.lower, LowerView::Response, "Chain response")
+                    .on_hover_text(
+                        "Magnitude, phase and group delay of the digital chain as set now.",
+                    );
+                ui.selectable_value(&mut self.lower, LowerView::Hidden, "Traces only");
+            });
+            if self.lower == LowerView::Response {
+                panels::response::show(
+                    ui,
+                    &self.response,
+                    &self.settings.chain,
+                    panels::trace::FILTERED_COLOUR,
+                );
+            }
         });
 
         if panels::caution::first_start(ui.ctx(), &mut self.caution_open) {

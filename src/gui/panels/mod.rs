@@ -2,6 +2,7 @@
 
 pub mod caution;
 pub mod chain;
+pub mod response;
 pub mod simulator;
 pub mod status;
 pub mod trace;

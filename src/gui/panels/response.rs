@@ -1,0 +1,206 @@
+//! The chain's response: magnitude, phase and group delay over a logarithmic frequency axis,
+//! recomputed only when the chain or the rate changes.
+
+use eframe::egui;
+use egui_plot::{GridInput, GridMark, HoverPosition, Line, Plot, PlotPoints, VLine};
+
+use crate::dsp::chain::ChainSettings;
+use crate::dsp::response::{self, Point, Summary};
+
+/// Points on the frequency axis.
+const POINTS: usize = 400;
+
+/// A computed response, kept until the chain changes.
+#[derive(Debug, Clone)]
+pub struct ResponseCache {
+    key: Option<(ChainSettings, f64)>,
+    points: Vec<Point>,
+    summary: Option<Summary>,
+    error: Option<String>,
+}
+
+impl Default for ResponseCache {
+    fn default() -> Self {
+        Self {
+            key: None,
+            points: Vec::new(),
+            summary: None,
+            error: None,
+        }
+    }
+}
+
+impl ResponseCache {
+    /// Recomputes when `chain` or `fs` differ from the cached ones.
+    pub fn update(&mut self, chain: &ChainSettings, fs: f64) {
+        if self.key == Some((*chain, fs)) {
+            return;
+        }
+        self.key = Some((*chain, fs));
+        match chain.design(fs) {
+            Ok(sections) => {
+                let freqs = response::log_frequencies(0.01, 0.499 * fs, POINTS);
+                self.points = response::evaluate(&sections, &freqs, fs);
+                self.summary = Some(response::summary(&sections, fs));
+                self.error = None;
+            }
+            Err(e) => {
+                self.points.clear();
+                self.summary = None;
+                self.error = Some(e.to_string());
+            }
+        }
+    }
+
+    /// The summary line: band edges and the delay the QRS sees.
+    pub fn summary_text(&self) -> String {
+        match (&self.summary, &self.error) {
+            (_, Some(e)) => e.clone(),
+            (Some(s), None) => {
+                let lo = s
+                    .low_3db_hz
+                    .map_or("DC".to_string(), |f| format!("{f:.3} Hz"));
+                let hi = s
+                    .high_3db_hz
+                    .map_or("Nyquist".to_string(), |f| format!("{f:.1} Hz"));
+                format!(
+                    "−3 dB band {lo} … {hi} · peak gain {:.2} dB · group delay at 10 Hz {:.1} ms",
+                    if s.peak_db.abs() < 0.005 {
+                        0.0
+                    } else {
+                        s.peak_db
+                    },
+                    s.delay_10hz_s * 1e3
+                )
+            }
+            (None, None) => String::new(),
+        }
+    }
+}
+
+/// Grid for an axis in log10(Hz): a labelled line per decade, fainter lines at 2…9 × each decade.
+/// egui_plot fades lines and labels by `step_size` in pixels; the sizes given here are chosen so
+/// decades stay labelled on a narrow plot, not the true spacing.
+pub fn decade_spacer(input: GridInput) -> Vec<GridMark> {
+    let (lo, hi) = input.bounds;
+    let mut marks = Vec::new();
+    if !(lo.is_finite() && hi.is_finite()) || hi - lo > 40.0 {
+        return marks;
+    }
+    for d in (lo.floor() as i32)..=(hi.ceil() as i32) {
+        let base = d as f64;
+        if base >= lo && base <= hi {
+            marks.push(GridMark {
+                value: base,
+                step_size: 10.0,
+            });
+        }
+        for m in 2..10 {
+            let v = base + (m as f64).log10();
+            if v >= lo && v <= hi {
+                marks.push(GridMark {
+                    value: v,
+                    step_size: 0.6,
+                });
+            }
+        }
+    }
+    marks
+}
+
+fn hz_ticks(mark: GridMark, _range: &std::ops::RangeInclusive<f64>) -> String {
+    let f = 10f64.powf(mark.value);
+    if (mark.value - mark.value.round()).abs() > 1e-6 {
+        return String::new();
+    }
+    if f >= 1.0 {
+        format!("{f:.0}")
+    } else {
+        format!("{f}")
+    }
+}
+
+fn freq_plot(id: &str, y_label: &str, height: f32, width: f32, span: (f64, f64)) -> Plot<'static> {
+    Plot::new(id.to_string())
+        .include_x(span.0)
+        .include_x(span.1)
+        .height(height)
+        .width(width)
+        .x_axis_label("frequency (Hz)")
+        .y_axis_label(y_label.to_string())
+        .x_grid_spacer(decade_spacer)
+        .x_axis_formatter(hz_ticks)
+        .allow_drag(false)
+        .allow_zoom(false)
+        .allow_scroll(false)
+        .allow_boxed_zoom(false)
+        .label_formatter(|pos| {
+            let (name, p) = match pos {
+                HoverPosition::NearDataPoint {
+                    plot_name,
+                    position,
+                    ..
+                } => (*plot_name, *position),
+                HoverPosition::Elsewhere { position } => ("", *position),
+            };
+            let f = 10f64.powf(p.x);
+            Some(if name.is_empty() {
+                format!("{f:.3} Hz\n{:.3}", p.y)
+            } else {
+                format!("{name}\n{f:.3} Hz\n{:.3}", p.y)
+            })
+        })
+}
+
+/// Draws the three plots side by side and the summary line.
+pub fn show(
+    ui: &mut egui::Ui,
+    cache: &ResponseCache,
+    chain: &ChainSettings,
+    colour: egui::Color32,
+) {
+    ui.label(cache.summary_text());
+    let pts = &cache.points;
+    if pts.is_empty() {
+        return;
+    }
+    let x = |p: &Point| p.freq_hz.log10();
+    let width = ((ui.available_width() - 16.0) / 3.0).max(120.0);
+    let span = (x(&pts[0]), x(&pts[pts.len() - 1]));
+    let height = (ui.available_height() - 4.0).max(100.0);
+    let corners: Vec<f64> = [
+        chain.highpass.enabled.then_some(chain.highpass.corner_hz),
+        chain.notch.enabled.then_some(chain.notch.mains_hz),
+        chain.lowpass.enabled.then_some(chain.lowpass.corner_hz),
+    ]
+    .into_iter()
+    .flatten()
+    .collect();
+    ui.horizontal(|ui| {
+        let mag: Vec<[f64; 2]> = pts.iter().map(|p| [x(p), p.mag_db.max(-80.0)]).collect();
+        freq_plot("response-mag", "gain (dB)", height, width, span)
+            .include_y(-80.0)
+            .include_y(3.0)
+            .show(ui, |pu| {
+                for &c in &corners {
+                    pu.vline(VLine::new("", c.log10()).color(egui::Color32::from_gray(90)));
+                }
+                pu.line(Line::new("magnitude", PlotPoints::new(mag)).color(colour));
+            });
+        let phase: Vec<[f64; 2]> = pts.iter().map(|p| [x(p), p.phase_deg]).collect();
+        freq_plot("response-phase", "phase (°)", height, width, span).show(ui, |pu| {
+            pu.line(Line::new("phase", PlotPoints::new(phase)).color(colour));
+        });
+        // Group delay is undefined in the notch's zero; a break in the line, not a spike.
+        let delay: Vec<[f64; 2]> = pts
+            .iter()
+            .filter(|p| p.group_delay_s.is_finite() && p.mag_db > -40.0)
+            .map(|p| [x(p), p.group_delay_s * 1e3])
+            .collect();
+        freq_plot("response-delay", "group delay (ms)", height, width, span)
+            .include_y(0.0)
+            .show(ui, |pu| {
+                pu.line(Line::new("group delay", PlotPoints::new(delay)).color(colour));
+            });
+    });
+}
