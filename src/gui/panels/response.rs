@@ -11,23 +11,12 @@ use crate::dsp::response::{self, Point, Summary};
 const POINTS: usize = 400;
 
 /// A computed response, kept until the chain changes.
-#[derive(Debug, Clone)]
+#[derive(Debug, Clone, Default)]
 pub struct ResponseCache {
     key: Option<(ChainSettings, f64)>,
     points: Vec<Point>,
     summary: Option<Summary>,
     error: Option<String>,
-}
-
-impl Default for ResponseCache {
-    fn default() -> Self {
-        Self {
-            key: None,
-            points: Vec::new(),
-            summary: None,
-            error: None,
-        }
-    }
 }
 
 impl ResponseCache {
