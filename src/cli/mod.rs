@@ -1,5 +1,6 @@
 //! Command-line front door: argument types (clap) and one module per command.
 
+pub mod bench;
 pub mod filter;
 pub mod response;
 pub mod simulate;
@@ -33,6 +34,26 @@ pub enum Command {
     Response(ResponseArgs),
     /// Filter a recorded file through the chain (or convert it, with no stage given).
     Filter(FilterArgs),
+    /// Measure throughput on this machine (run a release build); the last line is JSON.
+    Bench(BenchArgs),
+}
+
+/// What `leadline bench` measures.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum BenchWhat {
+    /// The 4-section chain (HP 0.5 Hz ×2, notch 60 Hz, LP 40 Hz ×4 at 1 kHz), one pass and in 64-sample blocks.
+    Dsp,
+}
+
+/// Options of `leadline bench`.
+#[derive(Debug, Clone, Args)]
+pub struct BenchArgs {
+    /// The figure to measure.
+    #[arg(value_enum)]
+    pub what: BenchWhat,
+    /// Samples to process.
+    #[arg(long, default_value_t = 10_000_000, value_name = "N")]
+    pub samples: usize,
 }
 
 /// The filter chain on the command line. Each stage is used only when its corner is given.

@@ -1,0 +1,149 @@
+//! `leadline bench`: throughput figures measured on this machine, the last line one JSON object.
+
+use std::hint::black_box;
+use std::time::Instant;
+
+use anyhow::Result;
+use serde::Serialize;
+
+use super::{BenchArgs, BenchWhat};
+use crate::dsp::Section;
+use crate::dsp::chain::{Chain, ChainSettings, HighPass, LowPass, Notch};
+use crate::rng::Rng;
+
+/// The benchmark chain: HP 2nd order 0.5 Hz + notch 60 Hz Q 30 + LP 4th order 40 Hz at 1 kHz.
+pub fn bench_chain() -> ChainSettings {
+    ChainSettings {
+        highpass: HighPass {
+            enabled: true,
+            corner_hz: 0.5,
+            order: 2,
+        },
+        notch: Notch {
+            enabled: true,
+            mains_hz: 60.0,
+            q: 30.0,
+            harmonics: 0,
+        },
+        lowpass: LowPass {
+            enabled: true,
+            corner_hz: 40.0,
+            order: 4,
+        },
+        gain: 1.0,
+    }
+}
+
+/// The benchmark input: an ECG-band sine with mains and noise, fixed seed.
+pub fn bench_signal(n: usize, fs: f64) -> Vec<f64> {
+    let mut rng = Rng::new(2024);
+    (0..n)
+        .map(|i| {
+            let t = i as f64 / fs;
+            1000.0 * (std::f64::consts::TAU * 1.2 * t).sin()
+                + 200.0 * (std::f64::consts::TAU * 60.0 * t).sin()
+                + 20.0 * rng.normal()
+        })
+        .collect()
+}
+
+/// A hand-written transposed direct form II cascade: the yardstick the chain is held to.
+pub fn direct_loop(sections: &[Section], x: &mut [f64]) {
+    let mut st = vec![[0.0f64; 2]; sections.len()];
+    for v in x.iter_mut() {
+        let mut y = *v;
+        for (s, z) in sections.iter().zip(st.iter_mut()) {
+            let out = s.b0 * y + z[0];
+            z[0] = s.b1 * y - s.a1 * out + z[1];
+            z[1] = s.b2 * y - s.a2 * out;
+            y = out;
+        }
+        *v = y;
+    }
+}
+
+/// Best of `runs` timings of `f` on a fresh copy of `input` (the copy is not timed).
+fn best_of<F: FnMut(&mut [f64])>(runs: usize, input: &[f64], mut f: F) -> f64 {
+    let mut buf = input.to_vec();
+    (0..runs)
+        .map(|_| {
+            buf.copy_from_slice(input);
+            let t = Instant::now();
+            f(&mut buf);
+            let dt = t.elapsed().as_secs_f64();
+            black_box(&buf);
+            dt
+        })
+        .fold(f64::INFINITY, f64::min)
+}
+
+#[derive(Serialize)]
+struct DspFigures {
+    samples: usize,
+    sections: usize,
+    fs_hz: f64,
+    samples_per_s: f64,
+    block64_samples_per_s: f64,
+    direct_loop_samples_per_s: f64,
+    chain_vs_direct: f64,
+}
+
+fn dsp(samples: usize) -> Result<DspFigures> {
+    let fs = 1000.0;
+    let settings = bench_chain();
+    let sections = settings.design(fs)?;
+    let input = bench_signal(samples, fs);
+    let one_pass = best_of(3, &input, |buf| {
+        let mut chain =
+            Chain::new(settings, fs, 1).unwrap_or_else(|_| unreachable!("designed above"));
+        chain.process_channel(0, buf);
+    });
+    let blocks = best_of(3, &input, |buf| {
+        let mut chain =
+            Chain::new(settings, fs, 1).unwrap_or_else(|_| unreachable!("designed above"));
+        for b in buf.chunks_mut(64) {
+            chain.process_channel(0, b);
+        }
+    });
+    let direct = best_of(3, &input, |buf| direct_loop(&sections, buf));
+    let n = samples as f64;
+    Ok(DspFigures {
+        samples,
+        sections: sections.len(),
+        fs_hz: fs,
+        samples_per_s: n / one_pass,
+        block64_samples_per_s: n / blocks,
+        direct_loop_samples_per_s: n / direct,
+        chain_vs_direct: direct / one_pass,
+    })
+}
+
+/// Runs the command.
+///
+/// # Errors
+/// Only if the benchmark chain could not be designed.
+pub fn run(a: &BenchArgs) -> Result<()> {
+    match a.what {
+        BenchWhat::Dsp => {
+            let f = dsp(a.samples)?;
+            println!(
+                "chain of {} sections at {} Hz over {} samples:",
+                f.sections, f.fs_hz, f.samples
+            );
+            println!(
+                "  one pass          {:8.1} M samples/s",
+                f.samples_per_s / 1e6
+            );
+            println!(
+                "  blocks of 64      {:8.1} M samples/s",
+                f.block64_samples_per_s / 1e6
+            );
+            println!(
+                "  hand-written loop {:8.1} M samples/s",
+                f.direct_loop_samples_per_s / 1e6
+            );
+            println!("{}", serde_json::to_string(&f)?);
+        }
+    }
+    Ok(())
+}
