@@ -4,6 +4,7 @@
 pub mod chain;
 pub mod design;
 pub mod response;
+pub mod spectrum;
 
 pub use chain::{Chain, ChainSettings, HighPass, LowPass, Notch};
 pub use design::{DesignError, Section};

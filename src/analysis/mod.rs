@@ -1,0 +1,3 @@
+//! What is in the signal: mains interference and band powers ([`mains`]).
+
+pub mod mains;
