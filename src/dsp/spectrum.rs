@@ -173,7 +173,11 @@ impl Welch {
 
 /// The power-of-two segment (256 … 16384) nearest to `seconds` at `fs`.
 pub fn segment_for(fs: f64, seconds: f64) -> usize {
-    let want = (fs * seconds).max(256.0).min(16384.0);
+    let want = fs * seconds;
+    if !want.is_finite() {
+        return 256;
+    }
+    let want = want.clamp(256.0, 16384.0);
     1usize << (want.log2().round() as u32)
 }
 
