@@ -1,6 +1,10 @@
 //! Types that cross threads: blocks of samples in, snapshots for the display, control messages back.
 
+use std::sync::Arc;
+
+use crate::analysis::mains::MainsReport;
 use crate::dsp::chain::ChainSettings;
+use crate::dsp::spectrum::Psd;
 use crate::scale::InputScale;
 use crate::source::SynthSettings;
 
@@ -97,6 +101,27 @@ pub struct Stats {
     pub latency_ms: f64,
 }
 
+/// The running spectrum of one channel, made about once a second.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SpectrumFrame {
+    /// Channel (0-based).
+    pub channel: usize,
+    /// Sample rate, Hz.
+    pub fs_hz: f64,
+    /// Seconds of signal the estimate covers.
+    pub seconds: f64,
+    /// Welch PSD before the chain, µV²/Hz.
+    pub raw: Psd,
+    /// Welch PSD after the chain, µV²/Hz.
+    pub filtered: Psd,
+    /// Mains measurement before the chain.
+    pub mains_raw: Option<MainsReport>,
+    /// Mains measurement after the chain.
+    pub mains_filtered: Option<MainsReport>,
+    /// Counter: a new number means a new estimate.
+    pub serial: u64,
+}
+
 /// What the GUI gets, at most at the display rate.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Snapshot {
@@ -118,6 +143,8 @@ pub struct Snapshot {
     pub stats: Stats,
     /// The source has ended (a finite run or a file).
     pub source_done: bool,
+    /// The newest spectrum (shared, so repeating it costs nothing).
+    pub spectrum: Option<Arc<SpectrumFrame>>,
 }
 
 /// Messages from the GUI (or CLI) to the threads. Tiny and rare: the channel is unbounded.
@@ -131,4 +158,8 @@ pub enum Control {
     Window(f64),
     /// Stop sending snapshots (the data still flow to the recorder) or resume.
     DisplayPaused(bool),
+    /// Channel whose spectrum is estimated (0-based).
+    SpectrumChannel(usize),
+    /// Welch segment length (power of two, 256–16384); 0 picks about 4 s.
+    SpectrumSegment(usize),
 }

@@ -2,14 +2,18 @@
 //! the recorder path.
 
 use std::collections::VecDeque;
+use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant};
 
 use crossbeam_channel::{Receiver, RecvTimeoutError, Sender, TrySendError};
 
+use crate::analysis::mains;
 use crate::dsp::chain::{Chain, ChainSettings};
+use crate::dsp::spectrum::{Psd, Welch, segment_for};
 use crate::msg::{
-    ChannelTrace, Columns, Control, RawBlock, RecordBlock, SampleUnit, Snapshot, Stats,
+    ChannelTrace, Columns, Control, RawBlock, RecordBlock, SampleUnit, Snapshot, SpectrumFrame,
+    Stats,
 };
 use crate::scale::InputScale;
 use crate::source::run::send_blocking;
@@ -20,6 +24,11 @@ pub const TARGET_COLUMNS: usize = 1200;
 pub const MAX_WINDOW_S: f64 = 30.0;
 /// Shortest display window, s.
 pub const MIN_WINDOW_S: f64 = 2.0;
+
+/// Seconds of signal behind each spectrum estimate (at least one segment).
+pub const SPECTRUM_S: f64 = 10.0;
+/// How often the spectrum is re-estimated.
+const SPECTRUM_PERIOD: Duration = Duration::from_millis(1000);
 
 /// The callback the DSP thread calls after each Snapshot (the GUI passes `request_repaint`).
 pub type Notify = std::sync::Arc<dyn Fn() + Send + Sync>;
@@ -113,6 +122,13 @@ impl TraceBuf {
         self.total += 1;
     }
 
+    /// Copies the newest `n` samples (or all there are) into `out`.
+    fn tail_into(&self, n: usize, out: &mut Vec<f64>) {
+        out.clear();
+        let skip = self.ring.len().saturating_sub(n);
+        out.extend(self.ring.iter().skip(skip).map(|&v| v as f64));
+    }
+
     fn columns(&self, fs: f64) -> Columns {
         let n = self.col_min.len() + usize::from(self.cur_n > 0);
         let mut min = Vec::with_capacity(n);
@@ -152,6 +168,78 @@ pub struct DspPorts {
     pub record_tx: Option<Sender<RecordBlock>>,
 }
 
+/// The spectrum estimator of the DSP thread: plan and buffers made once per rate and segment.
+struct SpectrumState {
+    channel: usize,
+    segment_request: usize,
+    welch: Option<Welch>,
+    raw: Vec<f64>,
+    filtered: Vec<f64>,
+    last: Instant,
+    serial: u64,
+    frame: Option<Arc<SpectrumFrame>>,
+}
+
+impl SpectrumState {
+    fn new() -> Self {
+        Self {
+            channel: 0,
+            segment_request: 0,
+            welch: None,
+            raw: Vec::new(),
+            filtered: Vec::new(),
+            last: Instant::now(),
+            serial: 0,
+            frame: None,
+        }
+    }
+
+    /// Re-estimates when a period has passed and a segment of data is there.
+    fn update(&mut self, r: &Running) {
+        if self.frame.is_some() && self.last.elapsed() < SPECTRUM_PERIOD {
+            return;
+        }
+        let segment = if self.segment_request == 0 {
+            segment_for(r.fs, 4.0)
+        } else {
+            self.segment_request
+        };
+        if self.welch.as_ref().is_none_or(|w| w.segment() != segment) {
+            self.welch = Welch::new(segment).ok();
+        }
+        let Some(welch) = self.welch.as_mut() else {
+            return;
+        };
+        let ch = self.channel.min(r.channels.saturating_sub(1));
+        let want = ((SPECTRUM_S * r.fs) as usize).max(segment);
+        r.raw[ch].tail_into(want, &mut self.raw);
+        r.filtered[ch].tail_into(want, &mut self.filtered);
+        if self.raw.len() < segment {
+            return;
+        }
+        let (mut raw, mut filtered) = (Psd::default(), Psd::default());
+        if welch.compute_into(&self.raw, r.fs, &mut raw).is_err()
+            || welch
+                .compute_into(&self.filtered, r.fs, &mut filtered)
+                .is_err()
+        {
+            return;
+        }
+        self.serial += 1;
+        self.last = Instant::now();
+        self.frame = Some(Arc::new(SpectrumFrame {
+            channel: ch,
+            fs_hz: r.fs,
+            seconds: self.raw.len() as f64 / r.fs,
+            mains_raw: mains::analyse(&self.raw, r.fs, &raw).ok(),
+            mains_filtered: mains::analyse(&self.filtered, r.fs, &filtered).ok(),
+            raw,
+            filtered,
+            serial: self.serial,
+        }));
+    }
+}
+
 struct Running {
     fs: f64,
     channels: usize,
@@ -179,6 +267,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
     let mut oldest_pending: Option<Instant> = None;
     let mut latency_window_start = Instant::now();
     let mut latency_max_ms: f64 = 0.0;
+    let mut spectrum = SpectrumState::new();
 
     loop {
         if stop.load(Ordering::Relaxed) {
@@ -202,6 +291,14 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     }
                 }
                 Control::DisplayPaused(p) => paused = p,
+                Control::SpectrumChannel(c) => {
+                    spectrum.channel = c;
+                    spectrum.frame = None;
+                }
+                Control::SpectrumSegment(n) => {
+                    spectrum.segment_request = n;
+                    spectrum.frame = None;
+                }
                 // Simulator settings go straight to the source thread.
                 Control::Synth(_) => {}
             }
@@ -212,7 +309,17 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
             Err(RecvTimeoutError::Timeout) => None,
             Err(RecvTimeoutError::Disconnected) => {
                 if let Some(r) = &state {
-                    let snap = snapshot(r, window_s, &chain_error, scale, &stats, true);
+                    spectrum.frame = None;
+                    spectrum.update(r);
+                    let snap = snapshot(
+                        r,
+                        window_s,
+                        &chain_error,
+                        scale,
+                        &stats,
+                        true,
+                        &spectrum.frame,
+                    );
                     offer(&ports, snap, &mut stats);
                     notify();
                 }
@@ -330,7 +437,16 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 latency_max_ms = 0.0;
                 latency_window_start = now;
             }
-            let snap = snapshot(r, window_s, &chain_error, scale, &stats, false);
+            spectrum.update(r);
+            let snap = snapshot(
+                r,
+                window_s,
+                &chain_error,
+                scale,
+                &stats,
+                false,
+                &spectrum.frame,
+            );
             offer(&ports, snap, &mut stats);
             last_snapshot = now;
             notify();
@@ -345,6 +461,7 @@ fn snapshot(
     scale: Option<InputScale>,
     stats: &Stats,
     done: bool,
+    spectrum: &Option<Arc<SpectrumFrame>>,
 ) -> Snapshot {
     Snapshot {
         fs_hz: r.fs,
@@ -364,6 +481,7 @@ fn snapshot(
         scale,
         stats: stats.clone(),
         source_done: done,
+        spectrum: spectrum.clone(),
     }
 }
 

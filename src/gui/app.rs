@@ -42,12 +42,15 @@ pub struct LeadlineApp {
     outcome: Arc<Mutex<Result<()>>>,
     pending: Vec<Control>,
     response: panels::response::ResponseCache,
+    spectrum: panels::spectrum::SpectrumView,
     lower: LowerView,
 }
 
 /// What the strip under the traces shows.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum LowerView {
+    /// The running spectrum with the mains measurement.
+    Spectrum,
     /// The chain's magnitude, phase and group delay.
     Response,
     /// Nothing: the traces take the whole height.
@@ -95,7 +98,8 @@ impl LeadlineApp {
             outcome,
             pending: Vec::new(),
             response: Default::default(),
-            lower: LowerView::Response,
+            spectrum: Default::default(),
+            lower: LowerView::Spectrum,
         })
     }
 
@@ -268,26 +272,33 @@ impl LeadlineApp {
             let lower_h = if self.lower == LowerView::Hidden {
                 0.0
             } else {
-                (0.36 * total).clamp(150.0, 320.0)
+                (0.42 * total).clamp(150.0, 360.0)
             };
             let trace_h = total - lower_h - 30.0;
             ui.allocate_ui(egui::vec2(ui.available_width(), trace_h), |ui| {
                 panels::trace::show(ui, &self.view, &self.settings);
             });
             ui.horizontal(|ui| {
+                ui.selectable_value(&mut self.lower, LowerView::Spectrum, "Spectrum")
+                    .on_hover_text("Running Welch PSD before and after the chain, with the mains lines measured.");
                 ui.selectable_value(&mut self.lower, LowerView::Response, "Chain response")
                     .on_hover_text(
                         "Magnitude, phase and group delay of the digital chain as set now.",
                     );
                 ui.selectable_value(&mut self.lower, LowerView::Hidden, "Traces only");
             });
-            if self.lower == LowerView::Response {
-                panels::response::show(
-                    ui,
-                    &self.response,
-                    &self.settings.chain,
-                    panels::trace::FILTERED_COLOUR,
-                );
+            match self.lower {
+                LowerView::Response => {
+                    panels::response::show(ui, &self.response, &self.settings.chain, panels::trace::FILTERED_COLOUR);
+                }
+                LowerView::Spectrum => {
+                    let frame = self.view.snapshot.as_ref().and_then(|s| s.spectrum.as_ref());
+                    let sections = self.settings.chain.design(fs).ok();
+                    if let Some(c) = panels::spectrum::show(ui, frame, sections.as_deref(), &mut self.spectrum) {
+                        self.pending.push(c);
+                    }
+                }
+                LowerView::Hidden => {}
             }
         });
 

@@ -4,5 +4,6 @@ pub mod caution;
 pub mod chain;
 pub mod response;
 pub mod simulator;
+pub mod spectrum;
 pub mod status;
 pub mod trace;

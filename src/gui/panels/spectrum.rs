@@ -1,0 +1,301 @@
+//! The running spectrum: PSD before and after the chain, the chain's gain overlaid, the mains
+//! lines marked with their measured RMS, and a held "before" estimate with the change at each
+//! mains line (for example: charger plugged in, then unplugged).
+
+use std::sync::Arc;
+
+use eframe::egui;
+use egui_plot::{
+    AxisHints, HPlacement, HoverPosition, Line, LineStyle, Plot, PlotPoint, PlotPoints, Points,
+    Text,
+};
+
+use super::response::decade_spacer;
+use super::trace::{FILTERED_COLOUR, RAW_COLOUR};
+use crate::analysis::mains::MainsReport;
+use crate::dsp::Section;
+use crate::dsp::response;
+use crate::msg::{Control, SpectrumFrame};
+
+/// Colour of the held estimate.
+pub const BEFORE_COLOUR: egui::Color32 = egui::Color32::from_rgb(214, 150, 60);
+/// Colour of the chain-gain overlay.
+const GAIN_COLOUR: egui::Color32 = egui::Color32::from_gray(150);
+/// Lowest level drawn, dB re 1 µV²/Hz.
+const FLOOR_DB: f64 = -60.0;
+
+/// The spectrum view's own settings and the held estimate.
+#[derive(Debug, Clone)]
+pub struct SpectrumView {
+    /// Logarithmic frequency axis (else linear).
+    pub log_freq: bool,
+    /// Draw the PSD after the chain too.
+    pub show_filtered: bool,
+    /// Welch segment; 0 = about 4 s.
+    pub segment: usize,
+    /// The held "before" estimate.
+    pub before: Option<Arc<SpectrumFrame>>,
+}
+
+impl Default for SpectrumView {
+    fn default() -> Self {
+        Self {
+            log_freq: true,
+            show_filtered: true,
+            segment: 0,
+            before: None,
+        }
+    }
+}
+
+fn db(v: f64) -> f64 {
+    (10.0 * v.max(1e-30).log10()).max(FLOOR_DB)
+}
+
+/// Change of each mains line between two measurements, dB (20·log10 of the RMS ratio).
+pub fn line_changes(before: &MainsReport, after: &MainsReport) -> Vec<(u32, f64)> {
+    after
+        .harmonics
+        .iter()
+        .filter_map(|a| {
+            let b = before.harmonics.iter().find(|b| b.order == a.order)?;
+            Some((
+                a.order,
+                20.0 * (a.rms_uv.max(1e-9) / b.rms_uv.max(1e-9)).log10(),
+            ))
+        })
+        .collect()
+}
+
+/// One-line description of a mains report.
+pub fn report_text(r: &MainsReport) -> String {
+    let lines: Vec<String> = r
+        .harmonics
+        .iter()
+        .map(|h| {
+            if h.order == 1 {
+                format!("{:.1} µV", h.rms_uv)
+            } else {
+                format!("{}×: {:.1}", h.order, h.rms_uv)
+            }
+        })
+        .collect();
+    format!(
+        "mains {:.2} Hz: {} · ECG band {:.0} µV rms · wander {:.0} µV · muscle {:.1} µV · signal/mains {:.1} dB",
+        r.mains_hz,
+        lines.join(", "),
+        r.band_power.ecg_uv2.sqrt(),
+        r.band_power.wander_uv2.sqrt(),
+        r.band_power.muscle_uv2.sqrt(),
+        r.snr_db
+    )
+}
+
+/// Draws the controls and the plot. Returns the Control to send, if the user changed one.
+pub fn show(
+    ui: &mut egui::Ui,
+    frame: Option<&Arc<SpectrumFrame>>,
+    sections: Option<&[Section]>,
+    view: &mut SpectrumView,
+) -> Option<Control> {
+    let mut control = None;
+    ui.horizontal(|ui| {
+        ui.checkbox(&mut view.log_freq, "log frequency").on_hover_text("Logarithmic or linear frequency axis.");
+        ui.checkbox(&mut view.show_filtered, "after the filters").on_hover_text("Also draw the PSD after the chain.");
+        let before = view.segment;
+        egui::ComboBox::from_id_salt("welch-segment")
+            .selected_text(if view.segment == 0 { "segment ≈4 s".to_string() } else { format!("segment {}", view.segment) })
+            .show_ui(ui, |ui| {
+                ui.selectable_value(&mut view.segment, 0, "≈4 s (auto)");
+                for n in [256, 512, 1024, 2048, 4096, 8192, 16384] {
+                    ui.selectable_value(&mut view.segment, n, format!("{n} samples"));
+                }
+            })
+            .response
+            .on_hover_text("Welch segment length: longer gives finer frequency resolution, shorter a steadier estimate.");
+        if view.segment != before {
+            control = Some(Control::SpectrumSegment(view.segment));
+        }
+        if ui
+            .button("Hold as before")
+            .on_hover_text("Keep this estimate as the reference and show the change at each mains line (e.g. before unplugging the charger).")
+            .clicked()
+        {
+            view.before = frame.cloned();
+        }
+        if view.before.is_some() && ui.button("Clear before").clicked() {
+            view.before = None;
+        }
+    });
+    let Some(frame) = frame else {
+        ui.label("Collecting the first spectrum (one segment of signal)…");
+        return control;
+    };
+    if let Some(r) = &frame.mains_raw {
+        ui.label(report_text(r));
+    }
+    if let (Some(b), Some(a)) = (
+        view.before.as_ref().and_then(|b| b.mains_raw.as_ref()),
+        frame.mains_raw.as_ref(),
+    ) {
+        let parts: Vec<String> = line_changes(b, a)
+            .iter()
+            .map(|(o, d)| {
+                if *o == 1 {
+                    format!("fundamental {d:+.1} dB")
+                } else {
+                    format!("{o}×: {d:+.1} dB")
+                }
+            })
+            .collect();
+        ui.colored_label(
+            BEFORE_COLOUR,
+            format!("now vs before: {}", parts.join(" · ")),
+        );
+    }
+
+    let log = view.log_freq;
+    let xf = move |f: f64| if log { f.log10() } else { f };
+    let curve = |psd: &crate::dsp::spectrum::Psd| -> Vec<[f64; 2]> {
+        psd.freqs_hz
+            .iter()
+            .zip(&psd.density)
+            .skip(1)
+            .map(|(&f, &d)| [xf(f), db(d)])
+            .collect()
+    };
+    let raw = curve(&frame.raw);
+    let top = raw.iter().map(|p| p[1]).fold(FLOOR_DB, f64::max).ceil();
+    let mut plot = Plot::new("spectrum")
+        .height((ui.available_height() - 4.0).max(100.0))
+        .x_axis_label("frequency (Hz)")
+        .allow_drag(false)
+        .allow_zoom(false)
+        .allow_scroll(false)
+        .allow_boxed_zoom(false)
+        .include_y(FLOOR_DB)
+        .include_y(top + 3.0)
+        .legend(egui_plot::Legend::default().position(egui_plot::Corner::LeftBottom))
+        .y_grid_spacer(|input| {
+            // A line every 10 dB (labelled), every 5 dB faint.
+            let (lo, hi) = input.bounds;
+            let mut marks = Vec::new();
+            let mut v = (lo / 5.0).floor() * 5.0;
+            while v <= hi {
+                let major = (v / 10.0).round() * 10.0 == v;
+                marks.push(egui_plot::GridMark {
+                    value: v,
+                    step_size: if major { 40.0 } else { 5.0 },
+                });
+                v += 5.0;
+            }
+            marks
+        })
+        .custom_y_axes(vec![
+            AxisHints::new_y()
+                .label("PSD (dB re 1 µV²/Hz)")
+                .formatter(|m, _| {
+                    if (m.value / 10.0).round() * 10.0 == m.value {
+                        format!("{:.0}", m.value)
+                    } else {
+                        String::new()
+                    }
+                }),
+            AxisHints::new_y()
+                .label("chain gain (dB)")
+                .placement(HPlacement::Right)
+                .formatter(move |m, _| {
+                    if (m.value / 10.0).round() * 10.0 == m.value {
+                        format!("{:.0}", m.value - top)
+                    } else {
+                        String::new()
+                    }
+                }),
+        ])
+        .label_formatter(move |pos| {
+            let (name, p) = match pos {
+                HoverPosition::NearDataPoint {
+                    plot_name,
+                    position,
+                    ..
+                } => (*plot_name, *position),
+                HoverPosition::Elsewhere { position } => ("", *position),
+            };
+            let f = if log { 10f64.powf(p.x) } else { p.x };
+            Some(format!("{name}\n{f:.2} Hz\n{:.1} dB", p.y))
+        });
+    if log {
+        plot = plot.x_grid_spacer(decade_spacer).x_axis_formatter(|m, _| {
+            if (m.value - m.value.round()).abs() > 1e-6 {
+                return String::new();
+            }
+            let f = 10f64.powf(m.value);
+            if f >= 1.0 {
+                format!("{f:.0}")
+            } else {
+                format!("{f}")
+            }
+        });
+    }
+    plot.show(ui, |pu| {
+        if let Some(b) = &view.before {
+            pu.line(
+                Line::new("before", PlotPoints::new(curve(&b.raw)))
+                    .color(BEFORE_COLOUR)
+                    .style(LineStyle::Dashed { length: 6.0 }),
+            );
+        }
+        pu.line(Line::new("before the filters", PlotPoints::new(raw.clone())).color(RAW_COLOUR));
+        if view.show_filtered {
+            pu.line(
+                Line::new("after the filters", PlotPoints::new(curve(&frame.filtered)))
+                    .color(FILTERED_COLOUR),
+            );
+        }
+        if let Some(sections) = sections {
+            let gain: Vec<[f64; 2]> = frame
+                .raw
+                .freqs_hz
+                .iter()
+                .skip(1)
+                .map(|&f| {
+                    [
+                        xf(f),
+                        (20.0 * response::magnitude(sections, f, frame.fs_hz).log10())
+                            .max(FLOOR_DB - top)
+                            + top,
+                    ]
+                })
+                .collect();
+            pu.line(
+                Line::new("chain gain", PlotPoints::new(gain))
+                    .color(GAIN_COLOUR)
+                    .width(1.0),
+            );
+        }
+        if let Some(r) = &frame.mains_raw {
+            let at = |f: f64| {
+                let k = (f / frame.raw.bin_hz).round() as usize;
+                frame.raw.density.get(k).map_or(FLOOR_DB, |&d| db(d))
+            };
+            let marks: Vec<[f64; 2]> = r.harmonics.iter().map(|h| [xf(h.hz), at(h.hz)]).collect();
+            pu.points(
+                Points::new("mains lines", PlotPoints::new(marks))
+                    .radius(4.0)
+                    .color(BEFORE_COLOUR),
+            );
+            for h in &r.harmonics {
+                let label = if h.order == 1 {
+                    format!("{:.2} Hz\n{:.1} µV", h.hz, h.rms_uv)
+                } else {
+                    format!("{:.1} µV", h.rms_uv)
+                };
+                pu.text(
+                    Text::new("", PlotPoint::new(xf(h.hz), at(h.hz) + 4.0), label)
+                        .color(BEFORE_COLOUR),
+                );
+            }
+        }
+    });
+    control
+}
