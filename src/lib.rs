@@ -29,6 +29,7 @@
 pub mod analysis;
 pub mod cli;
 pub mod dsp;
+pub mod export;
 pub mod gui;
 pub mod msg;
 pub mod pipeline;

@@ -18,6 +18,7 @@ fn main() -> ExitCode {
         Some(Command::Sos(a)) => leadline::cli::sos::run(&a),
         Some(Command::Response(a)) => leadline::cli::response::run(&a),
         Some(Command::Filter(a)) => leadline::cli::filter::run(&a).map(|_| ()),
+        Some(Command::Spectrum(a)) => leadline::cli::spectrum::run(&a),
         Some(Command::Bench(a)) => leadline::cli::bench::run(&a),
     };
     match result {

@@ -197,3 +197,47 @@ fn bad_input_exits_2_with_a_one_line_reason() {
         assert!(leadline(&[cmd, "--help"]).status.success(), "{cmd} --help");
     }
 }
+
+#[test]
+fn spectrum_writes_psd_report_and_png_from_a_scope_style_csv() {
+    // A scope-style export: preamble, header with units, time column in seconds, volts.
+    let input = tmp("scope.csv");
+    let mut text = String::from("Model,XYZ\nSample Interval,0.002\nTime (s),CH1 (V)\n");
+    for i in 0..5000 {
+        let t = i as f64 * 0.002;
+        let v = 40e-6 * std::f64::consts::SQRT_2 * (std::f64::consts::TAU * 50.3 * t).sin()
+            + 1e-3 * (std::f64::consts::TAU * 1.2 * t).sin();
+        text.push_str(&format!("{t:.4},{v:.9e}\n"));
+    }
+    std::fs::write(&input, text).unwrap();
+    let (out, report, png) = (tmp("psd.csv"), tmp("report.json"), tmp("psd.png"));
+    let o = leadline(&[
+        "spectrum",
+        "--input",
+        input.to_str().unwrap(),
+        "--units",
+        "V",
+        "--out",
+        out.to_str().unwrap(),
+        "--report",
+        report.to_str().unwrap(),
+        "--png",
+        png.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    assert!(
+        std::fs::read_to_string(&out)
+            .unwrap()
+            .starts_with("freq_hz,psd\n0,")
+    );
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
+    assert!((r["mains_hz"].as_f64().unwrap() - 50.3).abs() < 0.05, "{r}");
+    assert!(
+        (r["harmonics"][0]["rms_uv"].as_f64().unwrap() - 40.0).abs() < 0.8,
+        "{r}"
+    );
+    assert!(r["snr_db"].is_number() && r["band_power"]["ecg_uv2"].is_number());
+    let header = std::fs::read(&png).unwrap();
+    assert_eq!(&header[..8], b"\x89PNG\r\n\x1a\n");
+}

@@ -5,6 +5,7 @@ pub mod filter;
 pub mod response;
 pub mod simulate;
 pub mod sos;
+pub mod spectrum;
 
 use std::path::PathBuf;
 
@@ -34,8 +35,42 @@ pub enum Command {
     Response(ResponseArgs),
     /// Filter a recorded file through the chain (or convert it, with no stage given).
     Filter(FilterArgs),
+    /// Welch PSD of a recording (CSV), the mains report (JSON) and a plot (PNG).
+    Spectrum(SpectrumArgs),
     /// Measure throughput on this machine (run a release build); the last line is JSON.
     Bench(BenchArgs),
+}
+
+/// Options of `leadline spectrum`.
+#[derive(Debug, Clone, Args)]
+pub struct SpectrumArgs {
+    /// Recording to read (.csv/.txt with a time column or --fs; .f32/.f64 with --fs).
+    #[arg(long, value_name = "FILE")]
+    pub input: PathBuf,
+    /// Welch segment length (power of two, 256–16384); default about 4 s of signal.
+    #[arg(long, value_name = "N")]
+    pub segment: Option<usize>,
+    /// PSD output: CSV with freq_hz,psd (µV²/Hz at the electrodes).
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Mains report (JSON): mains_hz, harmonics [{order, hz, rms_uv}], snr_db, band_power.
+    #[arg(long, value_name = "FILE")]
+    pub report: Option<PathBuf>,
+    /// Plot of the PSD with the mains lines (PNG).
+    #[arg(long, value_name = "FILE")]
+    pub png: Option<PathBuf>,
+    /// Channel to analyse (0-based).
+    #[arg(long, default_value_t = 0, value_name = "K")]
+    pub channel: usize,
+    /// Sample rate, Hz, for files that do not carry one.
+    #[arg(long, value_name = "HZ")]
+    pub fs: Option<f64>,
+    /// Channels per frame of a raw input.
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub channels: usize,
+    /// Unit of the input values.
+    #[arg(long, value_enum, default_value_t = FileUnitArg::Millivolts)]
+    pub units: FileUnitArg,
 }
 
 /// What `leadline bench` measures.
@@ -43,6 +78,8 @@ pub enum Command {
 pub enum BenchWhat {
     /// The 4-section chain (HP 0.5 Hz ×2, notch 60 Hz, LP 40 Hz ×4 at 1 kHz), one pass and in 64-sample blocks.
     Dsp,
+    /// One Welch update of 10 s at 1 kHz (segment 2048), and the mains measurement on it.
+    Spectrum,
 }
 
 /// Options of `leadline bench`.
