@@ -2,11 +2,13 @@
 //!
 //! - [`csv`]: our CSV (`time_s`, one column per channel) and generic oscilloscope-style CSVs.
 //! - [`raw`]: headerless little-endian f32/f64, frame-major.
+//! - [`wfdb`]: PhysioNet WFDB records (`.hea` + `.dat`, formats 212 and 16).
 //!
 //! A [`Recording`] holds input-referred µV per channel, whatever the file's unit.
 
 pub mod csv;
 pub mod raw;
+pub mod wfdb;
 
 use std::path::Path;
 
@@ -55,7 +57,7 @@ pub enum StoreError {
     #[error("{path}: no sample rate: the file has no time column or fs= line; give --fs HZ")]
     NoRate { path: String },
     /// The extension names no format we read or write.
-    #[error("{path}: unknown file type (expected .csv, .txt, .f32 or .f64)")]
+    #[error("{path}: unknown file type (expected .csv, .txt, .f32, .f64 or a WFDB .hea)")]
     UnknownType { path: String },
 }
 
@@ -145,6 +147,7 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
         "csv" | "txt" | "tsv" => csv::read(path, opts),
         "f32" => raw::read(path, raw::Sample::F32, opts),
         "f64" => raw::read(path, raw::Sample::F64, opts),
+        "hea" => wfdb::read(path),
         _ => Err(StoreError::UnknownType {
             path: path.display().to_string(),
         }),
