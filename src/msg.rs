@@ -3,6 +3,9 @@
 use std::sync::Arc;
 
 use crate::analysis::mains::MainsReport;
+use crate::analysis::quality::Quality;
+use crate::analysis::rate::{Hrv, RateState};
+use crate::analysis::template::Template;
 use crate::dsp::chain::ChainSettings;
 use crate::dsp::spectrum::Psd;
 use crate::scale::InputScale;
@@ -122,6 +125,23 @@ pub struct SpectrumFrame {
     pub serial: u64,
 }
 
+/// Beats and what follows from them, for the followed channel.
+#[derive(Debug, Clone, PartialEq)]
+pub struct BeatView {
+    /// Channel (0-based).
+    pub channel: usize,
+    /// R-peak sample indices of the last two minutes.
+    pub beats: Vec<u64>,
+    /// The heart-rate readout.
+    pub rate: RateState,
+    /// Variability over the accepted intervals.
+    pub hrv: Option<Hrv>,
+    /// Signal quality.
+    pub quality: Quality,
+    /// The averaged beat, raw and filtered.
+    pub template: Option<Arc<Template>>,
+}
+
 /// What the GUI gets, at most at the display rate.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Snapshot {
@@ -145,6 +165,10 @@ pub struct Snapshot {
     pub source_done: bool,
     /// The newest spectrum (shared, so repeating it costs nothing).
     pub spectrum: Option<Arc<SpectrumFrame>>,
+    /// Beats, heart rate and quality (None when the rate is outside 125–2000 Hz).
+    pub beats: Option<BeatView>,
+    /// Every channel is inverted before the chain.
+    pub inverted: bool,
 }
 
 /// Messages from the GUI (or CLI) to the threads. Tiny and rare: the channel is unbounded.
@@ -158,8 +182,10 @@ pub enum Control {
     Window(f64),
     /// Stop sending snapshots (the data still flow to the recorder) or resume.
     DisplayPaused(bool),
-    /// Channel whose spectrum is estimated (0-based).
-    SpectrumChannel(usize),
+    /// Channel whose spectrum, beats and heart rate are followed (0-based).
+    Channel(usize),
+    /// Invert every channel before the chain (leads swapped on the board).
+    Invert(bool),
     /// Welch segment length (power of two, 256–16384); 0 picks about 4 s.
     SpectrumSegment(usize),
 }

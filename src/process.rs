@@ -8,12 +8,16 @@ use std::time::{Duration, Instant};
 
 use crossbeam_channel::{Receiver, RecvTimeoutError, Sender, TrySendError};
 
+use crate::analysis::beats::{Beat, Detector};
 use crate::analysis::mains;
+use crate::analysis::quality::QualityMonitor;
+use crate::analysis::rate::RateMeter;
+use crate::analysis::template::TemplateBuilder;
 use crate::dsp::chain::{Chain, ChainSettings};
 use crate::dsp::spectrum::{Psd, Welch, segment_for};
 use crate::msg::{
-    ChannelTrace, Columns, Control, RawBlock, RecordBlock, SampleUnit, Snapshot, SpectrumFrame,
-    Stats,
+    BeatView, ChannelTrace, Columns, Control, RawBlock, RecordBlock, SampleUnit, Snapshot,
+    SpectrumFrame, Stats,
 };
 use crate::scale::InputScale;
 use crate::source::run::send_blocking;
@@ -120,6 +124,16 @@ impl TraceBuf {
         self.ring.push_back(v);
         self.push_column_sample(v);
         self.total += 1;
+    }
+
+    /// Samples `start .. start + len` (absolute indices), if the ring still holds them.
+    fn window(&self, start: u64, len: usize) -> Option<Vec<f64>> {
+        let first = self.total - self.ring.len() as u64;
+        if start < first || start + len as u64 > self.total {
+            return None;
+        }
+        let off = (start - first) as usize;
+        Some(self.ring.range(off..off + len).map(|&v| v as f64).collect())
     }
 
     /// Copies the newest `n` samples (or all there are) into `out`.
@@ -240,6 +254,100 @@ impl SpectrumState {
     }
 }
 
+/// Beat detection, heart rate, quality and template for the followed channel.
+struct BeatState {
+    channel: usize,
+    detector: Detector,
+    meter: RateMeter,
+    quality: QualityMonitor,
+    template: TemplateBuilder,
+    beats: VecDeque<u64>,
+    waiting: VecDeque<u64>,
+    found: Vec<Beat>,
+    values: Vec<f64>,
+    template_frame: Option<Arc<crate::analysis::template::Template>>,
+    keep: u64,
+}
+
+impl BeatState {
+    fn new(fs: f64, channel: usize) -> Option<Self> {
+        Some(Self {
+            channel,
+            detector: Detector::new(fs).ok()?,
+            meter: RateMeter::new(fs),
+            quality: QualityMonitor::new(fs),
+            template: TemplateBuilder::new(fs),
+            beats: VecDeque::new(),
+            waiting: VecDeque::new(),
+            found: Vec::new(),
+            values: Vec::new(),
+            template_frame: None,
+            keep: (120.0 * fs) as u64,
+        })
+    }
+
+    /// One block of the followed channel (µV) with its rail flags.
+    fn process(&mut self, uv: &[f64], rails: &[bool], channels: usize, r: &Running) {
+        self.values.clear();
+        self.values
+            .extend(uv.iter().skip(self.channel).step_by(channels));
+        for (v, &rail) in self
+            .values
+            .iter()
+            .zip(rails.iter().skip(self.channel).step_by(channels))
+        {
+            self.quality.push(*v, rail);
+        }
+        self.found.clear();
+        self.detector.process(&self.values, &mut self.found);
+        for b in &self.found {
+            self.meter.on_beat(b.sample);
+            self.quality.push_beat(b.r_value);
+            self.beats.push_back(b.sample);
+            self.waiting.push_back(b.sample);
+        }
+        let now = self.detector.samples();
+        while self.beats.front().is_some_and(|&b| b + self.keep < now) {
+            self.beats.pop_front();
+        }
+        // Beats whose whole window has arrived go into the template.
+        let (pre, post) = self.template.window();
+        let mut added = false;
+        while let Some(&b) = self.waiting.front() {
+            if b + post as u64 >= now {
+                break;
+            }
+            self.waiting.pop_front();
+            let ch = self.channel.min(r.channels - 1);
+            let len = pre + post + 1;
+            if b >= pre as u64
+                && let (Some(raw), Some(filt)) = (
+                    r.raw[ch].window(b - pre as u64, len),
+                    r.filtered[ch].window(b - pre as u64, len),
+                )
+            {
+                self.template.add(raw, filt);
+                added = true;
+            }
+        }
+        if added {
+            self.template_frame = self.template.template().map(Arc::new);
+        }
+        self.meter.set_unreliable(!self.quality.quality().usable());
+    }
+
+    fn view(&self) -> BeatView {
+        BeatView {
+            channel: self.channel,
+            beats: self.beats.iter().copied().collect(),
+            rate: self.meter.state(self.detector.samples()),
+            hrv: self.meter.hrv(),
+            quality: self.quality.quality(),
+            template: self.template_frame.clone(),
+        }
+    }
+}
+
 struct Running {
     fs: f64,
     channels: usize,
@@ -268,6 +376,10 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
     let mut latency_window_start = Instant::now();
     let mut latency_max_ms: f64 = 0.0;
     let mut spectrum = SpectrumState::new();
+    let mut beat_state: Option<BeatState> = None;
+    let mut follow = 0usize;
+    let mut invert = false;
+    let mut rails: Vec<bool> = Vec::new();
 
     loop {
         if stop.load(Ordering::Relaxed) {
@@ -291,10 +403,15 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     }
                 }
                 Control::DisplayPaused(p) => paused = p,
-                Control::SpectrumChannel(c) => {
+                Control::Channel(c) => {
                     spectrum.channel = c;
                     spectrum.frame = None;
+                    follow = c;
+                    beat_state = state
+                        .as_ref()
+                        .and_then(|r| BeatState::new(r.fs, c.min(r.channels - 1)));
                 }
+                Control::Invert(i) => invert = i,
                 Control::SpectrumSegment(n) => {
                     spectrum.segment_request = n;
                     spectrum.frame = None;
@@ -311,7 +428,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 if let Some(r) = &state {
                     spectrum.frame = None;
                     spectrum.update(r);
-                    let snap = snapshot(
+                    let mut snap = snapshot(
                         r,
                         window_s,
                         &chain_error,
@@ -320,6 +437,8 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                         true,
                         &spectrum.frame,
                     );
+                    snap.beats = beat_state.as_ref().map(BeatState::view);
+                    snap.inverted = invert;
                     offer(&ports, snap, &mut stats);
                     notify();
                 }
@@ -367,6 +486,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     last_uv: vec![0.0; block.channels],
                     next_sample: block.first_sample,
                 });
+                beat_state = BeatState::new(block.fs_hz, follow.min(block.channels - 1));
             }
             let Some(r) = state.as_mut() else { continue };
             if block.first_sample > r.next_sample {
@@ -378,6 +498,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
             oldest_pending.get_or_insert(block.made_at);
 
             let mut uv = Vec::with_capacity(block.data.len());
+            rails.clear();
             scale = match block.unit {
                 SampleUnit::Counts(s) => Some(s),
                 SampleUnit::Microvolts => None,
@@ -386,13 +507,19 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 let ch = i % r.channels;
                 let value = match block.unit {
                     SampleUnit::Counts(s) => {
-                        if s.is_rail(v) {
+                        let rail = s.is_rail(v);
+                        if rail {
                             stats.clipped += 1;
                         }
+                        rails.push(rail);
                         s.counts_to_uv(v)
                     }
-                    SampleUnit::Microvolts => v,
+                    SampleUnit::Microvolts => {
+                        rails.push(false);
+                        v
+                    }
                 };
+                let value = if invert { -value } else { value };
                 let value = if value.is_finite() {
                     value
                 } else {
@@ -408,6 +535,9 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 let ch = i % r.channels;
                 r.raw[ch].push(a as f32);
                 r.filtered[ch].push(b as f32);
+            }
+            if let Some(bs) = beat_state.as_mut() {
+                bs.process(&uv, &rails, r.channels, r);
             }
             if let Some(tx) = &ports.record_tx {
                 let rec = RecordBlock {
@@ -438,7 +568,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 latency_window_start = now;
             }
             spectrum.update(r);
-            let snap = snapshot(
+            let mut snap = snapshot(
                 r,
                 window_s,
                 &chain_error,
@@ -447,6 +577,8 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 false,
                 &spectrum.frame,
             );
+            snap.beats = beat_state.as_ref().map(BeatState::view);
+            snap.inverted = invert;
             offer(&ports, snap, &mut stats);
             last_snapshot = now;
             notify();
@@ -482,6 +614,8 @@ fn snapshot(
         stats: stats.clone(),
         source_done: done,
         spectrum: spectrum.clone(),
+        beats: None,
+        inverted: false,
     }
 }
 

@@ -2,3 +2,6 @@
 
 pub mod beats;
 pub mod mains;
+pub mod quality;
+pub mod rate;
+pub mod template;

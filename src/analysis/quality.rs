@@ -1,0 +1,179 @@
+//! Is the signal good enough to count beats? Judged over the last two seconds of input-referred µV
+//! and the converter's rail flags: a floating input (lead off), a flat line, clipping, and heavy
+//! broadband noise each lower a simple quality index; the heart rate is suppressed below 0.5.
+
+use std::collections::VecDeque;
+
+use serde::Serialize;
+
+/// What is wrong, worst first.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum Problem {
+    /// Input floating: most samples at the rails, or swings of tens of mV.
+    LeadOff,
+    /// Almost no signal (below 20 µV peak to peak).
+    Flat,
+    /// More than 1 % of the samples at an ADC rail.
+    Clipping,
+    /// Broadband noise: sample-to-sample changes above 15 % of the peak-to-peak swing.
+    Noisy,
+}
+
+impl Problem {
+    /// Plain words for the GUI.
+    pub fn text(&self) -> &'static str {
+        match self {
+            Problem::LeadOff => "electrode off or input floating",
+            Problem::Flat => "flat line: no signal",
+            Problem::Clipping => "clipping at the ADC rails",
+            Problem::Noisy => "very noisy signal",
+        }
+    }
+}
+
+/// The verdict.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct Quality {
+    /// 0 (useless) … 1 (clean).
+    pub index: f64,
+    /// The main problem, if any.
+    pub problem: Option<Problem>,
+    /// Most recent beats point downwards: the leads may be swapped.
+    pub inverted: bool,
+}
+
+impl Quality {
+    /// Below this the heart rate is not shown.
+    pub const USABLE: f64 = 0.5;
+
+    /// True when beats can be trusted.
+    pub fn usable(&self) -> bool {
+        self.index >= Self::USABLE
+    }
+}
+
+/// Sliding two-second judgement.
+#[derive(Debug, Clone)]
+pub struct QualityMonitor {
+    window: usize,
+    values: VecDeque<f64>,
+    rails: VecDeque<bool>,
+    rail_count: usize,
+    polarity: VecDeque<bool>,
+}
+
+impl QualityMonitor {
+    /// A monitor at `fs`.
+    pub fn new(fs: f64) -> Self {
+        let window = (2.0 * fs).round().max(2.0) as usize;
+        Self {
+            window,
+            values: VecDeque::with_capacity(window),
+            rails: VecDeque::with_capacity(window),
+            rail_count: 0,
+            polarity: VecDeque::with_capacity(8),
+        }
+    }
+
+    /// One sample (µV) and whether it sat on a rail.
+    pub fn push(&mut self, uv: f64, at_rail: bool) {
+        if self.values.len() == self.window {
+            self.values.pop_front();
+            if self.rails.pop_front() == Some(true) {
+                self.rail_count -= 1;
+            }
+        }
+        self.values.push_back(uv);
+        self.rails.push_back(at_rail);
+        if at_rail {
+            self.rail_count += 1;
+        }
+    }
+
+    /// The sign of a detected beat's R value.
+    pub fn push_beat(&mut self, r_value: f64) {
+        if self.polarity.len() == 8 {
+            self.polarity.pop_front();
+        }
+        self.polarity.push_back(r_value < 0.0);
+    }
+
+    /// The verdict on the current window.
+    pub fn quality(&self) -> Quality {
+        let inverted = self.polarity.len() >= 5
+            && self.polarity.iter().filter(|&&n| n).count() * 4 >= self.polarity.len() * 3;
+        if self.values.len() < self.window / 2 {
+            return Quality {
+                index: 0.0,
+                problem: None,
+                inverted,
+            };
+        }
+        let n = self.values.len() as f64;
+        let rail_frac = self.rail_count as f64 / n;
+        let (lo, hi) = self
+            .values
+            .iter()
+            .fold((f64::MAX, f64::MIN), |(a, b), &v| (a.min(v), b.max(v)));
+        let pp = hi - lo;
+        let diff_rms = (self
+            .values
+            .iter()
+            .zip(self.values.iter().skip(1))
+            .map(|(a, b)| (b - a).powi(2))
+            .sum::<f64>()
+            / (n - 1.0))
+            .sqrt();
+        let (index, problem) = if rail_frac > 0.2 || pp > 20_000.0 {
+            (0.0, Some(Problem::LeadOff))
+        } else if pp < 20.0 {
+            (0.0, Some(Problem::Flat))
+        } else if diff_rms > 0.15 * pp && diff_rms > 30.0 {
+            // Sample-to-sample change comparable to the whole swing: noise, not beats.
+            (0.2, Some(Problem::Noisy))
+        } else if rail_frac > 0.01 {
+            (0.4, Some(Problem::Clipping))
+        } else {
+            (1.0 - (diff_rms / pp / 0.3).min(0.5), None)
+        };
+        Quality {
+            index,
+            problem,
+            inverted,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn flat_floating_clipping_and_clean() {
+        let fs = 500.0;
+        let judge = |f: &dyn Fn(usize) -> (f64, bool)| {
+            let mut q = QualityMonitor::new(fs);
+            for i in 0..1000 {
+                let (v, r) = f(i);
+                q.push(v, r);
+            }
+            q.quality()
+        };
+        let sine = |i: usize| 1000.0 * (i as f64 * 0.03).sin();
+        assert_eq!(judge(&|_| (3.0, false)).problem, Some(Problem::Flat));
+        assert_eq!(
+            judge(&|i| (if i % 2 == 0 { 3300.0 } else { -3300.0 }, true)).problem,
+            Some(Problem::LeadOff)
+        );
+        assert_eq!(
+            judge(&|i| (sine(i), i % 50 == 0)).problem,
+            Some(Problem::Clipping)
+        );
+        let mut rng = crate::rng::Rng::new(3);
+        let noise: Vec<f64> = (0..1000).map(|_| 500.0 * rng.normal()).collect();
+        assert_eq!(judge(&|i| (noise[i], false)).problem, Some(Problem::Noisy));
+        let clean = judge(&|i| (sine(i), false));
+        assert_eq!(clean.problem, None);
+        assert!(clean.usable());
+    }
+}
