@@ -11,6 +11,7 @@ fn main() -> ExitCode {
         None => leadline::gui::run(&MonitorArgs {
             source: "synth".into(),
             size: "1280x800".into(),
+            view: leadline::cli::StartView::Spectrum,
             ..MonitorArgs::default()
         }),
         Some(Command::Monitor(a)) => leadline::gui::run(&a),
@@ -18,6 +19,7 @@ fn main() -> ExitCode {
         Some(Command::Sos(a)) => leadline::cli::sos::run(&a),
         Some(Command::Response(a)) => leadline::cli::response::run(&a),
         Some(Command::Filter(a)) => leadline::cli::filter::run(&a).map(|_| ()),
+        Some(Command::Beats(a)) => leadline::cli::beats::run(&a).map(|_| ()),
         Some(Command::Spectrum(a)) => leadline::cli::spectrum::run(&a),
         Some(Command::Bench(a)) => leadline::cli::bench::run(&a),
     };

@@ -9,8 +9,7 @@
 //! a candidate within 360 ms of the last QRS whose steepest slope is under half of that QRS's is a
 //! T wave; when no QRS has come for 1.66 × the RR average, the largest candidate since the last
 //! QRS above THR2 is taken (search-back, SPKI weight 1/4). The beat is then placed on the R peak:
-//! the sample of largest magnitude of the (0.5 Hz high-passed) input inside the QRS window, so
-//! either polarity works.
+//! the sample of the input farthest from the median of the QRS window, so either polarity works.
 //!
 //! Changes from the published rules, and why:
 //! - Candidates are local maxima of the integrated signal within ±180 ms (an O(1) sliding-window
@@ -32,7 +31,8 @@ use crate::dsp::chain::{Chain, ChainSettings, HighPass, LowPass, Notch};
 pub struct Beat {
     /// Sample index (from the start of the stream) of the R peak.
     pub sample: u64,
-    /// Value of the (high-passed) input at the R peak: its sign is the beat's polarity.
+    /// Value of the input at the R peak relative to the median of the QRS window: its sign is the
+    /// beat's polarity.
     pub r_value: f64,
     /// Found by search-back (a weaker beat the main threshold missed).
     pub search_back: bool,
@@ -53,28 +53,33 @@ struct Candidate {
     slope: f64,
 }
 
-/// A fixed-size ring of the most recent samples, addressed by absolute index.
+/// A ring of the most recent samples, addressed by absolute index. The size is a power of two
+/// so the index arithmetic is a mask, not a division (this runs several times per sample).
 #[derive(Debug, Clone)]
 struct Ring {
     buf: Vec<f64>,
+    mask: u64,
     next: u64,
 }
 
 impl Ring {
     fn new(len: usize) -> Self {
+        let n = len.max(1).next_power_of_two();
         Self {
-            buf: vec![0.0; len.max(1)],
+            buf: vec![0.0; n],
+            mask: n as u64 - 1,
             next: 0,
         }
     }
+    #[inline]
     fn push(&mut self, v: f64) {
-        let n = self.buf.len() as u64;
-        self.buf[(self.next % n) as usize] = v;
+        self.buf[(self.next & self.mask) as usize] = v;
         self.next += 1;
     }
+    #[inline]
     fn get(&self, i: u64) -> Option<f64> {
-        let n = self.buf.len() as u64;
-        (i < self.next && i + n >= self.next).then(|| self.buf[(i % n) as usize])
+        (i < self.next && i + self.buf.len() as u64 >= self.next)
+            .then(|| self.buf[(i & self.mask) as usize])
     }
 }
 
@@ -84,7 +89,6 @@ impl Ring {
 pub struct Detector {
     fs: f64,
     bandpass: Chain,
-    locate: Chain,
     n: u64,
     bp_hist: [f64; 4],
     mwi_len: usize,
@@ -113,6 +117,10 @@ pub struct Detector {
     rr_regular: VecDeque<f64>,
     irregular_run: usize,
     since_qrs: Vec<Candidate>,
+    /// Running mean of the R deflections' signs: +1 upright beats, −1 inverted.
+    polarity: f64,
+    /// When the signal level was last halved by the lock-out guard.
+    last_decay: u64,
 }
 
 fn band_chain(fs: f64) -> ChainSettings {
@@ -135,25 +143,6 @@ fn band_chain(fs: f64) -> ChainSettings {
     }
 }
 
-fn locate_chain() -> ChainSettings {
-    ChainSettings {
-        highpass: HighPass {
-            enabled: true,
-            corner_hz: 0.5,
-            order: 1,
-        },
-        notch: Notch {
-            enabled: false,
-            ..Notch::default()
-        },
-        lowpass: LowPass {
-            enabled: false,
-            ..LowPass::default()
-        },
-        gain: 1.0,
-    }
-}
-
 fn mean(v: &VecDeque<f64>) -> Option<f64> {
     (!v.is_empty()).then(|| v.iter().sum::<f64>() / v.len() as f64)
 }
@@ -170,8 +159,6 @@ impl Detector {
         let band = band_chain(fs);
         let sections = band.design(fs).map_err(|_| DetectorError::SampleRate(fs))?;
         let bandpass = Chain::new(band, fs, 1).map_err(|_| DetectorError::SampleRate(fs))?;
-        let locate =
-            Chain::new(locate_chain(), fs, 1).map_err(|_| DetectorError::SampleRate(fs))?;
         let delay_bp = (crate::dsp::response::group_delay(&sections, 10.0, fs) * fs)
             .round()
             .max(0.0) as u64;
@@ -180,7 +167,6 @@ impl Detector {
         Ok(Self {
             fs,
             bandpass,
-            locate,
             n: 0,
             bp_hist: [0.0; 4],
             mwi_len: secs(0.150).max(1) as usize,
@@ -208,6 +194,8 @@ impl Detector {
             rr_regular: VecDeque::with_capacity(8),
             irregular_run: 0,
             since_qrs: Vec::new(),
+            polarity: 0.0,
+            last_decay: 0,
         })
     }
 
@@ -236,12 +224,21 @@ impl Detector {
 
     /// Processes a block; decided beats are appended to `out` in time order.
     pub fn process(&mut self, x: &[f64], out: &mut Vec<Beat>) {
-        let mut bp = x.to_vec();
-        self.bandpass.process_channel(0, &mut bp);
-        let mut loc = x.to_vec();
-        self.locate.process_channel(0, &mut loc);
-        for (&b, &l) in bp.iter().zip(&loc) {
-            self.step(b, l, out);
+        // Live blocks are small; long offline records go through in slices to keep the
+        // band-passed copy in cache.
+        if self.n == 0
+            && let Some(&x0) = x.first()
+        {
+            self.bandpass.settle(0, x0);
+        }
+        let mut bp = Vec::with_capacity(x.len().min(4096));
+        for chunk in x.chunks(4096) {
+            bp.clear();
+            bp.extend_from_slice(chunk);
+            self.bandpass.process_channel(0, &mut bp);
+            for (&b, &raw) in bp.iter().zip(chunk) {
+                self.step(b, raw, out);
+            }
         }
     }
 
@@ -352,16 +349,25 @@ impl Detector {
     }
 
     fn search_back(&mut self, now: u64, out: &mut Vec<Beat>) {
-        let (Some((last, _)), Some(avg)) = (self.last_qrs, mean(&self.rr_regular)) else {
-            return;
-        };
         if self.since_qrs.is_empty() {
             return;
         }
+        // Before the first beat, wait from the end of the learning phase.
+        let last = self.last_qrs.map_or(self.learn_until, |l| l.0);
+        // Before two beats there is no RR average: assume 1 s (60 bpm).
+        let avg = mean(&self.rr_regular).unwrap_or(self.fs);
         // Candidates are known W samples late: compare against the part already examined.
         let seen = now.saturating_sub(self.half_window);
         if seen as f64 <= last as f64 + 1.66 * avg {
             return;
+        }
+        // Lock-out guard (not in the paper): after 2.5 RR averages (at least 2 s) with no beat
+        // the signal level must have been over-estimated, e.g. after an artefact: halve it, once
+        // per such stretch, so the thresholds come down to where the beats are.
+        let quiet = seen.saturating_sub(last.max(self.last_decay)) as f64;
+        if quiet > (2.5 * avg).max(2.0 * self.fs) {
+            self.spki *= 0.5;
+            self.last_decay = seen;
         }
         let thr2 = 0.5 * self.thr1();
         let min_index = last + self.t_wave_window;
@@ -400,15 +406,36 @@ impl Detector {
         let lo = c
             .index
             .saturating_sub(self.mwi_len as u64 + self.delay_bp + margin);
+        // The window is a quarter of a second and the QRS under half of it: the window's median
+        // stands in for the isoelectric level (a mean would be pulled towards the R wave).
+        let vals: Vec<(u64, f64)> = (lo..=hi)
+            .filter_map(|j| self.loc_ring.get(j).map(|v| (j, v)))
+            .collect();
+        let mut sorted: Vec<f64> = vals.iter().map(|v| v.1).collect();
+        sorted.sort_by(f64::total_cmp);
+        let base = sorted.get(sorted.len() / 2).copied().unwrap_or(0.0);
         let (mut r, mut rv) = (c.index, 0.0f64);
-        for j in lo..=hi {
-            if let Some(v) = self.loc_ring.get(j)
-                && v.abs() > rv.abs()
-            {
+        for &(j, v) in &vals {
+            if (v - base).abs() > rv.abs() {
                 r = j;
-                rv = v;
+                rv = v - base;
             }
         }
+        // Once the usual polarity of this lead is known, prefer the largest deflection of that
+        // sign unless it is much smaller: noise can make an S wave momentarily deeper than R.
+        if self.polarity.abs() >= 0.5 {
+            let sign = self.polarity.signum();
+            let best = vals
+                .iter()
+                .max_by(|a, b| (sign * (a.1 - base)).total_cmp(&(sign * (b.1 - base))));
+            if let Some(&(j, v)) = best
+                && sign * (v - base) >= 0.6 * rv.abs()
+            {
+                r = j;
+                rv = v - base;
+            }
+        }
+        self.polarity = 0.6 * self.polarity + 0.4 * rv.signum();
         if let Some((last, _)) = self.last_qrs {
             let rr = c.index.saturating_sub(last) as f64;
             if self.rr_recent.len() == 8 {

@@ -153,6 +153,60 @@ fn spectrum() -> Result<SpectrumFigures> {
     })
 }
 
+#[derive(Serialize)]
+struct BeatFigures {
+    record: String,
+    samples: usize,
+    fs_hz: f64,
+    beats: usize,
+    detect_ms: f64,
+}
+
+fn beats(record: Option<&std::path::Path>) -> Result<BeatFigures> {
+    let (name, fs, x) = match record {
+        Some(p) => {
+            let r = crate::store::wfdb::read(p)?;
+            (
+                p.display().to_string(),
+                r.fs_hz,
+                r.channels.into_iter().next().unwrap_or_default(),
+            )
+        }
+        None => {
+            let s = crate::source::SynthSettings {
+                fs_hz: 360.0,
+                ..Default::default()
+            };
+            let mut synth = crate::source::Synth::new(s)?;
+            let scale = synth.scale();
+            let mut c = Vec::new();
+            synth.fill(360 * 1800, &mut c);
+            (
+                "simulated 30 min".to_string(),
+                360.0,
+                c.iter().map(|&v| scale.counts_to_uv(v)).collect(),
+            )
+        }
+    };
+    let mut best = f64::INFINITY;
+    let mut n = 0;
+    for _ in 0..3 {
+        let mut det = crate::analysis::beats::Detector::new(fs)?;
+        let mut out = Vec::new();
+        let t = Instant::now();
+        det.process(black_box(&x), &mut out);
+        best = best.min(t.elapsed().as_secs_f64());
+        n = out.len();
+    }
+    Ok(BeatFigures {
+        record: name,
+        samples: x.len(),
+        fs_hz: fs,
+        beats: n,
+        detect_ms: best * 1e3,
+    })
+}
+
 /// Runs the command.
 ///
 /// # Errors
@@ -176,6 +230,14 @@ pub fn run(a: &BenchArgs) -> Result<()> {
             println!(
                 "  hand-written loop {:8.1} M samples/s",
                 f.direct_loop_samples_per_s / 1e6
+            );
+            println!("{}", serde_json::to_string(&f)?);
+        }
+        BenchWhat::Beats => {
+            let f = beats(a.record.as_deref())?;
+            println!(
+                "{}: {} samples at {} Hz, {} beats in {:.1} ms",
+                f.record, f.samples, f.fs_hz, f.beats, f.detect_ms
             );
             println!("{}", serde_json::to_string(&f)?);
         }

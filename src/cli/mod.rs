@@ -1,5 +1,6 @@
 //! Command-line front door: argument types (clap) and one module per command.
 
+pub mod beats;
 pub mod bench;
 pub mod filter;
 pub mod response;
@@ -35,10 +36,38 @@ pub enum Command {
     Response(ResponseArgs),
     /// Filter a recorded file through the chain (or convert it, with no stage given).
     Filter(FilterArgs),
+    /// Detect beats in a recording: beats.csv (sample,time_s,…) and a summary with HR and HRV.
+    Beats(BeatsArgs),
     /// Welch PSD of a recording (CSV), the mains report (JSON) and a plot (PNG).
     Spectrum(SpectrumArgs),
     /// Measure throughput on this machine (run a release build); the last line is JSON.
     Bench(BenchArgs),
+}
+
+/// Options of `leadline beats`.
+#[derive(Debug, Clone, Args)]
+pub struct BeatsArgs {
+    /// Recording: .csv/.txt, .f32/.f64 (with --fs) or a WFDB record's .hea.
+    #[arg(long, value_name = "FILE")]
+    pub input: PathBuf,
+    /// Channel to analyse (0-based).
+    #[arg(long, default_value_t = 0, value_name = "K")]
+    pub channel: usize,
+    /// Beats: CSV with sample,time_s,r_uv,search_back.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Summary (JSON): beat count, mean heart rate, HRV (mean RR, SDNN, RMSSD, pNN50).
+    #[arg(long, value_name = "FILE")]
+    pub summary: Option<PathBuf>,
+    /// Sample rate, Hz, for files that do not carry one.
+    #[arg(long, value_name = "HZ")]
+    pub fs: Option<f64>,
+    /// Channels per frame of a raw input.
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub channels: usize,
+    /// Unit of the input values.
+    #[arg(long, value_enum, default_value_t = FileUnitArg::Millivolts)]
+    pub units: FileUnitArg,
 }
 
 /// Options of `leadline spectrum`.
@@ -80,6 +109,8 @@ pub enum BenchWhat {
     Dsp,
     /// One Welch update of 10 s at 1 kHz (segment 2048), and the mains measurement on it.
     Spectrum,
+    /// Offline beat detection of a 30-minute 360 Hz record (MIT-BIH 100, or a simulated one).
+    Beats,
 }
 
 /// Options of `leadline bench`.
@@ -91,6 +122,9 @@ pub struct BenchArgs {
     /// Samples to process.
     #[arg(long, default_value_t = 10_000_000, value_name = "N")]
     pub samples: usize,
+    /// WFDB record (.hea) for `bench beats`; without it a simulated 30-minute record is used.
+    #[arg(long, value_name = "FILE")]
+    pub record: Option<PathBuf>,
 }
 
 /// The filter chain on the command line. Each stage is used only when its corner is given.
@@ -257,9 +291,26 @@ pub struct MonitorArgs {
     /// Save a PNG of the window just before exiting (needs --exit-after).
     #[arg(long, value_name = "PNG", requires = "exit_after")]
     pub screenshot: Option<PathBuf>,
+    /// What the strip under the traces shows at start.
+    #[arg(long, value_enum, default_value_t = StartView::Spectrum)]
+    pub view: StartView,
     /// Window size in logical pixels, WIDTHxHEIGHT.
     #[arg(long, value_name = "WxH", default_value = "1280x800")]
     pub size: String,
+}
+
+/// The lower strip of the monitor.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum, Default)]
+pub enum StartView {
+    /// Averaged beat and RR tachogram.
+    Beats,
+    /// Running spectrum and mains measurement.
+    #[default]
+    Spectrum,
+    /// Magnitude, phase and group delay of the chain.
+    Response,
+    /// Traces only.
+    Traces,
 }
 
 /// Output format of `leadline simulate`.

@@ -388,6 +388,17 @@ impl Chain {
         Ok(())
     }
 
+    /// Puts one channel's sections in the steady state for a constant input `x0` (as if the
+    /// signal had sat at that level forever), so a stream that starts away from zero does not
+    /// begin with a step response.
+    pub fn settle(&mut self, channel: usize, x0: f64) {
+        if let Some(c) = self.channels.get_mut(channel) {
+            let design = self.design.clone();
+            c.settle(&design, x0);
+            c.last_input = x0;
+        }
+    }
+
     /// Filters one channel's samples in place. State carries over between calls, so any block
     /// size gives the same output.
     pub fn process_channel(&mut self, channel: usize, samples: &mut [f64]) {

@@ -23,6 +23,8 @@ pub struct AppOptions {
     pub screenshot: Option<PathBuf>,
     /// Show the first-start caution.
     pub show_caution: bool,
+    /// The lower strip at start.
+    pub view: crate::cli::StartView,
 }
 
 type Shot = Arc<Mutex<Option<Arc<egui::ColorImage>>>>;
@@ -49,6 +51,8 @@ pub struct LeadlineApp {
 /// What the strip under the traces shows.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum LowerView {
+    /// The averaged beat and the RR tachogram.
+    Beats,
     /// The running spectrum with the mains measurement.
     Spectrum,
     /// The chain's magnitude, phase and group delay.
@@ -84,6 +88,7 @@ impl LeadlineApp {
         outcome: Arc<Mutex<Result<()>>>,
     ) -> Result<Self, PipelineError> {
         let pipeline = start_pipeline(&settings, Arc::clone(&notify))?;
+        let start_view = opts.view;
         Ok(Self {
             settings,
             view: View::default(),
@@ -99,7 +104,12 @@ impl LeadlineApp {
             pending: Vec::new(),
             response: Default::default(),
             spectrum: Default::default(),
-            lower: LowerView::Spectrum,
+            lower: match start_view {
+                crate::cli::StartView::Beats => LowerView::Beats,
+                crate::cli::StartView::Spectrum => LowerView::Spectrum,
+                crate::cli::StartView::Response => LowerView::Response,
+                crate::cli::StartView::Traces => LowerView::Hidden,
+            },
         })
     }
 
@@ -223,11 +233,32 @@ impl LeadlineApp {
                 let n = self.settings.synth.channels;
                 if n > 1 {
                     ui.separator();
-                    ui.add(
-                        egui::Slider::new(&mut self.settings.channel, 0..=n - 1)
-                            .text("Channel index"),
-                    );
+                    let before = self.settings.channel;
+                    egui::ComboBox::from_id_salt("channel")
+                        .selected_text(format!("ch{}", self.settings.channel + 1))
+                        .show_ui(ui, |ui| {
+                            for k in 0..n {
+                                ui.selectable_value(
+                                    &mut self.settings.channel,
+                                    k,
+                                    format!("ch{}", k + 1),
+                                );
+                            }
+                        })
+                        .response
+                        .on_hover_text(
+                            "Channel shown, analysed for beats and used for the spectrum.",
+                        );
+                    if self.settings.channel != before {
+                        self.pending.push(Control::Channel(self.settings.channel));
+                    }
                 }
+                let beats = self.view.snapshot.as_ref().and_then(|s| s.beats.as_ref());
+                ui.allocate_ui_with_layout(
+                    egui::vec2(ui.available_width(), 44.0),
+                    egui::Layout::right_to_left(egui::Align::Center),
+                    |ui| panels::beats::rate_readout(ui, beats),
+                );
             });
         });
 
@@ -241,6 +272,24 @@ impl LeadlineApp {
             .show(ui, |ui| {
                 egui::ScrollArea::vertical().show(ui, |ui| {
                     ui.heading("Filters");
+                let inverted = self.view.snapshot.as_ref().is_some_and(|s| s.inverted);
+                let mut flip = inverted;
+                if ui
+                    .checkbox(&mut flip, "Invert the signal")
+                    .on_hover_text("Flip the sign of every channel before the filters (leads swapped on the board).")
+                    .changed()
+                {
+                    self.pending.push(Control::Invert(flip));
+                }
+                let looks_inverted = self
+                    .view
+                    .snapshot
+                    .as_ref()
+                    .and_then(|s| s.beats.as_ref())
+                    .is_some_and(|b| b.quality.inverted);
+                if looks_inverted && ui.button("Beats point down: flip").clicked() {
+                    self.pending.push(Control::Invert(!inverted));
+                }
                     if panels::chain::show(ui, &mut self.settings.chain, fs) {
                         self.pending.push(Control::Chain(self.settings.chain));
                     }
@@ -279,6 +328,8 @@ impl LeadlineApp {
                 panels::trace::show(ui, &self.view, &self.settings);
             });
             ui.horizontal(|ui| {
+                ui.selectable_value(&mut self.lower, LowerView::Beats, "Beats")
+                    .on_hover_text("The averaged beat before and after the chain, HRV and the RR tachogram.");
                 ui.selectable_value(&mut self.lower, LowerView::Spectrum, "Spectrum")
                     .on_hover_text("Running Welch PSD before and after the chain, with the mains lines measured.");
                 ui.selectable_value(&mut self.lower, LowerView::Response, "Chain response")
@@ -297,6 +348,10 @@ impl LeadlineApp {
                     if let Some(c) = panels::spectrum::show(ui, frame, sections.as_deref(), &mut self.spectrum) {
                         self.pending.push(c);
                     }
+                }
+                LowerView::Beats => {
+                    let b = self.view.snapshot.as_ref().and_then(|s| s.beats.as_ref());
+                    panels::beats::show(ui, b, fs);
                 }
                 LowerView::Hidden => {}
             }

@@ -65,6 +65,7 @@ pub fn run(args: &MonitorArgs) -> Result<()> {
         exit_after_s: args.exit_after,
         screenshot: args.screenshot.clone(),
         show_caution: !state::caution_acknowledged(),
+        view: args.view,
     };
     let outcome = Arc::new(std::sync::Mutex::new(Ok(())));
     let outcome_app = Arc::clone(&outcome);

@@ -225,11 +225,16 @@ impl EcgModel {
         self.t_s += h;
     }
 
-    /// Advances one output sample and returns the ECG in volts at the electrodes.
-    pub fn next_sample(&mut self) -> f64 {
+    /// Advances one output sample and returns the ECG in volts at the electrodes, and whether the
+    /// R event (θ crossing 0) happened during it.
+    pub fn next_sample(&mut self) -> (f64, bool) {
+        let mut r_event = false;
         for _ in 0..self.substeps {
+            let before = self.state[1].atan2(self.state[0]);
             self.step();
+            let after = self.state[1].atan2(self.state[0]);
+            r_event |= before < 0.0 && after >= 0.0 && before > -1.0;
         }
-        self.state[2] * self.volts_per_unit
+        (self.state[2] * self.volts_per_unit, r_event)
     }
 }

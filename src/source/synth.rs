@@ -260,7 +260,11 @@ pub struct Synth {
     sample_index: u64,
     clipped: u64,
     lead_off_rng: Rng,
+    r_events: std::collections::VecDeque<u64>,
 }
+
+/// R events kept for [`Synth::r_events`] (about an hour at 72 bpm).
+const R_EVENTS_KEPT: usize = 4096;
 
 impl Synth {
     /// A simulator for these settings.
@@ -297,8 +301,9 @@ impl Synth {
                 couple_prev_in: 0.0,
                 couple_prev_out: 0.0,
             };
-            // The coupling capacitor has charged to the offset long ago.
-            ch.couple_prev_in = (settings.front_end.inamp_gain * offset_v).clamp(
+            // The coupling capacitor has charged to the offset (of either polarity) long ago.
+            let polarity = if settings.inverted { -1.0 } else { 1.0 };
+            ch.couple_prev_in = (settings.front_end.inamp_gain * polarity * offset_v).clamp(
                 -settings.front_end.inamp_swing_v,
                 settings.front_end.inamp_swing_v,
             );
@@ -314,6 +319,7 @@ impl Synth {
             sample_index: 0,
             clipped: 0,
             lead_off_rng: rng.fork(3),
+            r_events: std::collections::VecDeque::new(),
             settings,
         })
     }
@@ -358,6 +364,11 @@ impl Synth {
         self.sample_index
     }
 
+    /// Sample indices of the most recent R events of the model (the truth for detector tests).
+    pub fn r_events(&self) -> &std::collections::VecDeque<u64> {
+        &self.r_events
+    }
+
     /// Samples (over all channels) that hit an ADC rail so far.
     pub fn clipped(&self) -> u64 {
         self.clipped
@@ -375,7 +386,13 @@ impl Synth {
         let s = &self.settings;
         let fs = s.fs_hz;
         let fe = s.front_end;
-        let ecg_v = self.ecg.next_sample();
+        let (ecg_v, r_event) = self.ecg.next_sample();
+        if r_event {
+            if self.r_events.len() == R_EVENTS_KEPT {
+                self.r_events.pop_front();
+            }
+            self.r_events.push_back(self.sample_index);
+        }
 
         // Mains: continuous phase so a frequency change never steps the waveform.
         self.mains_phase = (self.mains_phase + TAU * s.mains_hz / fs).rem_euclid(TAU);

@@ -1,5 +1,6 @@
 //! One file per panel. Each reads settings/view and reports what the user changed.
 
+pub mod beats;
 pub mod caution;
 pub mod chain;
 pub mod response;

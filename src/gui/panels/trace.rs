@@ -1,7 +1,7 @@
 //! The rolling trace: before and after the filters, stacked, sharing the time axis.
 
 use eframe::egui;
-use egui_plot::{Legend, Line, Plot, PlotPoints};
+use egui_plot::{Legend, Line, Plot, PlotPoints, VLine};
 
 use crate::gui::state::{Settings, View};
 use crate::msg::Columns;
@@ -10,6 +10,9 @@ use crate::msg::Columns;
 pub const RAW_COLOUR: egui::Color32 = egui::Color32::from_rgb(132, 146, 166);
 /// Colour of the filtered trace.
 pub const FILTERED_COLOUR: egui::Color32 = egui::Color32::from_rgb(0, 168, 150);
+
+/// Colour of the beat markers.
+pub const BEAT_COLOUR: egui::Color32 = egui::Color32::from_rgba_premultiplied(120, 70, 40, 90);
 
 /// Turns min/max columns into one polyline that visits both ends of every column, so a column
 /// holding a QRS still reaches its full height at any zoom.
@@ -41,6 +44,18 @@ pub fn show(ui: &mut egui::Ui, view: &View, settings: &Settings) {
     let x_min = x_max - snap.window_s;
     let height = ((ui.available_height() - 12.0) / 2.0).max(80.0);
     let link = egui::Id::unique("trace-time-axis");
+    let beat_times: Vec<f64> = snap
+        .beats
+        .as_ref()
+        .filter(|b| b.channel == ch)
+        .map(|b| {
+            b.beats
+                .iter()
+                .map(|&s| s as f64 / snap.fs_hz)
+                .filter(|&t| t >= x_min)
+                .collect()
+        })
+        .unwrap_or_default();
     for (title, id, cols, colour) in [
         ("before the filters", "raw-trace", &trace.raw, RAW_COLOUR),
         (
@@ -63,6 +78,11 @@ pub fn show(ui: &mut egui::Ui, view: &View, settings: &Settings) {
             .allow_boxed_zoom(false)
             .show(ui, |pu| {
                 pu.set_plot_bounds_x(x_min..=x_max);
+                if id == "filtered-trace" {
+                    for &t in &beat_times {
+                        pu.vline(VLine::new("", t).color(BEAT_COLOUR).width(1.0));
+                    }
+                }
                 pu.line(
                     Line::new(name, PlotPoints::new(column_points(cols, factor)))
                         .color(colour)
