@@ -241,3 +241,44 @@ fn spectrum_writes_psd_report_and_png_from_a_scope_style_csv() {
     let header = std::fs::read(&png).unwrap();
     assert_eq!(&header[..8], b"\x89PNG\r\n\x1a\n");
 }
+
+#[test]
+fn beats_reads_wfdb_and_writes_beats_and_a_summary() {
+    // MIT-BIH record 100 (PhysioNet, ODC-By 1.0; see ../shared/data/mitdb/README.md).
+    let hea = concat!(env!("CARGO_MANIFEST_DIR"), "/../shared/data/mitdb/100.hea");
+    let (out, summary) = (tmp("beats100.csv"), tmp("summary100.json"));
+    let o = leadline(&[
+        "beats",
+        "--input",
+        hea,
+        "--out",
+        out.to_str().unwrap(),
+        "--summary",
+        summary.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let text = std::fs::read_to_string(&out).unwrap();
+    assert!(text.starts_with("sample,time_s,"));
+    // The database has 2273 beats in record 100.
+    let n = text.lines().count() - 1;
+    assert!((2260..=2285).contains(&n), "{n} beats");
+    let s: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&summary).unwrap()).unwrap();
+    assert_eq!(s["beats"].as_u64().unwrap() as usize, n);
+    let hr = s["mean_hr_bpm"].as_f64().unwrap();
+    // 2273 beats in 1805.6 s is 75.5 bpm.
+    assert!((hr - 75.5).abs() < 1.0, "{hr}");
+    for k in ["mean_rr_ms", "sdnn_ms", "rmssd_ms", "pnn50"] {
+        assert!(s["hrv"][k].is_number(), "{k}");
+    }
+    let o = leadline(&[
+        "beats",
+        "--input",
+        hea,
+        "--channel",
+        "5",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+}
