@@ -37,6 +37,8 @@ pub struct RawBlock {
     pub data: Vec<f64>,
     /// When the source produced the block (for latency figures).
     pub made_at: std::time::Instant,
+    /// The device went away before this block and came back: the stream has a gap here.
+    pub gap_before: bool,
 }
 
 impl RawBlock {
@@ -61,6 +63,8 @@ pub struct RecordBlock {
     pub filtered_uv: Vec<f64>,
     /// The source's values as received (counts or µV), frame-major.
     pub received: Vec<f64>,
+    /// The stream has a gap (device lost and found again) just before this block.
+    pub gap_before: bool,
 }
 
 /// A min/max-per-column reduction of one trace over the display window.
@@ -100,6 +104,8 @@ pub struct Stats {
     pub clipped: u64,
     /// Samples that were NaN or infinite and were replaced by the previous value.
     pub bad_values: u64,
+    /// Gaps in the stream (device lost and found again).
+    pub gaps: u64,
     /// Worst source-to-snapshot latency seen in the last second, ms.
     pub latency_ms: f64,
 }

@@ -79,6 +79,7 @@ pub struct Pipeline {
     stop: Arc<AtomicBool>,
     threads: Vec<JoinHandle<()>>,
     label: String,
+    serial_status: Option<crate::source::serial::StatusHandle>,
 }
 
 impl Pipeline {
@@ -102,7 +103,20 @@ impl Pipeline {
         let label = cfg.source.label();
 
         let mut threads = Vec::new();
+        let mut serial_status = None;
         match cfg.source {
+            SourceSpec::Serial(spec) => {
+                let status: crate::source::serial::StatusHandle = Default::default();
+                serial_status = Some(Arc::clone(&status));
+                let stop = Arc::clone(&stop);
+                threads.push(
+                    std::thread::Builder::new()
+                        .name("leadline-serial".into())
+                        .spawn(move || crate::source::serial::run(spec, raw_tx, &stop, status))
+                        .map_err(|e| PipelineError::Spawn("serial", e))?,
+                );
+                drop(synth_rx);
+            }
             SourceSpec::Synth(settings) => {
                 let limit = cfg.limit_s.map(|s| (s * settings.fs_hz).round() as u64);
                 let synth = Synth::new(settings)?;
@@ -150,6 +164,7 @@ impl Pipeline {
             stop,
             threads,
             label,
+            serial_status,
         })
     }
 
@@ -179,6 +194,11 @@ impl Pipeline {
     /// The recorder path (only when started with `record: true`; once).
     pub fn take_records(&mut self) -> Option<Receiver<RecordBlock>> {
         self.records.take()
+    }
+
+    /// What the serial thread is doing (None for other sources).
+    pub fn serial_status(&self) -> Option<crate::source::serial::SerialStatus> {
+        self.serial_status.as_ref().and_then(|s| s.lock().ok().map(|g| g.clone()))
     }
 
     /// Short description of the source for the status line.

@@ -494,6 +494,9 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
             }
             r.next_sample = block.first_sample + block.frames() as u64;
             stats.blocks += 1;
+            if block.gap_before {
+                stats.gaps += 1;
+            }
             stats.frames += block.frames() as u64;
             oldest_pending.get_or_insert(block.made_at);
 
@@ -547,6 +550,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     raw_uv: uv,
                     filtered_uv: filt,
                     received: block.data,
+                    gap_before: block.gap_before,
                 };
                 if !send_blocking(tx, rec, stop) {
                     return;

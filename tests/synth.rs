@@ -128,7 +128,7 @@ fn mains_component_is_within_2_percent_of_its_setting() {
 fn sim_args(seed: u64) -> SimulateArgs {
     SimulateArgs {
         fs: 500.0,
-        seconds: 5.0,
+        seconds: Some(5.0),
         channels: 3,
         hr: 72.0,
         hrv: 1.0,
@@ -146,6 +146,8 @@ fn sim_args(seed: u64) -> SimulateArgs {
         format: SimFormat::Csv,
         units: Units::Millivolts,
         out: "-".into(),
+        pty: false,
+        baud: 921_600,
     }
 }
 

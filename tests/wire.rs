@@ -187,6 +187,21 @@ fn arbitrary_bytes_never_panic_100k_cases() {
 }
 
 #[test]
+fn a_chunk_ending_in_a_lone_sync_byte_is_kept_for_later() {
+    let (good, _) = binary_stream(2, 1, binary::FORMAT_I16, 0);
+    let mut d = binary::Decoder::new();
+    let mut out = Vec::new();
+    // A whole frame then one byte 0xA5 (the start of the next sync word), then the rest.
+    let flen = good.len() / 2;
+    d.push(&good[..flen], &mut out);
+    d.push(&good[flen..flen + 1], &mut out);
+    d.push(&[], &mut out);
+    d.push(&good[flen + 1..], &mut out);
+    assert_eq!(out.len(), 2);
+    assert_eq!(d.stats().garbage_bytes, 0);
+}
+
+#[test]
 fn format_detection() {
     let (bin, _) = binary_stream(5, 2, binary::FORMAT_I16, 0);
     assert_eq!(detect(&bin), Some(Format::Binary));

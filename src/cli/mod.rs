@@ -3,6 +3,7 @@
 pub mod beats;
 pub mod bench;
 pub mod filter;
+pub mod record;
 pub mod response;
 pub mod simulate;
 pub mod sos;
@@ -40,8 +41,32 @@ pub enum Command {
     Beats(BeatsArgs),
     /// Welch PSD of a recording (CSV), the mains report (JSON) and a plot (PNG).
     Spectrum(SpectrumArgs),
+    /// List the serial ports the system offers.
+    Ports,
+    /// Record a source headless to a file for a fixed time.
+    Record(RecordArgs),
     /// Measure throughput on this machine (run a release build); the last line is JSON.
     Bench(BenchArgs),
+}
+
+/// Options of `leadline record`.
+#[derive(Debug, Clone, Args)]
+pub struct RecordArgs {
+    /// Source: synth or serial:PATH[@BAUD][:ascii|:binary].
+    #[arg(long, value_name = "SPEC")]
+    pub source: String,
+    /// How long to record, s (the command exits after this even if nothing arrived).
+    #[arg(long, value_name = "S")]
+    pub seconds: f64,
+    /// Output file (.csv).
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Units of the values: counts writes them exactly as received.
+    #[arg(long, value_enum, default_value_t = Units::Millivolts)]
+    pub units: Units,
+    /// Sample rate, Hz, when the source does not say (else estimated from arrival).
+    #[arg(long, value_name = "HZ")]
+    pub fs: Option<f64>,
 }
 
 /// Options of `leadline beats`.
@@ -320,6 +345,8 @@ pub enum SimFormat {
     Csv,
     /// The text-line wire format: ADC counts, `# key=value` metadata first.
     Ascii,
+    /// The binary wire format: sync word, sequence counter, i16 counts, CRC-16.
+    Binary,
 }
 
 /// Units of CSV output.
@@ -344,9 +371,9 @@ pub struct SimulateArgs {
     /// Sample rate, Hz (125–4000).
     #[arg(long, default_value_t = 500.0, value_name = "HZ")]
     pub fs: f64,
-    /// Length of the stream, s.
-    #[arg(long, default_value_t = 10.0, value_name = "S")]
-    pub seconds: f64,
+    /// Length of the stream, s (default 10; with --pty, until stopped).
+    #[arg(long, value_name = "S")]
+    pub seconds: Option<f64>,
     /// Channels (1–8).
     #[arg(long, default_value_t = 1, value_name = "N")]
     pub channels: usize,
@@ -398,6 +425,12 @@ pub struct SimulateArgs {
     /// Output file, or - for standard output.
     #[arg(long, default_value = "-", value_name = "PATH")]
     pub out: String,
+    /// Open a pseudo-terminal, print its device path and stream into it in real time.
+    #[arg(long)]
+    pub pty: bool,
+    /// Baud rate the stream must fit (for --pty; the pseudo-terminal itself ignores it).
+    #[arg(long, default_value_t = 921_600, value_name = "B")]
+    pub baud: u32,
 }
 
 /// A bad argument or input detected after parsing (exit code 2, like clap's own errors).

@@ -37,15 +37,14 @@ pub fn settings(a: &SimulateArgs) -> SynthSettings {
 /// # Errors
 /// Bad settings (as [`crate::source::SynthError`]) or a write failure.
 pub fn write_stream(a: &SimulateArgs, out: &mut dyn Write) -> Result<u64> {
-    if !(a.seconds.is_finite() && a.seconds > 0.0) {
-        return Err(
-            super::BadInput(format!("--seconds {} must be a positive number", a.seconds)).into(),
-        );
+    let seconds = a.seconds.unwrap_or(10.0);
+    if !(seconds.is_finite() && seconds > 0.0) {
+        return Err(super::BadInput(format!("--seconds {seconds} must be a positive number")).into());
     }
     let s = settings(a);
     let mut synth = Synth::new(s.clone())?;
     let scale = synth.scale();
-    let total = (a.seconds * s.fs_hz).round() as u64;
+    let total = (seconds * s.fs_hz).round() as u64;
     let n_ch = s.channels;
     let mut text = String::new();
     match a.format {
@@ -56,6 +55,7 @@ pub fn write_stream(a: &SimulateArgs, out: &mut dyn Write) -> Result<u64> {
             );
             text.push_str(&ascii::header(s.fs_hz, n_ch, &scale, &note));
         }
+        SimFormat::Binary => {}
         SimFormat::Csv => {
             text.push_str("time_s");
             for k in 1..=n_ch {
@@ -65,12 +65,18 @@ pub fn write_stream(a: &SimulateArgs, out: &mut dyn Write) -> Result<u64> {
         }
     }
     let mut buf = Vec::new();
+    let mut bin = Vec::new();
     let mut n = 0u64;
     while n < total {
         let frames = (total - n).min(4096);
         buf.clear();
         synth.fill(frames as usize, &mut buf);
         match a.format {
+            SimFormat::Binary => {
+                bin.clear();
+                encode_binary(&buf, n_ch, n, &scale, &mut bin);
+                out.write_all(&bin)?;
+            }
             SimFormat::Ascii => ascii::encode_frames(&buf, n_ch, &mut text),
             SimFormat::Csv => {
                 for (i, frame) in buf.chunks_exact(n_ch).enumerate() {
@@ -96,11 +102,94 @@ pub fn write_stream(a: &SimulateArgs, out: &mut dyn Write) -> Result<u64> {
     Ok(total)
 }
 
+/// Binary frames for interleaved counts; frame k of the stream gets sequence number k mod 65536.
+/// Counts go out as i16 for converters up to 16 bits, else i24.
+pub fn encode_binary(counts: &[f64], channels: usize, first: u64, scale: &crate::scale::InputScale, out: &mut Vec<u8>) {
+    let format = if scale.bits <= 16 { crate::wire::binary::FORMAT_I16 } else { crate::wire::binary::FORMAT_I24 };
+    let mut s = Vec::with_capacity(channels);
+    for (k, frame) in counts.chunks_exact(channels.max(1)).enumerate() {
+        s.clear();
+        s.extend(frame.iter().map(|&c| c as i32));
+        crate::wire::binary::encode((first + k as u64) as u16, &s, format, out);
+    }
+}
+
+/// Writes everything, waiting while nobody reads the other side (the buffer is full).
+fn write_patiently(port: &mut serialport::TTYPort, mut bytes: &[u8]) -> Result<()> {
+    while !bytes.is_empty() {
+        match port.write(bytes) {
+            Ok(n) => bytes = &bytes[n..],
+            Err(e) if matches!(e.kind(), io::ErrorKind::TimedOut | io::ErrorKind::WouldBlock | io::ErrorKind::Interrupted) => {}
+            Err(e) => return Err(anyhow::Error::new(e).context("writing to the pseudo-terminal")),
+        }
+    }
+    Ok(())
+}
+
+/// Streams into a pseudo-terminal in real time, printing its path first.
+fn run_pty(a: &SimulateArgs) -> Result<()> {
+    use std::time::{Duration, Instant};
+    let s = settings(a);
+    let mut synth = Synth::new(s.clone())?;
+    let scale = synth.scale();
+    let (mut master, slave) = serialport::TTYPort::pair().context("cannot open a pseudo-terminal")?;
+    let name = serialport::SerialPort::name(&slave).unwrap_or_else(|| "?".into());
+    println!("{name}");
+    io::stdout().flush()?;
+    let fmt = if a.format == SimFormat::Csv { SimFormat::Ascii } else { a.format };
+    let spec = format!("serial:{name}@{}:{}", a.baud, if fmt == SimFormat::Binary { "binary" } else { "ascii" });
+    eprintln!("streaming the simulator into {name}; try: leadline monitor --source {spec}");
+    let frame_bytes = match fmt {
+        SimFormat::Binary => 8 + 2 * s.channels,
+        _ => 5 * s.channels + 1,
+    } as f64;
+    let needed = frame_bytes * s.fs_hz * 10.0;
+    if needed > a.baud as f64 {
+        eprintln!("warning: this stream needs about {needed:.0} baud; {} baud would not carry it", a.baud);
+    }
+    serialport::SerialPort::set_timeout(&mut master, Duration::from_millis(100))?;
+    if fmt == SimFormat::Ascii {
+        let h = ascii::header(s.fs_hz, s.channels, &scale, "leadline simulator");
+        write_patiently(&mut master, h.as_bytes())?;
+    }
+    let start = Instant::now();
+    let limit = a.seconds.map(|v| (v * s.fs_hz).round() as u64);
+    let block = ((s.fs_hz / 100.0).round() as usize).max(1);
+    let (mut counts, mut bytes, mut text) = (Vec::new(), Vec::new(), String::new());
+    loop {
+        let n = synth.sample_index();
+        if limit.is_some_and(|l| n >= l) {
+            break;
+        }
+        let due = start + Duration::from_secs_f64((n + block as u64) as f64 / s.fs_hz);
+        if let Some(wait) = due.checked_duration_since(Instant::now()) {
+            std::thread::sleep(wait);
+        }
+        counts.clear();
+        synth.fill(block, &mut counts);
+        bytes.clear();
+        match fmt {
+            SimFormat::Binary => encode_binary(&counts, s.channels, n, &scale, &mut bytes),
+            _ => {
+                text.clear();
+                ascii::encode_frames(&counts, s.channels, &mut text);
+                bytes.extend_from_slice(text.as_bytes());
+            }
+        }
+        write_patiently(&mut master, &bytes)?;
+    }
+    drop(slave);
+    Ok(())
+}
+
 /// Runs the command.
 ///
 /// # Errors
 /// Bad settings, an unwritable output.
 pub fn run(a: &SimulateArgs) -> Result<()> {
+    if a.pty {
+        return run_pty(a);
+    }
     if a.out == "-" {
         let stdout = io::stdout();
         let mut lock = io::BufWriter::new(stdout.lock());

@@ -5,6 +5,7 @@
 
 pub mod ecg_model;
 pub mod run;
+pub mod serial;
 pub mod synth;
 
 pub use run::{Pacing, SourceSpec, run_synth};

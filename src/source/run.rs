@@ -13,6 +13,16 @@ use crate::msg::{RawBlock, SampleUnit};
 pub enum SourceSpec {
     /// The built-in simulator.
     Synth(SynthSettings),
+    /// A serial port (or pseudo-terminal).
+    Serial(super::serial::SerialSpec),
+}
+
+/// A source text that cannot be understood.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+#[error("source {spec:?}: {reason} (expected synth, serial:PATH[@BAUD][:ascii|:binary])")]
+pub struct SpecError {
+    pub spec: String,
+    pub reason: String,
 }
 
 impl SourceSpec {
@@ -20,7 +30,52 @@ impl SourceSpec {
     pub fn label(&self) -> String {
         match self {
             SourceSpec::Synth(s) => format!("simulator ({} ch)", s.channels),
+            SourceSpec::Serial(s) => format!("serial {} @ {}", s.path, s.baud),
         }
+    }
+
+    /// Parses `synth` or `serial:PATH[@BAUD][:ascii|:binary]`. `fs_hz` and `scale` apply to a
+    /// serial stream; decimal values on the wire are taken as mV.
+    ///
+    /// # Errors
+    /// [`SpecError`] naming what is wrong.
+    pub fn parse(text: &str, fs_hz: Option<f64>, scale: crate::scale::InputScale) -> Result<Self, SpecError> {
+        let err = |reason: &str| SpecError { spec: text.to_string(), reason: reason.to_string() };
+        if text == "synth" {
+            let mut s = SynthSettings::default();
+            if let Some(fs) = fs_hz {
+                s.fs_hz = fs;
+            }
+            return Ok(SourceSpec::Synth(s));
+        }
+        let Some(rest) = text.strip_prefix("serial:") else {
+            return Err(err("unknown source kind"));
+        };
+        let (rest, format) = if let Some(r) = rest.strip_suffix(":ascii") {
+            (r, Some(crate::wire::Format::Text))
+        } else if let Some(r) = rest.strip_suffix(":binary") {
+            (r, Some(crate::wire::Format::Binary))
+        } else {
+            (rest, None)
+        };
+        let (path, baud) = match rest.rsplit_once('@') {
+            Some((p, b)) => (p, b.parse::<u32>().map_err(|_| err("the baud rate is not a number"))?),
+            None => (rest, 115_200),
+        };
+        if path.is_empty() {
+            return Err(err("no device path"));
+        }
+        if !(9600..=4_000_000).contains(&baud) {
+            return Err(err("baud rate outside 9600–4 000 000"));
+        }
+        Ok(SourceSpec::Serial(super::serial::SerialSpec {
+            path: path.to_string(),
+            baud,
+            format,
+            fs_hz,
+            scale,
+            physical_to_uv: 1e3,
+        }))
     }
 }
 
@@ -104,6 +159,7 @@ pub fn run_synth(
             unit: SampleUnit::Counts(synth.scale()),
             data,
             made_at: Instant::now(),
+            gap_before: false,
         };
         seq += 1;
         if !send_blocking(&out, block, stop) {

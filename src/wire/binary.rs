@@ -132,7 +132,7 @@ impl Decoder {
             // Find the next sync word.
             let Some(off) = self.buf[i..].windows(2).position(|w| w == SYNC) else {
                 // Keep a trailing 0xA5: it may be the first half of a sync word.
-                let keep = usize::from(self.buf.last() == Some(&SYNC[0]));
+                let keep = usize::from(i < self.buf.len() && self.buf.last() == Some(&SYNC[0]));
                 self.stats.garbage_bytes += (self.buf.len() - i - keep) as u64;
                 i = self.buf.len() - keep;
                 break;
