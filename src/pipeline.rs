@@ -198,7 +198,9 @@ impl Pipeline {
 
     /// What the serial thread is doing (None for other sources).
     pub fn serial_status(&self) -> Option<crate::source::serial::SerialStatus> {
-        self.serial_status.as_ref().and_then(|s| s.lock().ok().map(|g| g.clone()))
+        self.serial_status
+            .as_ref()
+            .and_then(|s| s.lock().ok().map(|g| g.clone()))
     }
 
     /// Short description of the source for the status line.

@@ -333,6 +333,7 @@ impl BeatState {
         if added {
             self.template_frame = self.template.template().map(Arc::new);
         }
+        self.quality.set_detector_snr(self.detector.snr());
         self.meter.set_unreliable(!self.quality.quality().usable());
     }
 

@@ -217,6 +217,11 @@ impl Detector {
         })
     }
 
+    /// Signal level over noise level of the integrated signal (SPKI / NPKI), once initialised.
+    pub fn snr(&self) -> Option<f64> {
+        (self.initialised && self.npki > 0.0).then(|| self.spki / self.npki)
+    }
+
     /// RR average over the recent regular beats, s (RR AVERAGE2 of the paper).
     pub fn rr_average_s(&self) -> Option<f64> {
         mean(&self.rr_regular).map(|rr| rr / self.fs)

@@ -1,6 +1,7 @@
 //! Is the signal good enough to count beats? Judged over the last two seconds of input-referred µV
 //! and the converter's rail flags: a floating input (lead off), a flat line, clipping, and heavy
-//! broadband noise each lower a simple quality index; the heart rate is suppressed below 0.5.
+//! noise (the QRS detector's signal level hardly above its noise level) each lower a simple
+//! quality index; the heart rate is suppressed below 0.5.
 
 use std::collections::VecDeque;
 
@@ -15,7 +16,7 @@ pub enum Problem {
     Flat,
     /// More than 1 % of the samples at an ADC rail.
     Clipping,
-    /// Broadband noise: sample-to-sample changes above 15 % of the peak-to-peak swing.
+    /// The QRS detector's signal level is under 2.5 × its noise level.
     Noisy,
 }
 
@@ -60,6 +61,7 @@ pub struct QualityMonitor {
     rails: VecDeque<bool>,
     rail_count: usize,
     polarity: VecDeque<bool>,
+    detector_snr: Option<f64>,
 }
 
 impl QualityMonitor {
@@ -72,6 +74,7 @@ impl QualityMonitor {
             rails: VecDeque::with_capacity(window),
             rail_count: 0,
             polarity: VecDeque::with_capacity(8),
+            detector_snr: None,
         }
     }
 
@@ -88,6 +91,11 @@ impl QualityMonitor {
         if at_rail {
             self.rail_count += 1;
         }
+    }
+
+    /// The detector's signal-to-noise level ratio (SPKI / NPKI), once it has one.
+    pub fn set_detector_snr(&mut self, r: Option<f64>) {
+        self.detector_snr = r;
     }
 
     /// The sign of a detected beat's R value.
@@ -116,25 +124,18 @@ impl QualityMonitor {
             .iter()
             .fold((f64::MAX, f64::MIN), |(a, b), &v| (a.min(v), b.max(v)));
         let pp = hi - lo;
-        let diff_rms = (self
-            .values
-            .iter()
-            .zip(self.values.iter().skip(1))
-            .map(|(a, b)| (b - a).powi(2))
-            .sum::<f64>()
-            / (n - 1.0))
-            .sqrt();
         let (index, problem) = if rail_frac > 0.2 || pp > 20_000.0 {
             (0.0, Some(Problem::LeadOff))
         } else if pp < 20.0 {
             (0.0, Some(Problem::Flat))
-        } else if diff_rms > 0.15 * pp && diff_rms > 30.0 {
-            // Sample-to-sample change comparable to the whole swing: noise, not beats.
+        } else if self.detector_snr.is_some_and(|r| r < 2.5) {
+            // The QRS detector's signal level is hardly above its noise level.
             (0.2, Some(Problem::Noisy))
         } else if rail_frac > 0.01 {
             (0.4, Some(Problem::Clipping))
         } else {
-            (1.0 - (diff_rms / pp / 0.3).min(0.5), None)
+            let snr = self.detector_snr.unwrap_or(10.0);
+            (0.5 + 0.5 * ((snr - 2.5) / 7.5).clamp(0.0, 1.0), None)
         };
         Quality {
             index,
@@ -169,9 +170,13 @@ mod tests {
             judge(&|i| (sine(i), i % 50 == 0)).problem,
             Some(Problem::Clipping)
         );
-        let mut rng = crate::rng::Rng::new(3);
-        let noise: Vec<f64> = (0..1000).map(|_| 500.0 * rng.normal()).collect();
-        assert_eq!(judge(&|i| (noise[i], false)).problem, Some(Problem::Noisy));
+        let mut q = QualityMonitor::new(fs);
+        for i in 0..1000 {
+            q.push(sine(i), false);
+        }
+        q.set_detector_snr(Some(1.5));
+        assert_eq!(q.quality().problem, Some(Problem::Noisy));
+        assert!(!q.quality().usable());
         let clean = judge(&|i| (sine(i), false));
         assert_eq!(clean.problem, None);
         assert!(clean.usable());

@@ -34,15 +34,29 @@ pub fn ports() -> Result<()> {
 /// A bad source text or time, an unwritable output file (the message names it).
 pub fn run(a: &RecordArgs) -> Result<()> {
     if !(a.seconds.is_finite() && a.seconds > 0.0) {
-        return Err(BadInput(format!("--seconds {}: must be a positive number", a.seconds)).into());
+        return Err(BadInput(format!(
+            "--seconds {}: must be a positive number",
+            a.seconds
+        ))
+        .into());
     }
-    let spec = SourceSpec::parse(&a.source, a.fs, InputScale::default()).map_err(|e| BadInput(e.to_string()))?;
+    let spec = SourceSpec::parse(&a.source, a.fs, InputScale::default())
+        .map_err(|e| BadInput(e.to_string()))?;
     let mut pipeline = Pipeline::start(
-        PipelineConfig { source: spec, pacing: Pacing::RealTime, record: true, display_hz: 2.0, ..PipelineConfig::default() },
+        PipelineConfig {
+            source: spec,
+            pacing: Pacing::RealTime,
+            record: true,
+            display_hz: 2.0,
+            ..PipelineConfig::default()
+        },
         Arc::new(|| {}),
     )?;
-    let rx = pipeline.take_records().context("the recorder path was not started")?;
-    let file = std::fs::File::create(&a.out).with_context(|| format!("cannot create {}", a.out.display()))?;
+    let rx = pipeline
+        .take_records()
+        .context("the recorder path was not started")?;
+    let file = std::fs::File::create(&a.out)
+        .with_context(|| format!("cannot create {}", a.out.display()))?;
     let mut w = std::io::BufWriter::new(file);
     let deadline = Instant::now() + Duration::from_secs_f64(a.seconds);
     let mut header_done = false;
@@ -66,7 +80,11 @@ pub fn run(a: &RecordArgs) -> Result<()> {
             text.push_str("# gap: the device was lost and found again here\n");
         }
         let n = block.channels.max(1);
-        let values: &[f64] = if a.units == Units::Counts { &block.received } else { &block.raw_uv };
+        let values: &[f64] = if a.units == Units::Counts {
+            &block.received
+        } else {
+            &block.raw_uv
+        };
         let factor = match a.units {
             Units::Counts => 1.0,
             Units::Volts => 1e-6,
@@ -81,19 +99,31 @@ pub fn run(a: &RecordArgs) -> Result<()> {
             text.push('\n');
         }
         frames += (values.len() / n) as u64;
-        w.write_all(text.as_bytes()).with_context(|| format!("writing {}", a.out.display()))?;
+        w.write_all(text.as_bytes())
+            .with_context(|| format!("writing {}", a.out.display()))?;
         // Data reach the disk at least once a second.
         if last_flush.elapsed() >= Duration::from_secs(1) {
-            w.flush().with_context(|| format!("writing {}", a.out.display()))?;
+            w.flush()
+                .with_context(|| format!("writing {}", a.out.display()))?;
             last_flush = Instant::now();
         }
     }
-    w.flush().with_context(|| format!("writing {}", a.out.display()))?;
+    w.flush()
+        .with_context(|| format!("writing {}", a.out.display()))?;
     let status = pipeline.serial_status();
     pipeline.shutdown();
     if frames == 0 {
         let why = status.map(|s| s.message).unwrap_or_default();
-        eprintln!("no samples arrived from {} in {} s{}", a.source, a.seconds, if why.is_empty() { String::new() } else { format!(" ({why})") });
+        eprintln!(
+            "no samples arrived from {} in {} s{}",
+            a.source,
+            a.seconds,
+            if why.is_empty() {
+                String::new()
+            } else {
+                format!(" ({why})")
+            }
+        );
     } else {
         eprintln!("recorded {frames} frames to {}", a.out.display());
     }

@@ -39,7 +39,9 @@ pub fn settings(a: &SimulateArgs) -> SynthSettings {
 pub fn write_stream(a: &SimulateArgs, out: &mut dyn Write) -> Result<u64> {
     let seconds = a.seconds.unwrap_or(10.0);
     if !(seconds.is_finite() && seconds > 0.0) {
-        return Err(super::BadInput(format!("--seconds {seconds} must be a positive number")).into());
+        return Err(
+            super::BadInput(format!("--seconds {seconds} must be a positive number")).into(),
+        );
     }
     let s = settings(a);
     let mut synth = Synth::new(s.clone())?;
@@ -104,8 +106,18 @@ pub fn write_stream(a: &SimulateArgs, out: &mut dyn Write) -> Result<u64> {
 
 /// Binary frames for interleaved counts; frame k of the stream gets sequence number k mod 65536.
 /// Counts go out as i16 for converters up to 16 bits, else i24.
-pub fn encode_binary(counts: &[f64], channels: usize, first: u64, scale: &crate::scale::InputScale, out: &mut Vec<u8>) {
-    let format = if scale.bits <= 16 { crate::wire::binary::FORMAT_I16 } else { crate::wire::binary::FORMAT_I24 };
+pub fn encode_binary(
+    counts: &[f64],
+    channels: usize,
+    first: u64,
+    scale: &crate::scale::InputScale,
+    out: &mut Vec<u8>,
+) {
+    let format = if scale.bits <= 16 {
+        crate::wire::binary::FORMAT_I16
+    } else {
+        crate::wire::binary::FORMAT_I24
+    };
     let mut s = Vec::with_capacity(channels);
     for (k, frame) in counts.chunks_exact(channels.max(1)).enumerate() {
         s.clear();
@@ -119,7 +131,13 @@ fn write_patiently(port: &mut serialport::TTYPort, mut bytes: &[u8]) -> Result<(
     while !bytes.is_empty() {
         match port.write(bytes) {
             Ok(n) => bytes = &bytes[n..],
-            Err(e) if matches!(e.kind(), io::ErrorKind::TimedOut | io::ErrorKind::WouldBlock | io::ErrorKind::Interrupted) => {}
+            Err(e)
+                if matches!(
+                    e.kind(),
+                    io::ErrorKind::TimedOut
+                        | io::ErrorKind::WouldBlock
+                        | io::ErrorKind::Interrupted
+                ) => {}
             Err(e) => return Err(anyhow::Error::new(e).context("writing to the pseudo-terminal")),
         }
     }
@@ -132,12 +150,25 @@ fn run_pty(a: &SimulateArgs) -> Result<()> {
     let s = settings(a);
     let mut synth = Synth::new(s.clone())?;
     let scale = synth.scale();
-    let (mut master, slave) = serialport::TTYPort::pair().context("cannot open a pseudo-terminal")?;
+    let (mut master, slave) =
+        serialport::TTYPort::pair().context("cannot open a pseudo-terminal")?;
     let name = serialport::SerialPort::name(&slave).unwrap_or_else(|| "?".into());
     println!("{name}");
     io::stdout().flush()?;
-    let fmt = if a.format == SimFormat::Csv { SimFormat::Ascii } else { a.format };
-    let spec = format!("serial:{name}@{}:{}", a.baud, if fmt == SimFormat::Binary { "binary" } else { "ascii" });
+    let fmt = if a.format == SimFormat::Csv {
+        SimFormat::Ascii
+    } else {
+        a.format
+    };
+    let spec = format!(
+        "serial:{name}@{}:{}",
+        a.baud,
+        if fmt == SimFormat::Binary {
+            "binary"
+        } else {
+            "ascii"
+        }
+    );
     eprintln!("streaming the simulator into {name}; try: leadline monitor --source {spec}");
     let frame_bytes = match fmt {
         SimFormat::Binary => 8 + 2 * s.channels,
@@ -145,7 +176,10 @@ fn run_pty(a: &SimulateArgs) -> Result<()> {
     } as f64;
     let needed = frame_bytes * s.fs_hz * 10.0;
     if needed > a.baud as f64 {
-        eprintln!("warning: this stream needs about {needed:.0} baud; {} baud would not carry it", a.baud);
+        eprintln!(
+            "warning: this stream needs about {needed:.0} baud; {} baud would not carry it",
+            a.baud
+        );
     }
     serialport::SerialPort::set_timeout(&mut master, Duration::from_millis(100))?;
     if fmt == SimFormat::Ascii {

@@ -45,6 +45,7 @@ pub struct LeadlineApp {
     pending: Vec<Control>,
     response: panels::response::ResponseCache,
     spectrum: panels::spectrum::SpectrumView,
+    picker: panels::source::SourcePicker,
     lower: LowerView,
 }
 
@@ -64,7 +65,10 @@ pub enum LowerView {
 fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, PipelineError> {
     Pipeline::start(
         PipelineConfig {
-            source: SourceSpec::Synth(settings.synth.clone()),
+            source: match &settings.serial {
+                Some(spec) => SourceSpec::Serial(spec.clone()),
+                None => SourceSpec::Synth(settings.synth.clone()),
+            },
             chain: settings.chain,
             window_s: settings.window_s,
             display_hz: settings.display_hz,
@@ -104,6 +108,7 @@ impl LeadlineApp {
             pending: Vec::new(),
             response: Default::default(),
             spectrum: Default::default(),
+            picker: Default::default(),
             lower: match start_view {
                 crate::cli::StartView::Beats => LowerView::Beats,
                 crate::cli::StartView::Spectrum => LowerView::Spectrum,
@@ -264,6 +269,9 @@ impl LeadlineApp {
 
         egui::Panel::bottom("status-bar").show(ui, |ui| {
             panels::status::show(ui, &self.view, self.pipeline.label(), self.paused);
+            if let Some(st) = self.pipeline.serial_status() {
+                panels::status::serial_line(ui, &st);
+            }
             panels::caution::reminder(ui);
         });
 
@@ -302,15 +310,28 @@ impl LeadlineApp {
                         ui.colored_label(ui.visuals().error_fg_color, format!("Not applied: {e}"));
                     }
                     ui.add_space(10.0);
-                    ui.heading("Simulated bench");
-                    let changed = panels::simulator::show(ui, &mut self.settings.synth);
-                    if changed.restart {
-                        self.settings.channel =
-                            self.settings.channel.min(self.settings.synth.channels - 1);
+                    ui.heading("Source");
+                    let serial_active = self.settings.serial.is_some();
+                    if let Some(req) = panels::source::show(ui, &mut self.picker, serial_active) {
+                        self.settings.serial = match req {
+                            panels::source::SourceRequest::Simulator => None,
+                            panels::source::SourceRequest::Serial(spec) => Some(spec),
+                        };
+                        self.settings.channel = 0;
                         self.restart_source();
-                    } else if changed.live {
-                        self.pending
-                            .push(Control::Synth(Box::new(self.settings.synth.clone())));
+                    }
+                    if self.settings.serial.is_none() {
+                        ui.add_space(10.0);
+                        ui.heading("Simulated bench");
+                        let changed = panels::simulator::show(ui, &mut self.settings.synth);
+                        if changed.restart {
+                            self.settings.channel =
+                                self.settings.channel.min(self.settings.synth.channels - 1);
+                            self.restart_source();
+                        } else if changed.live {
+                            self.pending
+                                .push(Control::Synth(Box::new(self.settings.synth.clone())));
+                        }
                     }
                 });
             });

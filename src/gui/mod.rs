@@ -37,13 +37,12 @@ fn parse_size(s: &str) -> Result<[f32; 2]> {
 /// # Errors
 /// A bad option, no display, or a screenshot that could not be written.
 pub fn run(args: &MonitorArgs) -> Result<()> {
-    if args.source != "synth" {
-        return Err(BadInput(format!(
-            "--source {}: this build reads only `synth` (the built-in simulator)",
-            args.source
-        ))
-        .into());
-    }
+    let spec = crate::source::SourceSpec::parse(
+        &args.source,
+        args.fs,
+        crate::scale::InputScale::default(),
+    )
+    .map_err(|e| BadInput(e.to_string()))?;
     if let Some(s) = args.exit_after
         && !(s.is_finite() && s > 0.0)
     {
@@ -61,6 +60,9 @@ pub fn run(args: &MonitorArgs) -> Result<()> {
         settings.synth.channels = n;
     }
     settings.synth.validate()?;
+    if let crate::source::SourceSpec::Serial(s) = spec {
+        settings.serial = Some(s);
+    }
     let opts = AppOptions {
         exit_after_s: args.exit_after,
         screenshot: args.screenshot.clone(),

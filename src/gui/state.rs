@@ -38,6 +38,8 @@ pub struct Settings {
     pub channel: usize,
     /// Most frames per second.
     pub display_hz: f64,
+    /// A serial port instead of the simulator.
+    pub serial: Option<crate::source::serial::SerialSpec>,
 }
 
 impl Default for Settings {
@@ -49,6 +51,7 @@ impl Default for Settings {
             unit: TraceUnit::Millivolts,
             channel: 0,
             display_hz: 30.0,
+            serial: None,
         }
     }
 }

@@ -39,8 +39,15 @@ impl SourceSpec {
     ///
     /// # Errors
     /// [`SpecError`] naming what is wrong.
-    pub fn parse(text: &str, fs_hz: Option<f64>, scale: crate::scale::InputScale) -> Result<Self, SpecError> {
-        let err = |reason: &str| SpecError { spec: text.to_string(), reason: reason.to_string() };
+    pub fn parse(
+        text: &str,
+        fs_hz: Option<f64>,
+        scale: crate::scale::InputScale,
+    ) -> Result<Self, SpecError> {
+        let err = |reason: &str| SpecError {
+            spec: text.to_string(),
+            reason: reason.to_string(),
+        };
         if text == "synth" {
             let mut s = SynthSettings::default();
             if let Some(fs) = fs_hz {
@@ -59,7 +66,11 @@ impl SourceSpec {
             (rest, None)
         };
         let (path, baud) = match rest.rsplit_once('@') {
-            Some((p, b)) => (p, b.parse::<u32>().map_err(|_| err("the baud rate is not a number"))?),
+            Some((p, b)) => (
+                p,
+                b.parse::<u32>()
+                    .map_err(|_| err("the baud rate is not a number"))?,
+            ),
             None => (rest, 115_200),
         };
         if path.is_empty() {

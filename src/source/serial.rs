@@ -103,7 +103,8 @@ impl Decoding {
         match self {
             Decoding::Unknown(buf) => {
                 buf.extend_from_slice(bytes);
-                let fmt = wire::detect(buf).or_else(|| (buf.len() > 4096).then_some(Format::Text))?;
+                let fmt =
+                    wire::detect(buf).or_else(|| (buf.len() > 4096).then_some(Format::Text))?;
                 let pending = std::mem::take(buf);
                 *self = match fmt {
                     Format::Text => Decoding::Text(ascii::Decoder::new()),
@@ -193,7 +194,12 @@ pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: S
                     break;
                 }
                 Ok(n) => n,
-                Err(e) if e.kind() == std::io::ErrorKind::TimedOut || e.kind() == std::io::ErrorKind::Interrupted => continue,
+                Err(e)
+                    if e.kind() == std::io::ErrorKind::TimedOut
+                        || e.kind() == std::io::ErrorKind::Interrupted =>
+                {
+                    continue;
+                }
                 Err(e) => {
                     set_status(&status, |s| {
                         s.connected = false;
@@ -240,7 +246,9 @@ pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: S
                         })
                         .collect();
                     let mean = rates.iter().sum::<f64>() / rates.len().max(1) as f64;
-                    let spread = (rates.iter().map(|r| (r - mean).powi(2)).sum::<f64>() / rates.len().max(1) as f64).sqrt();
+                    let spread = (rates.iter().map(|r| (r - mean).powi(2)).sum::<f64>()
+                        / rates.len().max(1) as f64)
+                        .sqrt();
                     fs = Some(est);
                     set_status(&status, |s| {
                         s.estimated = true;
@@ -258,7 +266,10 @@ pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: S
             while start < frames.len() {
                 let kind = frames[start].values;
                 let mut end = start + 1;
-                while end < frames.len() && frames[end].values == kind && frames[end].lost_before == 0 {
+                while end < frames.len()
+                    && frames[end].values == kind
+                    && frames[end].lost_before == 0
+                {
                     end += 1;
                 }
                 next_sample += frames[start].lost_before;
@@ -266,7 +277,9 @@ pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: S
                 for f in &frames[start..end] {
                     match kind {
                         Values::Counts => data.extend_from_slice(&f.samples),
-                        Values::Physical => data.extend(f.samples.iter().map(|v| v * spec.physical_to_uv)),
+                        Values::Physical => {
+                            data.extend(f.samples.iter().map(|v| v * spec.physical_to_uv))
+                        }
                     }
                 }
                 let block = RawBlock {

@@ -5,6 +5,7 @@ pub mod caution;
 pub mod chain;
 pub mod response;
 pub mod simulator;
+pub mod source;
 pub mod spectrum;
 pub mod status;
 pub mod trace;

@@ -44,3 +44,34 @@ pub fn show(ui: &mut egui::Ui, view: &View, source: &str, paused: bool) {
         }
     });
 }
+
+/// The serial link's line: connection, format, rate (set or estimated), wire errors.
+pub fn serial_line(ui: &mut egui::Ui, st: &crate::source::serial::SerialStatus) {
+    ui.horizontal_wrapped(|ui| {
+        let colour = if st.connected { ui.visuals().text_color() } else { ui.visuals().warn_fg_color };
+        ui.colored_label(colour, &st.message);
+        if let Some(f) = st.format {
+            ui.separator();
+            ui.label(match f {
+                crate::wire::Format::Text => "text lines",
+                crate::wire::Format::Binary => "binary frames",
+            });
+        }
+        if let Some(fs) = st.fs_hz {
+            ui.separator();
+            if st.estimated {
+                ui.label(format!("{fs:.1} Hz estimated (±{:.1} Hz)", st.spread_hz))
+                    .on_hover_text("No rate was given or sent: estimated from when the frames arrived.");
+            } else {
+                ui.label(format!("{fs} Hz"));
+            }
+        }
+        let w = st.wire;
+        ui.separator();
+        ui.label(format!(
+            "bad CRC {} · malformed {} · over-long {} · lost {} · garbage {} B · reconnects {}",
+            w.bad_crc, w.malformed_lines, w.long_lines, w.lost_frames, w.garbage_bytes, st.reconnects
+        ))
+        .on_hover_text("What the decoder had to skip: frames with a bad checksum, lines that were not numbers, lines too long, frames missing by sequence number, bytes between frames.");
+    });
+}
