@@ -80,6 +80,8 @@ pub struct Pipeline {
     threads: Vec<JoinHandle<()>>,
     label: String,
     serial_status: Option<crate::source::serial::StatusHandle>,
+    replay_tx: Option<Sender<crate::source::replay::ReplayCommand>>,
+    replay_status: Option<crate::source::replay::ReplayHandle>,
 }
 
 impl Pipeline {
@@ -104,7 +106,23 @@ impl Pipeline {
 
         let mut threads = Vec::new();
         let mut serial_status = None;
+        let (mut replay_tx, mut replay_status) = (None, None);
         match cfg.source {
+            SourceSpec::File(spec) => {
+                let status: crate::source::replay::ReplayHandle = Default::default();
+                replay_status = Some(Arc::clone(&status));
+                // Replay commands are a few per second at most.
+                let (tx, rx) = unbounded();
+                replay_tx = Some(tx);
+                let stop = Arc::clone(&stop);
+                threads.push(
+                    std::thread::Builder::new()
+                        .name("leadline-replay".into())
+                        .spawn(move || crate::source::replay::run(spec, raw_tx, rx, &stop, status))
+                        .map_err(|e| PipelineError::Spawn("replay", e))?,
+                );
+                drop(synth_rx);
+            }
             SourceSpec::Serial(spec) => {
                 let status: crate::source::serial::StatusHandle = Default::default();
                 serial_status = Some(Arc::clone(&status));
@@ -165,6 +183,8 @@ impl Pipeline {
             threads,
             label,
             serial_status,
+            replay_tx,
+            replay_status,
         })
     }
 
@@ -199,6 +219,20 @@ impl Pipeline {
     /// What the serial thread is doing (None for other sources).
     pub fn serial_status(&self) -> Option<crate::source::serial::SerialStatus> {
         self.serial_status
+            .as_ref()
+            .and_then(|s| s.lock().ok().map(|g| g.clone()))
+    }
+
+    /// Sends a command to a replay source (ignored for other sources).
+    pub fn replay(&self, c: crate::source::replay::ReplayCommand) {
+        if let Some(tx) = &self.replay_tx {
+            let _ = tx.send(c);
+        }
+    }
+
+    /// Where a replay source is (None for other sources).
+    pub fn replay_status(&self) -> Option<crate::source::replay::ReplayStatus> {
+        self.replay_status
             .as_ref()
             .and_then(|s| s.lock().ok().map(|g| g.clone()))
     }

@@ -103,3 +103,75 @@ fn a_chain_sent_while_running_is_applied_and_a_bad_one_reported() {
     }
     panic!("chain change not seen (good chain seen: {seen_good})");
 }
+
+#[test]
+fn replay_streams_a_file_at_real_time_pace_and_seeks_with_a_gap_mark() {
+    use leadline::source::replay::{ReplayCommand, ReplaySpec};
+    // A 4 s, 250 Hz CSV made by our own simulator.
+    let dir = std::env::temp_dir().join(format!("leadline-replay-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let path = dir.join("rec.csv");
+    let mut a = leadline::cli::SimulateArgs {
+        fs: 250.0,
+        seconds: Some(4.0),
+        channels: 2,
+        hr: 72.0,
+        hrv: 1.0,
+        seed: 3,
+        mains: 50.0,
+        mains_uv: 30.0,
+        wander_uv: 60.0,
+        drift_uv: 40.0,
+        noise_uv: 8.0,
+        offset_mv: 25.0,
+        r_mv: 1.2,
+        charger: false,
+        inverted: false,
+        lead_off: false,
+        format: leadline::cli::SimFormat::Csv,
+        units: leadline::cli::Units::Millivolts,
+        out: path.to_str().unwrap().into(),
+        pty: false,
+        baud: 921_600,
+    };
+    a.out = path.to_str().unwrap().into();
+    leadline::cli::simulate::run(&a).unwrap();
+    let mut p = Pipeline::start(
+        PipelineConfig {
+            source: SourceSpec::File(ReplaySpec {
+                path: path.clone(),
+                read: Default::default(),
+            }),
+            record: true,
+            ..PipelineConfig::default()
+        },
+        Arc::new(|| {}),
+    )
+    .unwrap();
+    let rx = p.take_records().unwrap();
+    let t0 = Instant::now();
+    p.replay(ReplayCommand::Speed(4.0));
+    let mut frames = 0;
+    let mut gap = false;
+    let mut seeked = false;
+    while let Ok(b) = rx.recv_timeout(Duration::from_secs(3)) {
+        assert_eq!(b.channels, 2);
+        frames += b.raw_uv.len() / 2;
+        gap |= b.gap_before;
+        if !seeked && frames >= 500 {
+            // Jump back to 0.4 s (frame 100): about 400 frames are replayed twice.
+            p.replay(ReplayCommand::Seek(0.4));
+            seeked = true;
+        }
+    }
+    // 1000 frames of the file, plus those replayed after the jump back (a few blocks of slack:
+    // the source runs a little ahead of this reader).
+    assert!((1350..=1420).contains(&frames), "{frames} frames");
+    assert!(gap, "the block after the seek is marked");
+    // At ×4, 1400 frames of 250 Hz take about 1.4 s, not the 5.6 s of real time (the channel
+    // closes when the file ends).
+    let took = t0.elapsed().as_secs_f64();
+    assert!(took > 1.0 && took < 4.0, "{took} s");
+    let st = p.replay_status().unwrap();
+    assert!(st.ended && (st.length_s - 4.0).abs() < 0.01, "{st:?}");
+}

@@ -207,6 +207,59 @@ fn beats(record: Option<&std::path::Path>) -> Result<BeatFigures> {
     })
 }
 
+#[derive(Serialize)]
+struct WireFigures {
+    text_mb_per_s: f64,
+    binary_mb_per_s: f64,
+    text_bytes: usize,
+    binary_bytes: usize,
+}
+
+fn wire() -> Result<WireFigures> {
+    let s = crate::source::SynthSettings {
+        fs_hz: 1000.0,
+        channels: 4,
+        ..Default::default()
+    };
+    let mut synth = crate::source::Synth::new(s)?;
+    let scale = synth.scale();
+    let mut counts = Vec::new();
+    synth.fill(250_000, &mut counts);
+    let mut text = String::new();
+    crate::wire::ascii::encode_frames(&counts, 4, &mut text);
+    let mut bin = Vec::new();
+    super::simulate::encode_binary(&counts, 4, 0, &scale, &mut bin);
+    let rate = |bytes: &[u8], text: bool| {
+        let mut best = f64::INFINITY;
+        let mut frames = Vec::with_capacity(1 << 16);
+        for _ in 0..3 {
+            let t = Instant::now();
+            let (mut a, mut b) = (
+                crate::wire::ascii::Decoder::new(),
+                crate::wire::binary::Decoder::new(),
+            );
+            // 4 KiB reads, as a serial thread gets them.
+            for chunk in bytes.chunks(4096) {
+                frames.clear();
+                if text {
+                    a.push(chunk, &mut frames)
+                } else {
+                    b.push(chunk, &mut frames)
+                }
+                black_box(&frames);
+            }
+            best = best.min(t.elapsed().as_secs_f64());
+        }
+        bytes.len() as f64 / best / 1e6
+    };
+    Ok(WireFigures {
+        text_mb_per_s: rate(text.as_bytes(), true),
+        binary_mb_per_s: rate(&bin, false),
+        text_bytes: text.len(),
+        binary_bytes: bin.len(),
+    })
+}
+
 /// Runs the command.
 ///
 /// # Errors
@@ -238,6 +291,18 @@ pub fn run(a: &BenchArgs) -> Result<()> {
             println!(
                 "{}: {} samples at {} Hz, {} beats in {:.1} ms",
                 f.record, f.samples, f.fs_hz, f.beats, f.detect_ms
+            );
+            println!("{}", serde_json::to_string(&f)?);
+        }
+        BenchWhat::Wire => {
+            let f = wire()?;
+            println!(
+                "text lines:    {:8.1} MB/s over {} bytes",
+                f.text_mb_per_s, f.text_bytes
+            );
+            println!(
+                "binary frames: {:8.1} MB/s over {} bytes",
+                f.binary_mb_per_s, f.binary_bytes
             );
             println!("{}", serde_json::to_string(&f)?);
         }

@@ -136,6 +136,8 @@ pub enum BenchWhat {
     Spectrum,
     /// Offline beat detection of a 30-minute 360 Hz record (MIT-BIH 100, or a simulated one).
     Beats,
+    /// Decoder throughput of the text and binary wire formats, MB/s.
+    Wire,
 }
 
 /// Options of `leadline bench`.
@@ -301,7 +303,7 @@ pub struct FilterArgs {
 /// Options of `leadline monitor`.
 #[derive(Debug, Clone, Args, Default)]
 pub struct MonitorArgs {
-    /// Signal source: `synth` (the built-in simulator).
+    /// Signal source: synth (the built-in simulator), serial:PATH[@BAUD][:ascii|:binary], or file:PATH (replay).
     #[arg(long, default_value = "synth", value_name = "SPEC")]
     pub source: String,
     /// Simulator sample rate, Hz (125–4000).

@@ -46,6 +46,7 @@ pub struct LeadlineApp {
     response: panels::response::ResponseCache,
     spectrum: panels::spectrum::SpectrumView,
     picker: panels::source::SourcePicker,
+    file_path: String,
     lower: LowerView,
 }
 
@@ -65,9 +66,10 @@ pub enum LowerView {
 fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, PipelineError> {
     Pipeline::start(
         PipelineConfig {
-            source: match &settings.serial {
-                Some(spec) => SourceSpec::Serial(spec.clone()),
-                None => SourceSpec::Synth(settings.synth.clone()),
+            source: match (&settings.serial, &settings.file) {
+                (Some(spec), _) => SourceSpec::Serial(spec.clone()),
+                (None, Some(f)) => SourceSpec::File(f.clone()),
+                (None, None) => SourceSpec::Synth(settings.synth.clone()),
             },
             chain: settings.chain,
             window_s: settings.window_s,
@@ -78,6 +80,13 @@ fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, Pipel
         },
         notify,
     )
+}
+
+fn settings_file_path(s: &Settings) -> String {
+    s.file
+        .as_ref()
+        .map(|f| f.path.display().to_string())
+        .unwrap_or_default()
 }
 
 impl LeadlineApp {
@@ -93,6 +102,7 @@ impl LeadlineApp {
     ) -> Result<Self, PipelineError> {
         let pipeline = start_pipeline(&settings, Arc::clone(&notify))?;
         let start_view = opts.view;
+        let file_path = settings_file_path(&settings);
         Ok(Self {
             settings,
             view: View::default(),
@@ -109,6 +119,7 @@ impl LeadlineApp {
             response: Default::default(),
             spectrum: Default::default(),
             picker: Default::default(),
+            file_path,
             lower: match start_view {
                 crate::cli::StartView::Beats => LowerView::Beats,
                 crate::cli::StartView::Spectrum => LowerView::Spectrum,
@@ -317,10 +328,33 @@ impl LeadlineApp {
                             panels::source::SourceRequest::Simulator => None,
                             panels::source::SourceRequest::Serial(spec) => Some(spec),
                         };
+                        self.settings.file = None;
                         self.settings.channel = 0;
                         self.restart_source();
                     }
-                    if self.settings.serial.is_none() {
+                    ui.horizontal(|ui| {
+                        ui.add(
+                            egui::TextEdit::singleline(&mut self.file_path)
+                                .hint_text("recording.csv / .hea / .f32")
+                                .desired_width(170.0),
+                        )
+                        .on_hover_text("A recording to replay: our CSV, a scope CSV with a time column, raw .f32/.f64 or a WFDB .hea.");
+                        if ui.add_enabled(!self.file_path.is_empty(), egui::Button::new("Replay")).clicked() {
+                            self.settings.file = Some(crate::source::replay::ReplaySpec {
+                                path: self.file_path.clone().into(),
+                                read: crate::store::ReadOptions::default(),
+                            });
+                            self.settings.serial = None;
+                            self.settings.channel = 0;
+                            self.restart_source();
+                        }
+                    });
+                    if let Some(st) = self.pipeline.replay_status() {
+                        for c in panels::replay::show(ui, &st) {
+                            self.pipeline.replay(c);
+                        }
+                    }
+                    if self.settings.serial.is_none() && self.settings.file.is_none() {
                         ui.add_space(10.0);
                         ui.heading("Simulated bench");
                         let changed = panels::simulator::show(ui, &mut self.settings.synth);

@@ -60,8 +60,10 @@ pub fn run(args: &MonitorArgs) -> Result<()> {
         settings.synth.channels = n;
     }
     settings.synth.validate()?;
-    if let crate::source::SourceSpec::Serial(s) = spec {
-        settings.serial = Some(s);
+    match spec {
+        crate::source::SourceSpec::Serial(s) => settings.serial = Some(s),
+        crate::source::SourceSpec::File(f) => settings.file = Some(f),
+        crate::source::SourceSpec::Synth(_) => {}
     }
     let opts = AppOptions {
         exit_after_s: args.exit_after,

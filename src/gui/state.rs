@@ -40,6 +40,8 @@ pub struct Settings {
     pub display_hz: f64,
     /// A serial port instead of the simulator.
     pub serial: Option<crate::source::serial::SerialSpec>,
+    /// A recording replayed instead of the simulator.
+    pub file: Option<crate::source::replay::ReplaySpec>,
 }
 
 impl Default for Settings {
@@ -52,6 +54,7 @@ impl Default for Settings {
             channel: 0,
             display_hz: 30.0,
             serial: None,
+            file: None,
         }
     }
 }

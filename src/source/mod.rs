@@ -4,6 +4,7 @@
 //! - serial and file replay sources arrive with their own modules.
 
 pub mod ecg_model;
+pub mod replay;
 pub mod run;
 pub mod serial;
 pub mod synth;

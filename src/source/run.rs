@@ -15,11 +15,15 @@ pub enum SourceSpec {
     Synth(SynthSettings),
     /// A serial port (or pseudo-terminal).
     Serial(super::serial::SerialSpec),
+    /// A recording replayed at real-time pace.
+    File(super::replay::ReplaySpec),
 }
 
 /// A source text that cannot be understood.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
-#[error("source {spec:?}: {reason} (expected synth, serial:PATH[@BAUD][:ascii|:binary])")]
+#[error(
+    "source {spec:?}: {reason} (expected synth, serial:PATH[@BAUD][:ascii|:binary] or file:PATH)"
+)]
 pub struct SpecError {
     pub spec: String,
     pub reason: String,
@@ -31,6 +35,7 @@ impl SourceSpec {
         match self {
             SourceSpec::Synth(s) => format!("simulator ({} ch)", s.channels),
             SourceSpec::Serial(s) => format!("serial {} @ {}", s.path, s.baud),
+            SourceSpec::File(f) => format!("replay {}", f.path.display()),
         }
     }
 
@@ -54,6 +59,18 @@ impl SourceSpec {
                 s.fs_hz = fs;
             }
             return Ok(SourceSpec::Synth(s));
+        }
+        if let Some(path) = text.strip_prefix("file:") {
+            if path.is_empty() {
+                return Err(err("no file path"));
+            }
+            return Ok(SourceSpec::File(super::replay::ReplaySpec {
+                path: path.into(),
+                read: crate::store::ReadOptions {
+                    fs_hz,
+                    ..Default::default()
+                },
+            }));
         }
         let Some(rest) = text.strip_prefix("serial:") else {
             return Err(err("unknown source kind"));

@@ -1,0 +1,62 @@
+//! Replay controls: speed, pause, seek, loop; and a path field to open a recording.
+
+use eframe::egui;
+
+use crate::source::replay::{ReplayCommand, ReplayStatus};
+
+/// Draws the controls for a running replay; returns the commands to send.
+pub fn show(ui: &mut egui::Ui, st: &ReplayStatus) -> Vec<ReplayCommand> {
+    let mut out = Vec::new();
+    if let Some(e) = &st.error {
+        ui.colored_label(ui.visuals().error_fg_color, e);
+        return out;
+    }
+    let mut speed = st.speed.max(0.25);
+    if ui
+        .add(
+            egui::Slider::new(&mut speed, 0.25..=16.0)
+                .logarithmic(true)
+                .text("Replay speed")
+                .suffix("×"),
+        )
+        .on_hover_text("Playback speed relative to real time.")
+        .changed()
+    {
+        out.push(ReplayCommand::Speed(speed));
+    }
+    // Only once the length is known: a slider on an empty range would clamp and seek by itself.
+    if st.length_s > 0.0 {
+        let mut pos = st.position_s.min(st.length_s);
+        let r = ui
+            .add(
+                egui::Slider::new(&mut pos, 0.0..=st.length_s)
+                    .text("Position")
+                    .suffix(" s")
+                    .max_decimals(1),
+            )
+            .on_hover_text("Drag to jump in the recording (the trace marks the jump as a gap).");
+        if r.changed() && (r.dragged() || r.has_focus() || r.clicked()) {
+            out.push(ReplayCommand::Seek(pos));
+        }
+    }
+    ui.horizontal(|ui| {
+        if ui
+            .button(if st.paused { "Play" } else { "Pause" })
+            .clicked()
+        {
+            out.push(ReplayCommand::Pause(!st.paused));
+        }
+        let mut looping = st.looping;
+        if ui
+            .checkbox(&mut looping, "Loop")
+            .on_hover_text("Start again at the end.")
+            .changed()
+        {
+            out.push(ReplayCommand::Loop(looping));
+        }
+        if st.ended {
+            ui.label("end of file");
+        }
+    });
+    out
+}
