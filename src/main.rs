@@ -21,6 +21,7 @@ fn main() -> ExitCode {
         Some(Command::Filter(a)) => leadline::cli::filter::run(&a).map(|_| ()),
         Some(Command::Beats(a)) => leadline::cli::beats::run(&a).map(|_| ()),
         Some(Command::Spectrum(a)) => leadline::cli::spectrum::run(&a),
+        Some(Command::Parts(a)) => leadline::cli::parts::run(&a),
         Some(Command::Ports) => leadline::cli::record::ports(),
         Some(Command::Record(a)) => leadline::cli::record::run(&a),
         Some(Command::Bench(a)) => leadline::cli::bench::run(&a),

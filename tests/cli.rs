@@ -282,3 +282,81 @@ fn beats_reads_wfdb_and_writes_beats_and_a_summary() {
     ]);
     assert_eq!(o.status.code(), Some(2));
 }
+
+#[test]
+fn parts_json_follows_the_contract() {
+    let out = tmp("parts.json");
+    let o = leadline(&[
+        "parts",
+        "--highpass",
+        "0.5",
+        "--notch",
+        "50",
+        "--lowpass",
+        "40",
+        "--lowpass-order",
+        "3",
+        "--fs",
+        "500",
+        "--capacitor",
+        "1e-6",
+        "--capacitor",
+        "1e-7",
+        "--capacitor",
+        "2.2e-7",
+        "--inamp-gain",
+        "101",
+        "--inamp-k",
+        "100000",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&out).unwrap()).unwrap();
+    let stages = v.as_array().unwrap();
+    let kinds: Vec<&str> = stages
+        .iter()
+        .map(|s| s["topology"].as_str().unwrap())
+        .collect();
+    assert_eq!(
+        kinds,
+        [
+            "inamp-gain",
+            "sallen-key-highpass",
+            "twin-t",
+            "rc-lowpass",
+            "sallen-key-lowpass"
+        ]
+    );
+    // In-amp: G = 1 + K/Rg with K = 100 kΩ and G = 101 → 1 kΩ (common practice example).
+    assert_eq!(stages[0]["parts"]["Rg"].as_f64().unwrap(), 1000.0);
+    assert_eq!(stages[0]["design_gain"].as_f64().unwrap(), 101.0);
+    for s in &stages[1..] {
+        assert!(
+            s["design_hz"].is_number() && s["realised_hz"].is_number(),
+            "{s}"
+        );
+    }
+    for key in ["C1", "C2", "R1", "R2"] {
+        assert!(stages[1]["parts"][key].is_number(), "{key}");
+        assert!(stages[4]["parts"][key].is_number(), "{key}");
+    }
+    assert!(stages[1]["q"].is_number() && stages[1]["design_q"].is_number());
+    for key in ["R", "C", "k"] {
+        assert!(stages[2]["parts"][key].is_number(), "{key}");
+    }
+    assert!(stages[3]["parts"]["R"].is_number() && stages[3]["parts"]["C"].is_number());
+    let o = leadline(&[
+        "parts",
+        "--lowpass",
+        "40",
+        "--fs",
+        "500",
+        "--series",
+        "E7",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+}

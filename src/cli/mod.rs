@@ -3,6 +3,7 @@
 pub mod beats;
 pub mod bench;
 pub mod filter;
+pub mod parts;
 pub mod record;
 pub mod response;
 pub mod simulate;
@@ -41,12 +42,54 @@ pub enum Command {
     Beats(BeatsArgs),
     /// Welch PSD of a recording (CSV), the mains report (JSON) and a plot (PNG).
     Spectrum(SpectrumArgs),
+    /// Realise the chain with standard parts (E-series resistors, your capacitors): parts.json.
+    Parts(PartsArgs),
     /// List the serial ports the system offers.
     Ports,
     /// Record a source headless to a file for a fixed time.
     Record(RecordArgs),
     /// Measure throughput on this machine (run a release build); the last line is JSON.
     Bench(BenchArgs),
+}
+
+/// Options of `leadline parts`.
+#[derive(Debug, Clone, Args)]
+pub struct PartsArgs {
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Sample rate of the digital chain the parts stand in for, Hz.
+    #[arg(long, value_name = "HZ")]
+    pub fs: f64,
+    /// Resistor series: E6, E12, E24, E48, E96, E192.
+    #[arg(long, default_value = "E24", value_name = "SERIES")]
+    pub series: String,
+    /// A capacitor value you have, F (repeatable); default E6 values 1 nF–10 µF.
+    #[arg(long, value_name = "F")]
+    pub capacitor: Vec<f64>,
+    /// In-amp target gain.
+    #[arg(long, value_name = "G")]
+    pub inamp_gain: Option<f64>,
+    /// In-amp constant K of G = 1 + K/Rg, ohms, from its datasheet.
+    #[arg(long, value_name = "OHMS")]
+    pub inamp_k: Option<f64>,
+    /// Resistor tolerance, % (for the spread).
+    #[arg(long, default_value_t = 1.0, value_name = "PCT")]
+    pub r_tol: f64,
+    /// Capacitor tolerance, %.
+    #[arg(long, default_value_t = 5.0, value_name = "PCT")]
+    pub c_tol: f64,
+    /// Monte Carlo draws (at least 2000).
+    #[arg(long, default_value_t = 2000, value_name = "N")]
+    pub draws: usize,
+    /// Output: parts.json.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Also write the gain budget (JSON) for this electrode offset.
+    #[arg(long, value_name = "FILE")]
+    pub budget: Option<PathBuf>,
+    /// Electrode offset to tolerate, ± mV.
+    #[arg(long, default_value_t = 300.0, value_name = "MV")]
+    pub offset_mv: f64,
 }
 
 /// Options of `leadline record`.
@@ -336,6 +379,8 @@ pub enum StartView {
     Spectrum,
     /// Magnitude, phase and group delay of the chain.
     Response,
+    /// The chain realised with standard parts.
+    Parts,
     /// Traces only.
     Traces,
 }

@@ -47,6 +47,7 @@ pub struct LeadlineApp {
     spectrum: panels::spectrum::SpectrumView,
     picker: panels::source::SourcePicker,
     file_path: String,
+    parts: panels::parts::PartsView,
     lower: LowerView,
 }
 
@@ -59,6 +60,8 @@ pub enum LowerView {
     Spectrum,
     /// The chain's magnitude, phase and group delay.
     Response,
+    /// The chain realised with standard parts.
+    Parts,
     /// Nothing: the traces take the whole height.
     Hidden,
 }
@@ -120,10 +123,12 @@ impl LeadlineApp {
             spectrum: Default::default(),
             picker: Default::default(),
             file_path,
+            parts: Default::default(),
             lower: match start_view {
                 crate::cli::StartView::Beats => LowerView::Beats,
                 crate::cli::StartView::Spectrum => LowerView::Spectrum,
                 crate::cli::StartView::Response => LowerView::Response,
+                crate::cli::StartView::Parts => LowerView::Parts,
                 crate::cli::StartView::Traces => LowerView::Hidden,
             },
         })
@@ -391,11 +396,14 @@ impl LeadlineApp {
                     .on_hover_text(
                         "Magnitude, phase and group delay of the digital chain as set now.",
                     );
+                ui.selectable_value(&mut self.lower, LowerView::Parts, "Parts")
+                    .on_hover_text("The chain built from standard parts: resistors from an E series, your capacitors, the tolerance spread.");
                 ui.selectable_value(&mut self.lower, LowerView::Hidden, "Traces only");
             });
             match self.lower {
                 LowerView::Response => {
-                    panels::response::show(ui, &self.response, &self.settings.chain, panels::trace::FILTERED_COLOUR);
+                    self.parts.update(&self.settings.chain, fs);
+                    panels::response::show(ui, &self.response, &self.settings.chain, panels::trace::FILTERED_COLOUR, self.parts.stages());
                 }
                 LowerView::Spectrum => {
                     let frame = self.view.snapshot.as_ref().and_then(|s| s.spectrum.as_ref());
@@ -407,6 +415,9 @@ impl LeadlineApp {
                 LowerView::Beats => {
                     let b = self.view.snapshot.as_ref().and_then(|s| s.beats.as_ref());
                     panels::beats::show(ui, b, fs);
+                }
+                LowerView::Parts => {
+                    panels::parts::show(ui, &mut self.parts, &self.settings.chain, fs);
                 }
                 LowerView::Hidden => {}
             }

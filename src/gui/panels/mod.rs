@@ -3,6 +3,7 @@
 pub mod beats;
 pub mod caution;
 pub mod chain;
+pub mod parts;
 pub mod replay;
 pub mod response;
 pub mod simulator;

@@ -147,6 +147,7 @@ pub fn show(
     cache: &ResponseCache,
     chain: &ChainSettings,
     colour: egui::Color32,
+    built: Option<&[crate::analog::parts::Stage]>,
 ) {
     ui.label(cache.summary_text());
     let pts = &cache.points;
@@ -168,13 +169,44 @@ pub fn show(
     ui.horizontal(|ui| {
         let mag: Vec<[f64; 2]> = pts.iter().map(|p| [x(p), p.mag_db.max(-80.0)]).collect();
         freq_plot("response-mag", "gain (dB)", height, width, span)
+            .legend(egui_plot::Legend::default().position(egui_plot::Corner::LeftBottom))
             .include_y(-80.0)
             .include_y(3.0)
             .show(ui, |pu| {
                 for &c in &corners {
                     pu.vline(VLine::new("", c.log10()).color(egui::Color32::from_gray(90)));
                 }
-                pu.line(Line::new("magnitude", PlotPoints::new(mag)).color(colour));
+                pu.line(Line::new("digital", PlotPoints::new(mag)).color(colour));
+                if let Some(stages) = built.filter(|s| !s.is_empty()) {
+                    // The chain built from the parts of the Parts view, and how far it is off.
+                    let analog: Vec<[f64; 2]> = pts
+                        .iter()
+                        .map(|p| {
+                            [
+                                x(p),
+                                crate::analog::parts::chain_db(stages, p.freq_hz).max(-80.0),
+                            ]
+                        })
+                        .collect();
+                    let diff: Vec<[f64; 2]> = pts
+                        .iter()
+                        .filter(|p| p.mag_db > -40.0)
+                        .map(|p| {
+                            [
+                                x(p),
+                                crate::analog::parts::chain_db(stages, p.freq_hz) - p.mag_db,
+                            ]
+                        })
+                        .collect();
+                    pu.line(
+                        Line::new("built from parts", PlotPoints::new(analog))
+                            .color(egui::Color32::from_gray(170)),
+                    );
+                    pu.line(
+                        Line::new("built − digital (dB)", PlotPoints::new(diff))
+                            .color(egui::Color32::from_rgb(214, 150, 60)),
+                    );
+                }
             });
         let phase: Vec<[f64; 2]> = pts.iter().map(|p| [x(p), p.phase_deg]).collect();
         freq_plot("response-phase", "phase (°)", height, width, span).show(ui, |pu| {

@@ -1,0 +1,215 @@
+//! The parts view: the chain realised with standard parts, a table of stages, and the analog
+//! response over the digital one with their difference in dB and the tolerance envelope.
+
+use eframe::egui;
+use egui_plot::{Legend, Line, LineStyle, Plot, PlotPoints};
+
+use super::response::decade_spacer;
+use super::trace::{FILTERED_COLOUR, RAW_COLOUR};
+use crate::analog::eseries::Series;
+use crate::analog::parts::{PartsOptions, Stage, chain_db, envelope, realise};
+use crate::analog::tolerance::Tolerances;
+use crate::cli::parts::engineering;
+use crate::dsp::chain::ChainSettings;
+use crate::dsp::response;
+
+/// The view's inputs and its cached result.
+#[derive(Debug, Clone)]
+pub struct PartsView {
+    caps_text: String,
+    series: Series,
+    r_tol_pct: f64,
+    c_tol_pct: f64,
+    key: Option<(ChainSettings, String, Series, u64, u64, u64)>,
+    stages: Result<Vec<Stage>, String>,
+    curves: Vec<[f64; 5]>,
+}
+
+impl Default for PartsView {
+    fn default() -> Self {
+        Self {
+            caps_text: "1u 220n 100n 47n 10n".into(),
+            series: Series::E24,
+            r_tol_pct: 1.0,
+            c_tol_pct: 5.0,
+            key: None,
+            stages: Ok(Vec::new()),
+            curves: Vec::new(),
+        }
+    }
+}
+
+fn parse_cap(t: &str) -> Option<f64> {
+    let t = t.trim().trim_end_matches('F');
+    let (num, mult) = match t.chars().last()? {
+        'p' => (&t[..t.len() - 1], 1e-12),
+        'n' => (&t[..t.len() - 1], 1e-9),
+        'u' | 'µ' => (&t[..t.len() - t.chars().last()?.len_utf8()], 1e-6),
+        'm' => (&t[..t.len() - 1], 1e-3),
+        _ => (t, 1.0),
+    };
+    num.parse::<f64>()
+        .ok()
+        .map(|v| v * mult)
+        .filter(|v| *v > 0.0)
+}
+
+impl PartsView {
+    /// The stages built for the chain last given to [`Self::update`].
+    pub fn stages(&self) -> Option<&[Stage]> {
+        self.stages.as_deref().ok()
+    }
+
+    /// Re-realises when the chain or the inputs changed.
+    pub fn update(&mut self, chain: &ChainSettings, fs: f64) {
+        let key = (
+            *chain,
+            self.caps_text.clone(),
+            self.series,
+            self.r_tol_pct.to_bits(),
+            self.c_tol_pct.to_bits(),
+            fs.to_bits(),
+        );
+        if self.key.as_ref() == Some(&key) {
+            return;
+        }
+        self.key = Some(key);
+        let caps: Option<Vec<f64>> = self
+            .caps_text
+            .split([',', ' ', ';'])
+            .filter(|s| !s.is_empty())
+            .map(parse_cap)
+            .collect();
+        let Some(caps) = caps else {
+            self.stages = Err("capacitors: write values like 1u 220n 100n".into());
+            return;
+        };
+        let tol = Tolerances {
+            resistor: self.r_tol_pct / 100.0,
+            capacitor: self.c_tol_pct / 100.0,
+            draws: 2000,
+            seed: 1,
+        };
+        let opts = PartsOptions {
+            series: self.series,
+            capacitors: caps,
+            tolerances: tol,
+            inamp: None,
+        };
+        self.stages = realise(chain, &opts).map_err(|e| e.to_string());
+        self.curves.clear();
+        if let (Ok(stages), Ok(digital)) = (&self.stages, chain.design(fs)) {
+            let freqs = response::log_frequencies(0.05, 0.45 * fs, 80);
+            let env = envelope(stages, &freqs, &tol);
+            for (f, (lo, hi)) in freqs.iter().zip(env) {
+                let d = 20.0 * response::magnitude(&digital, *f, fs).max(1e-12).log10();
+                let a = chain_db(stages, *f);
+                self.curves.push([f.log10(), d, a, lo, hi]);
+            }
+        }
+    }
+}
+
+/// Draws the view.
+pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: f64) {
+    ui.horizontal(|ui| {
+        ui.label("my capacitors");
+        ui.add(egui::TextEdit::singleline(&mut view.caps_text).desired_width(180.0))
+            .on_hover_text("The capacitor values you have, e.g. 1u 220n 100n; resistors are picked from the series.");
+        egui::ComboBox::from_id_salt("parts-series")
+            .selected_text(format!("{:?}", view.series))
+            .show_ui(ui, |ui| {
+                for s in [Series::E6, Series::E12, Series::E24, Series::E48, Series::E96, Series::E192] {
+                    ui.selectable_value(&mut view.series, s, format!("{s:?}"));
+                }
+            })
+            .response
+            .on_hover_text("Resistor series (IEC 60063).");
+        ui.add(egui::Slider::new(&mut view.r_tol_pct, 0.1..=5.0).text("R tol").suffix(" %"));
+        ui.add(egui::Slider::new(&mut view.c_tol_pct, 1.0..=20.0).text("C tol").suffix(" %"));
+    });
+    view.update(chain, fs);
+    let stages = match &view.stages {
+        Ok(s) => s.clone(),
+        Err(e) => {
+            ui.colored_label(ui.visuals().error_fg_color, e);
+            return;
+        }
+    };
+    let width = ui.available_width();
+    let height = ui.available_height().max(120.0);
+    ui.horizontal_top(|ui| {
+        ui.allocate_ui(egui::vec2(width * 0.62, height), |ui| {
+            egui::ScrollArea::vertical()
+                .id_salt("parts-table")
+                .auto_shrink([false, false])
+                .show(ui, |ui| {
+                    egui::Grid::new("parts-grid").striped(true).show(ui, |ui| {
+                        for h in ["stage", "design", "built", "error", "Q", "5–95 %", "parts"] {
+                            ui.label(egui::RichText::new(h).strong());
+                        }
+                        ui.end_row();
+                        for s in &stages {
+                            ui.label(s.topology);
+                            ui.label(s.design_hz.map_or(String::new(), |f| format!("{f:.3} Hz")));
+                            ui.label(
+                                s.realised_hz
+                                    .map_or(String::new(), |f| format!("{f:.3} Hz")),
+                            );
+                            ui.label(format!("{:+.2} %", s.error_pct));
+                            ui.label(s.q.map_or(String::new(), |q| format!("{q:.3}")));
+                            ui.label(s.spread.map_or(String::new(), |p| {
+                                format!("{:.3}–{:.3}", p.p5_hz, p.p95_hz)
+                            }));
+                            let parts: Vec<String> = s
+                                .parts
+                                .iter()
+                                .map(|(k, v)| format!("{k} {}", engineering(*v, k)))
+                                .collect();
+                            ui.label(parts.join(", "));
+                            ui.end_row();
+                        }
+                    });
+                });
+        });
+        let c = &view.curves;
+        let pts = |i: usize| PlotPoints::new(c.iter().map(|r| [r[0], r[i]]).collect());
+        Plot::new("parts-response")
+            .height(height)
+            .legend(Legend::default().position(egui_plot::Corner::LeftBottom))
+            .x_axis_label("frequency (Hz)")
+            .y_axis_label("gain (dB)")
+            .x_grid_spacer(decade_spacer)
+            .x_axis_formatter(|m, _| {
+                if (m.value - m.value.round()).abs() > 1e-6 {
+                    String::new()
+                } else {
+                    format!("{}", 10f64.powf(m.value))
+                }
+            })
+            .include_y(-40.0)
+            .include_y(3.0)
+            .allow_drag(false)
+            .allow_zoom(false)
+            .allow_scroll(false)
+            .show(ui, |pu| {
+                pu.line(Line::new("digital chain", pts(1)).color(FILTERED_COLOUR));
+                pu.line(Line::new("built from parts", pts(2)).color(RAW_COLOUR));
+                pu.line(
+                    Line::new("tolerance 5–95 %", pts(3))
+                        .color(egui::Color32::from_gray(110))
+                        .style(LineStyle::Dashed { length: 4.0 }),
+                );
+                pu.line(
+                    Line::new("tolerance 5–95 %", pts(4))
+                        .color(egui::Color32::from_gray(110))
+                        .style(LineStyle::Dashed { length: 4.0 }),
+                );
+                let diff: Vec<[f64; 2]> = c.iter().map(|r| [r[0], r[2] - r[1]]).collect();
+                pu.line(
+                    Line::new("built − digital", PlotPoints::new(diff))
+                        .color(egui::Color32::from_rgb(214, 150, 60)),
+                );
+            });
+    });
+}

@@ -1,0 +1,153 @@
+//! Analog realisations: exact s-domain responses against scipy.signal.freqs fixtures
+//! (tests/reference/analog.json, made by tests/reference/make_analog.py), Monte Carlo spreads,
+//! and a whole chain realised with standard parts.
+// Helpers outside #[test] functions unwrap too: a panic is the failure report.
+#![allow(clippy::unwrap_used)]
+
+use std::collections::BTreeMap;
+
+use leadline::analog::eseries::Series;
+use leadline::analog::parts::{PartsOptions, Stage, chain_db, envelope, realise, spread};
+use leadline::analog::tolerance::Tolerances;
+use leadline::analog::{poly_ratio_db, rc, sallen_key, twin_t};
+use leadline::dsp::ChainSettings;
+
+#[test]
+fn analog_responses_match_scipy_freqs_to_0_01_db() {
+    let text = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/tests/reference/analog.json"
+    ))
+    .unwrap();
+    let fx: serde_json::Value = serde_json::from_str(&text).unwrap();
+    for case in fx["cases"].as_array().unwrap() {
+        let p = |k: &str| case["parts"][k].as_f64().unwrap();
+        let kind = case["topology"].as_str().unwrap();
+        let (num, den) = match kind {
+            "rc-lowpass" => rc::lowpass_tf(p("R"), p("C")),
+            "rc-highpass" => rc::highpass_tf(p("R"), p("C")),
+            "sallen-key-lowpass" => sallen_key::lowpass_tf(p("R1"), p("R2"), p("C1"), p("C2")),
+            "sallen-key-highpass" => sallen_key::highpass_tf(p("R1"), p("R2"), p("C1"), p("C2")),
+            _ => twin_t::tf(p("R"), p("C"), p("k")),
+        };
+        let freqs = case["freqs_hz"].as_array().unwrap();
+        for (f, want) in freqs.iter().zip(case["mag_db"].as_array().unwrap()) {
+            let (f, want) = (f.as_f64().unwrap(), want.as_f64().unwrap());
+            let got = poly_ratio_db(&num, &den, f);
+            assert!(
+                (got - want).abs() < 0.01,
+                "{kind} at {f} Hz: {got} vs scipy {want}"
+            );
+        }
+    }
+}
+
+fn stage(topology: &'static str, parts: &[(&'static str, f64)]) -> Stage {
+    let parts: BTreeMap<&'static str, f64> = parts.iter().copied().collect();
+    Stage {
+        topology,
+        design_hz: None,
+        realised_hz: None,
+        design_gain: None,
+        realised_gain: None,
+        q: None,
+        design_q: None,
+        error_pct: 0.0,
+        parts,
+        spread: None,
+    }
+}
+
+#[test]
+fn monte_carlo_zero_tolerance_is_nominal_and_spread_grows() {
+    let s = stage(
+        "sallen-key-lowpass",
+        &[("R1", 27e3), ("R2", 30e3), ("C1", 220e-9), ("C2", 100e-9)],
+    );
+    let (f0, _) = sallen_key::lowpass_f0_q(27e3, 30e3, 220e-9, 100e-9);
+    let zero = spread(
+        &s,
+        &Tolerances {
+            resistor: 0.0,
+            capacitor: 0.0,
+            draws: 2000,
+            seed: 4,
+        },
+    );
+    assert_eq!((zero.p5_hz, zero.p50_hz, zero.p95_hz), (f0, f0, f0));
+    let mut widths = Vec::new();
+    for (r, c) in [(0.001, 0.01), (0.01, 0.05), (0.05, 0.10), (0.05, 0.20)] {
+        let sp = spread(
+            &s,
+            &Tolerances {
+                resistor: r,
+                capacitor: c,
+                draws: 2000,
+                seed: 4,
+            },
+        );
+        assert_eq!(sp.draws, 2000);
+        assert!(sp.p5_hz < f0 && f0 < sp.p95_hz);
+        widths.push(sp.p95_hz - sp.p5_hz);
+    }
+    assert!(widths.windows(2).all(|w| w[1] > w[0]), "{widths:?}");
+    // Same seed, same spread.
+    let t = Tolerances::default();
+    assert_eq!(spread(&s, &t), spread(&s, &t));
+}
+
+#[test]
+fn a_monitoring_chain_realised_with_my_capacitors() {
+    let chain = ChainSettings::default(); // HP 0.5 Hz ×2, notch 50 Hz Q 30, LP 40 Hz ×4
+    let opts = PartsOptions {
+        series: Series::E24,
+        capacitors: vec![1e-6, 100e-9, 220e-9, 470e-9],
+        inamp: Some((10.0, 49.4e3)),
+        ..PartsOptions::default()
+    };
+    let stages = realise(&chain, &opts).unwrap();
+    let kinds: Vec<&str> = stages.iter().map(|s| s.topology).collect();
+    assert_eq!(
+        kinds,
+        [
+            "inamp-gain",
+            "sallen-key-highpass",
+            "twin-t",
+            "sallen-key-lowpass",
+            "sallen-key-lowpass"
+        ]
+    );
+    for s in &stages[1..] {
+        // E24 resistors: corners within a few per cent of the design.
+        assert!(
+            s.error_pct.abs() < 6.0,
+            "{} off by {:.2} %",
+            s.topology,
+            s.error_pct
+        );
+        for (k, v) in &s.parts {
+            if k.starts_with('C') {
+                assert!(opts.capacitors.contains(v), "{k} = {v} is not one of mine");
+            }
+        }
+        let sp = s.spread.unwrap();
+        assert!(sp.p5_hz < sp.p95_hz);
+    }
+    // Twin-T for Q 30: k = 1 − 1/120.
+    assert!((stages[2].parts["k"] - (1.0 - 1.0 / 120.0)).abs() < 1e-12);
+    // The in-amp: G = 1 + 49.4 kΩ/Rg for G = 10 → 5.49 kΩ, E24 → 5.6 kΩ.
+    assert_eq!(stages[0].parts["Rg"], 5600.0);
+    // The realised chain is close to the digital one in the pass band.
+    let digital = chain.design(1000.0).unwrap();
+    let d10 = 20.0 * leadline::dsp::response::magnitude(&digital, 10.0, 1000.0).log10();
+    assert!((chain_db(&stages[1..], 10.0) - d10).abs() < 0.5);
+    let env = envelope(
+        &stages[1..],
+        &[1.0, 10.0, 40.0],
+        &Tolerances {
+            draws: 2000,
+            ..Tolerances::default()
+        },
+    );
+    assert!(env.iter().all(|(lo, hi)| lo <= hi));
+}
