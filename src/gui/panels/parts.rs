@@ -20,6 +20,7 @@ pub struct PartsView {
     series: Series,
     r_tol_pct: f64,
     c_tol_pct: f64,
+    budget: crate::analog::gain_budget::Budget,
     key: Option<(ChainSettings, String, Series, u64, u64, u64)>,
     stages: Result<Vec<Stage>, String>,
     curves: Vec<[f64; 5]>,
@@ -32,6 +33,7 @@ impl Default for PartsView {
             series: Series::E24,
             r_tol_pct: 1.0,
             c_tol_pct: 5.0,
+            budget: Default::default(),
             key: None,
             stages: Ok(Vec::new()),
             curves: Vec::new(),
@@ -127,6 +129,37 @@ pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: 
             .on_hover_text("Resistor series (IEC 60063).");
         ui.add(egui::Slider::new(&mut view.r_tol_pct, 0.1..=5.0).text("R tol").suffix(" %"));
         ui.add(egui::Slider::new(&mut view.c_tol_pct, 1.0..=20.0).text("C tol").suffix(" %"));
+    });
+    ui.horizontal(|ui| {
+        ui.label("gain budget:");
+        ui.add(
+            egui::DragValue::new(&mut view.budget.offset_mv)
+                .range(0.0..=1000.0)
+                .suffix(" mV offset"),
+        )
+        .on_hover_text("Electrode offset to tolerate, ± (ECG standards ask for ±300 mV).");
+        ui.add(
+            egui::DragValue::new(&mut view.budget.inamp_swing_v)
+                .range(0.05..=15.0)
+                .speed(0.05)
+                .suffix(" V swing"),
+        )
+        .on_hover_text("In-amp output swing either side of its reference.");
+        ui.add(
+            egui::DragValue::new(&mut view.budget.fill)
+                .range(0.05..=1.0)
+                .speed(0.01)
+                .suffix(" of ADC half range"),
+        )
+        .on_hover_text("How much of the ADC's half range a 1 mV R wave should fill.");
+        let r = crate::analog::gain_budget::compute(&view.budget);
+        ui.label(format!(
+            "first stage ≤ {:.1} · total {:.0} · after it {:.0} · {:.2} µV/LSB",
+            r.max_first_gain, r.total_gain, r.second_gain, r.uv_per_lsb
+        ));
+        for w in &r.warnings {
+            ui.colored_label(ui.visuals().warn_fg_color, w);
+        }
     });
     view.update(chain, fs);
     let stages = match &view.stages {
