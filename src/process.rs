@@ -429,17 +429,19 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 if let Some(r) = &state {
                     spectrum.frame = None;
                     spectrum.update(r);
-                    let mut snap = snapshot(
-                        r,
-                        window_s,
-                        &chain_error,
-                        scale,
-                        &stats,
-                        true,
-                        &spectrum.frame,
-                    );
-                    snap.beats = beat_state.as_ref().map(BeatState::view);
-                    snap.inverted = invert;
+                    let snap = Snapshot {
+                        beats: beat_state.as_ref().map(BeatState::view),
+                        inverted: invert,
+                        ..snapshot(
+                            r,
+                            window_s,
+                            &chain_error,
+                            scale,
+                            &stats,
+                            true,
+                            &spectrum.frame,
+                        )
+                    };
                     offer(&ports, snap, &mut stats);
                     notify();
                 }
@@ -573,17 +575,19 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 latency_window_start = now;
             }
             spectrum.update(r);
-            let mut snap = snapshot(
-                r,
-                window_s,
-                &chain_error,
-                scale,
-                &stats,
-                false,
-                &spectrum.frame,
-            );
-            snap.beats = beat_state.as_ref().map(BeatState::view);
-            snap.inverted = invert;
+            let snap = Snapshot {
+                beats: beat_state.as_ref().map(BeatState::view),
+                inverted: invert,
+                ..snapshot(
+                    r,
+                    window_s,
+                    &chain_error,
+                    scale,
+                    &stats,
+                    false,
+                    &spectrum.frame,
+                )
+            };
             offer(&ports, snap, &mut stats);
             last_snapshot = now;
             notify();

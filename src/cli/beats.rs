@@ -8,7 +8,7 @@ use serde::Serialize;
 use super::{BadInput, BeatsArgs};
 use crate::analysis::beats::Detector;
 use crate::analysis::rate::{Hrv, RateMeter, hrv};
-use crate::store::{self, ReadOptions, StoreError};
+use crate::store::ReadOptions;
 
 #[derive(Serialize)]
 struct Summary {
@@ -31,17 +31,8 @@ pub fn run(a: &BeatsArgs) -> Result<usize> {
         unit: a.units.unit(),
         channels: a.channels,
     };
-    let rec = store::read(&a.input, &opts).map_err(|e| match e {
-        StoreError::Io { .. } => anyhow::Error::new(e),
-        other => BadInput(other.to_string()).into(),
-    })?;
-    let x = rec.channels.get(a.channel).ok_or_else(|| {
-        BadInput(format!(
-            "--channel {}: the file has {} channel(s) (0-based)",
-            a.channel,
-            rec.channels.len()
-        ))
-    })?;
+    let (rec, ch) = super::load_channel(&a.input, &opts, a.channel)?;
+    let x = &rec.channels[ch];
     let mut det = Detector::new(rec.fs_hz).map_err(|e| BadInput(e.to_string()))?;
     let mut beats = Vec::new();
     det.process(x, &mut beats);

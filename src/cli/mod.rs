@@ -480,6 +480,30 @@ pub struct SimulateArgs {
     pub baud: u32,
 }
 
+/// Reads a recording for an offline command and picks one channel: a malformed file or a missing
+/// channel is bad input (exit 2), an unreadable one an I/O failure (exit 1).
+///
+/// # Errors
+/// As described.
+pub fn load_channel(
+    input: &std::path::Path,
+    opts: &crate::store::ReadOptions,
+    channel: usize,
+) -> anyhow::Result<(crate::store::Recording, usize)> {
+    let rec = crate::store::read(input, opts).map_err(|e| match e {
+        crate::store::StoreError::Io { .. } => anyhow::Error::new(e),
+        other => BadInput(other.to_string()).into(),
+    })?;
+    if channel >= rec.channels.len() {
+        return Err(BadInput(format!(
+            "--channel {channel}: the file has {} channel(s) (0-based)",
+            rec.channels.len()
+        ))
+        .into());
+    }
+    Ok((rec, channel))
+}
+
 /// A bad argument or input detected after parsing (exit code 2, like clap's own errors).
 #[derive(Debug, thiserror::Error)]
 #[error("{0}")]

@@ -9,7 +9,7 @@ use super::{BadInput, SpectrumArgs};
 use crate::analysis::mains::{self, MainsReport};
 use crate::dsp::spectrum::{Welch, segment_for};
 use crate::export::plot_png;
-use crate::store::{self, ReadOptions, StoreError};
+use crate::store::ReadOptions;
 
 #[derive(Serialize)]
 struct Report<'a> {
@@ -33,17 +33,8 @@ pub fn run(a: &SpectrumArgs) -> Result<()> {
         unit: a.units.unit(),
         channels: a.channels,
     };
-    let rec = store::read(&a.input, &opts).map_err(|e| match e {
-        StoreError::Io { .. } => anyhow::Error::new(e),
-        other => BadInput(other.to_string()).into(),
-    })?;
-    let x = rec.channels.get(a.channel).ok_or_else(|| {
-        BadInput(format!(
-            "--channel {}: the file has {} channel(s) (0-based)",
-            a.channel,
-            rec.channels.len()
-        ))
-    })?;
+    let (rec, ch) = super::load_channel(&a.input, &opts, a.channel)?;
+    let x = &rec.channels[ch];
     let segment = a.segment.unwrap_or_else(|| {
         segment_for(rec.fs_hz, 4.0)
             .min(x.len().next_power_of_two() / 2)

@@ -97,6 +97,26 @@ pub fn decade_spacer(input: GridInput) -> Vec<GridMark> {
     marks
 }
 
+/// Hover text for a plot whose x axis is frequency (log10 Hz when `log`): the series name, the
+/// frequency in Hz and the value with `unit`.
+pub fn hover_text(pos: &HoverPosition<'_>, log: bool, unit: &str) -> String {
+    let (name, p) = match pos {
+        HoverPosition::NearDataPoint {
+            plot_name,
+            position,
+            ..
+        } => (*plot_name, *position),
+        HoverPosition::Elsewhere { position } => ("", *position),
+    };
+    let f = if log { 10f64.powf(p.x) } else { p.x };
+    let head = if name.is_empty() {
+        String::new()
+    } else {
+        format!("{name}\n")
+    };
+    format!("{head}{f:.3} Hz\n{:.2}{unit}", p.y)
+}
+
 fn hz_ticks(mark: GridMark, _range: &std::ops::RangeInclusive<f64>) -> String {
     let f = 10f64.powf(mark.value);
     if (mark.value - mark.value.round()).abs() > 1e-6 {
@@ -123,22 +143,7 @@ fn freq_plot(id: &str, y_label: &str, height: f32, width: f32, span: (f64, f64))
         .allow_zoom(false)
         .allow_scroll(false)
         .allow_boxed_zoom(false)
-        .label_formatter(|pos| {
-            let (name, p) = match pos {
-                HoverPosition::NearDataPoint {
-                    plot_name,
-                    position,
-                    ..
-                } => (*plot_name, *position),
-                HoverPosition::Elsewhere { position } => ("", *position),
-            };
-            let f = 10f64.powf(p.x);
-            Some(if name.is_empty() {
-                format!("{f:.3} Hz\n{:.3}", p.y)
-            } else {
-                format!("{name}\n{f:.3} Hz\n{:.3}", p.y)
-            })
-        })
+        .label_formatter(|pos| Some(hover_text(pos, true, "")))
 }
 
 /// Draws the three plots side by side and the summary line.

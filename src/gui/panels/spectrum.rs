@@ -6,8 +6,7 @@ use std::sync::Arc;
 
 use eframe::egui;
 use egui_plot::{
-    AxisHints, HPlacement, HoverPosition, Line, LineStyle, Plot, PlotPoint, PlotPoints, Points,
-    Text,
+    AxisHints, HPlacement, Line, LineStyle, Plot, PlotPoint, PlotPoints, Points, Text,
 };
 
 use super::response::decade_spacer;
@@ -212,18 +211,7 @@ pub fn show(
                     }
                 }),
         ])
-        .label_formatter(move |pos| {
-            let (name, p) = match pos {
-                HoverPosition::NearDataPoint {
-                    plot_name,
-                    position,
-                    ..
-                } => (*plot_name, *position),
-                HoverPosition::Elsewhere { position } => ("", *position),
-            };
-            let f = if log { 10f64.powf(p.x) } else { p.x };
-            Some(format!("{name}\n{f:.2} Hz\n{:.1} dB", p.y))
-        });
+        .label_formatter(move |pos| Some(super::response::hover_text(pos, log, " dB")));
     if log {
         plot = plot.x_grid_spacer(decade_spacer).x_axis_formatter(|m, _| {
             if (m.value - m.value.round()).abs() > 1e-6 {
