@@ -26,6 +26,8 @@
 //! - Frequencies are in Hz (`_hz`), heart rates in beats per minute (`_bpm`).
 //! - Multi-channel blocks are frame-major: all channels of frame 0, then frame 1, …
 
+#![forbid(unsafe_code)]
+
 pub mod analog;
 pub mod analysis;
 pub mod cli;

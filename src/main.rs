@@ -1,5 +1,7 @@
 //! The `leadline` binary: parse the command line, hand over to the GUI or one CLI command.
 
+#![forbid(unsafe_code)]
+
 use std::process::ExitCode;
 
 use clap::Parser;

@@ -65,6 +65,42 @@ fn every_beat_found_at_each_rate_and_polarity_with_mains_and_noise() {
 }
 
 #[test]
+fn each_beat_is_decided_within_300_ms_of_its_r_peak() {
+    // Live-sized blocks of 10 ms; a beat's decision time is the end of the block that reported it.
+    for fs in [125.0, 360.0, 1000.0, 2000.0] {
+        let s = SynthSettings {
+            fs_hz: fs,
+            mains_uv: 50.0,
+            noise_uv: 10.0,
+            ..SynthSettings::default()
+        };
+        let mut synth = Synth::new(s).unwrap();
+        let x = uv(&mut synth, (60.0 * fs) as usize);
+        let mut det = Detector::new(fs).unwrap();
+        let block = (fs / 100.0) as usize;
+        let mut worst: f64 = 0.0;
+        let mut n = 0;
+        for (k, b) in x.chunks(block).enumerate() {
+            let mut out = Vec::new();
+            det.process(b, &mut out);
+            let decided_at = ((k + 1) * block) as f64 / fs;
+            for beat in out
+                .iter()
+                .filter(|b| !b.search_back && b.sample as f64 / fs > 3.0)
+            {
+                worst = worst.max(decided_at - beat.sample as f64 / fs);
+                n += 1;
+            }
+        }
+        assert!(n > 50, "fs {fs}: {n} beats");
+        assert!(
+            worst <= 0.300,
+            "fs {fs}: a beat was decided {worst:.3} s after its R peak"
+        );
+    }
+}
+
+#[test]
 fn a_step_from_80_to_120_bpm_settles_within_8_beats() {
     let fs = 500.0;
     let mut s = SynthSettings {

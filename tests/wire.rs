@@ -96,7 +96,7 @@ fn binary_garbage_bad_crc_and_sequence_gaps_are_counted() {
     assert_eq!(d.stats().lost_frames, 1);
     assert_eq!(frames[1].lost_before, 1);
 
-    // A sequence jump of k counts k − 1 lost frames: drop frames 3..7 (k = 5).
+    // k frames missing (the sequence number jumps by k + 1) count k lost frames: drop 3..=7 (k = 5).
     let mut gap = good[..3 * flen].to_vec();
     gap.extend_from_slice(&good[8 * flen..]);
     let (frames, d) = decode_binary(&gap, &[]);

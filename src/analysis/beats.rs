@@ -12,7 +12,8 @@
 //! the sample of the input farthest from the median of the QRS window, so either polarity works.
 //!
 //! Changes from the published rules, and why:
-//! - Candidates are local maxima of the integrated signal within ±180 ms (an O(1) sliding-window
+//! - Candidates are local maxima of the integrated signal over 180 ms before and 165 ms after
+//!   (an O(1) sliding-window
 //!   maximum), not every slope change: a noisy integrator output otherwise yields several
 //!   candidates per QRS and pulls NPKI up.
 //! - The learning phase (2 s) buffers its candidates and classifies them once the levels are
@@ -99,7 +100,10 @@ pub struct Detector {
     mwi_ring: Ring,
     /// Indices of the sliding-window maximum of the integrated signal.
     maxq: VecDeque<u64>,
+    /// Look-ahead of the candidate window, samples (the decision waits this long).
     half_window: u64,
+    /// Look-back of the candidate window, samples.
+    look_back: u64,
     delay_bp: u64,
     refractory: u64,
     t_wave_window: u64,
@@ -176,7 +180,8 @@ impl Detector {
             slope_ring: Ring::new(history),
             mwi_ring: Ring::new(history),
             maxq: VecDeque::new(),
-            half_window: secs(0.180),
+            half_window: secs(0.165),
+            look_back: secs(0.180),
             delay_bp,
             refractory: secs(0.200),
             t_wave_window: secs(0.360),
@@ -289,8 +294,9 @@ impl Detector {
             self.maxq.pop_back();
         }
         self.maxq.push_back(i);
-        let w = self.half_window;
-        while self.maxq.front().is_some_and(|&j| j + 2 * w < i) {
+        // The window looks further back than ahead: only the look-ahead costs decision latency.
+        let (back, w) = (self.look_back, self.half_window);
+        while self.maxq.front().is_some_and(|&j| j + back + w < i) {
             self.maxq.pop_front();
         }
         if i >= w {

@@ -17,6 +17,11 @@ pub fn show(ui: &mut egui::Ui, view: &View, source: &str, paused: bool) {
                 ui.separator();
                 let lost = s.stats.frames_lost;
                 ui.label(format!("lost {lost}")).on_hover_text("Frames missing from the stream.");
+                if s.stats.gaps > 0 {
+                    ui.separator();
+                    ui.colored_label(ui.visuals().warn_fg_color, format!("gaps {}", s.stats.gaps))
+                        .on_hover_text("Times the device went away and came back: the stream (and any recording) has a gap there.");
+                }
                 ui.separator();
                 ui.label(format!("display drops {}", s.stats.snapshots_dropped))
                     .on_hover_text("Screen updates skipped because drawing was slower than the data; no samples are lost.");
