@@ -99,3 +99,24 @@ fn first_start_caution_is_shown_until_confirmed() {
         "confirmation remembered"
     );
 }
+
+#[test]
+fn space_freezes_and_the_freeze_button_resumes() {
+    let mut h = Harness::builder()
+        .with_size([1280.0, 800.0])
+        .build_ui_state(
+            |ui, app: &mut LeadlineApp| {
+                app.poll();
+                app.show(ui);
+            },
+            app(),
+        );
+    h.run_steps(2);
+    assert!(!h.state().paused());
+    h.key_press(eframe::egui::Key::Space);
+    h.run_steps(2);
+    assert!(h.state().paused(), "Space freezes the traces");
+    h.get_by_role_and_label(Role::Button, "Resume").click();
+    h.run_steps(2);
+    assert!(!h.state().paused(), "the button resumes");
+}

@@ -139,6 +139,11 @@ impl LeadlineApp {
         &self.settings
     }
 
+    /// True while the traces are frozen.
+    pub fn paused(&self) -> bool {
+        self.paused
+    }
+
     /// Latest data (tests read it).
     pub fn view(&self) -> &View {
         &self.view
@@ -213,8 +218,35 @@ impl LeadlineApp {
         }
     }
 
+    /// Keyboard shortcuts (ignored while a text field has the keyboard).
+    fn keys(&mut self, ctx: &egui::Context) {
+        if ctx.egui_wants_keyboard_input() {
+            return;
+        }
+        let pressed = |k: egui::Key| ctx.input(|i| i.key_pressed(k));
+        if pressed(egui::Key::Space) {
+            self.paused = !self.paused;
+            self.pending.push(Control::DisplayPaused(self.paused));
+        }
+        if pressed(egui::Key::H) {
+            self.spectrum.before = self.view.snapshot.as_ref().and_then(|s| s.spectrum.clone());
+        }
+        for (k, v) in [
+            (egui::Key::Num1, LowerView::Beats),
+            (egui::Key::Num2, LowerView::Spectrum),
+            (egui::Key::Num3, LowerView::Response),
+            (egui::Key::Num4, LowerView::Parts),
+            (egui::Key::Num5, LowerView::Hidden),
+        ] {
+            if pressed(k) {
+                self.lower = v;
+            }
+        }
+    }
+
     /// Draws the whole window and queues the resulting Controls.
     pub fn show(&mut self, ui: &mut egui::Ui) {
+        self.keys(&ui.ctx().clone());
         let fs = self
             .view
             .snapshot
@@ -236,6 +268,9 @@ impl LeadlineApp {
                     self.paused = !self.paused;
                     self.pending.push(Control::DisplayPaused(self.paused));
                 }
+                ui.label("Keys").on_hover_text(
+                    "Keys: Space freeze/resume · H hold the spectrum as 'before' · 1 beats · 2 spectrum · 3 chain response · 4 parts · 5 traces only",
+                );
                 ui.separator();
                 let w = ui
                     .add(
