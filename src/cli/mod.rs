@@ -19,7 +19,13 @@ use clap::{Args, Parser, Subcommand, ValueEnum};
 /// Not a medical device; not for diagnosis. Electrodes on a person: battery-powered or isolated
 /// equipment only.
 #[derive(Debug, Parser)]
-#[command(name = "leadline", version, about, long_about = None)]
+#[command(
+    name = "leadline",
+    version,
+    about,
+    long_about = None,
+    after_help = "Not a medical device; not for diagnosis. With electrodes on a person use only battery-powered or properly isolated equipment (IEC 60601-1, local regulations)."
+)]
 pub struct Cli {
     #[command(subcommand)]
     pub command: Option<Command>,
