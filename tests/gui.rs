@@ -21,17 +21,21 @@ fn app() -> LeadlineApp {
     .unwrap()
 }
 
-#[test]
-fn moving_the_high_pass_slider_retunes_the_dsp_thread() {
-    let mut h = Harness::builder()
+fn harness(app: LeadlineApp) -> Harness<'static, LeadlineApp> {
+    Harness::builder()
         .with_size([1280.0, 800.0])
         .build_ui_state(
             |ui, app: &mut LeadlineApp| {
                 app.poll();
                 app.show(ui);
             },
-            app(),
-        );
+            app,
+        )
+}
+
+#[test]
+fn moving_the_high_pass_slider_retunes_the_dsp_thread() {
+    let mut h = harness(app());
     h.run_steps(3);
     h.get_by_role_and_label(Role::Slider, "High-pass corner")
         .set_value_accesskit(1.5);
@@ -74,15 +78,7 @@ fn first_start_caution_is_shown_until_confirmed() {
     let dir = std::env::temp_dir().join(format!("leadline-caution-{}", std::process::id()));
     let _ = std::fs::create_dir_all(&dir);
     leadline::gui::state::set_config_dir_override(dir.clone());
-    let mut h = Harness::builder()
-        .with_size([1280.0, 800.0])
-        .build_ui_state(
-            |ui, app: &mut LeadlineApp| {
-                app.poll();
-                app.show(ui);
-            },
-            app,
-        );
+    let mut h = harness(app);
     h.run_steps(2);
     assert!(h.query_by_label_contains("not a medical device").is_some());
     h.get_by_role_and_label(Role::Button, "I understand")
@@ -102,15 +98,7 @@ fn first_start_caution_is_shown_until_confirmed() {
 
 #[test]
 fn space_freezes_and_the_freeze_button_resumes() {
-    let mut h = Harness::builder()
-        .with_size([1280.0, 800.0])
-        .build_ui_state(
-            |ui, app: &mut LeadlineApp| {
-                app.poll();
-                app.show(ui);
-            },
-            app(),
-        );
+    let mut h = harness(app());
     h.run_steps(2);
     assert!(!h.state().paused());
     h.key_press(eframe::egui::Key::Space);

@@ -111,30 +111,23 @@ fn replay_streams_a_file_at_real_time_pace_and_seeks_with_a_gap_mark() {
     let dir = std::env::temp_dir().join(format!("leadline-replay-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let path = dir.join("rec.csv");
-    let mut a = leadline::cli::SimulateArgs {
-        fs: 250.0,
-        seconds: Some(4.0),
-        channels: 2,
-        hr: 72.0,
-        hrv: 1.0,
-        seed: 3,
-        mains: 50.0,
-        mains_uv: 30.0,
-        wander_uv: 60.0,
-        drift_uv: 40.0,
-        noise_uv: 8.0,
-        offset_mv: 25.0,
-        r_mv: 1.2,
-        charger: false,
-        inverted: false,
-        lead_off: false,
-        format: leadline::cli::SimFormat::Csv,
-        units: leadline::cli::Units::Millivolts,
-        out: path.to_str().unwrap().into(),
-        pty: false,
-        baud: 921_600,
+    let cli = <leadline::cli::Cli as clap::Parser>::parse_from([
+        "leadline",
+        "simulate",
+        "--fs",
+        "250",
+        "--seconds",
+        "4",
+        "--channels",
+        "2",
+        "--seed",
+        "3",
+        "--out",
+        path.to_str().unwrap(),
+    ]);
+    let Some(leadline::cli::Command::Simulate(a)) = cli.command else {
+        unreachable!()
     };
-    a.out = path.to_str().unwrap().into();
     leadline::cli::simulate::run(&a).unwrap();
     let mut p = Pipeline::start(
         PipelineConfig {

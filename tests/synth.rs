@@ -2,7 +2,7 @@
 // Helpers outside #[test] functions unwrap too: a panic is the failure report.
 #![allow(clippy::unwrap_used)]
 
-use leadline::cli::{SimFormat, SimulateArgs, Units};
+use leadline::cli::{SimFormat, SimulateArgs};
 use leadline::source::{Synth, SynthSettings};
 
 fn clean(fs: f64, hr: f64) -> SynthSettings {
@@ -126,28 +126,23 @@ fn mains_component_is_within_2_percent_of_its_setting() {
 }
 
 fn sim_args(seed: u64) -> SimulateArgs {
-    SimulateArgs {
-        fs: 500.0,
-        seconds: Some(5.0),
-        channels: 3,
-        hr: 72.0,
-        hrv: 1.0,
-        seed,
-        mains: 50.0,
-        mains_uv: 30.0,
-        wander_uv: 60.0,
-        drift_uv: 40.0,
-        noise_uv: 8.0,
-        offset_mv: 25.0,
-        r_mv: 1.2,
-        charger: false,
-        inverted: false,
-        lead_off: false,
-        format: SimFormat::Csv,
-        units: Units::Millivolts,
-        out: "-".into(),
-        pty: false,
-        baud: 921_600,
+    // Through the real parser, so the tests use the command's own defaults.
+    let seed = seed.to_string();
+    let cli = <leadline::cli::Cli as clap::Parser>::parse_from([
+        "leadline",
+        "simulate",
+        "--fs",
+        "500",
+        "--seconds",
+        "5",
+        "--channels",
+        "3",
+        "--seed",
+        &seed,
+    ]);
+    match cli.command {
+        Some(leadline::cli::Command::Simulate(a)) => a,
+        _ => unreachable!("simulate parses to Simulate"),
     }
 }
 

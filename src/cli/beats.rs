@@ -8,7 +8,6 @@ use serde::Serialize;
 use super::{BadInput, BeatsArgs};
 use crate::analysis::beats::Detector;
 use crate::analysis::rate::{Hrv, RateMeter, hrv};
-use crate::store::ReadOptions;
 
 #[derive(Serialize)]
 struct Summary {
@@ -26,12 +25,8 @@ struct Summary {
 /// # Errors
 /// A bad or unreadable input, a rate outside 125–2000 Hz, an unwritable output.
 pub fn run(a: &BeatsArgs) -> Result<usize> {
-    let opts = ReadOptions {
-        fs_hz: a.fs,
-        unit: a.units.unit(),
-        channels: a.channels,
-    };
-    let (rec, ch) = super::load_channel(&a.input, &opts, a.channel)?;
+    let opts = a.src.read_options();
+    let (rec, ch) = super::load_channel(&a.src.input, &opts, a.channel)?;
     let x = &rec.channels[ch];
     let mut det = Detector::new(rec.fs_hz).map_err(|e| BadInput(e.to_string()))?;
     let mut beats = Vec::new();
@@ -59,7 +54,7 @@ pub fn run(a: &BeatsArgs) -> Result<usize> {
     if let Some(path) = &a.summary {
         let nn: Vec<f64> = meter.nn_intervals().collect();
         let doc = Summary {
-            input: a.input.display().to_string(),
+            input: a.src.input.display().to_string(),
             channel: a.channel,
             fs_hz: rec.fs_hz,
             duration_s: duration,

@@ -6,7 +6,7 @@ use anyhow::Result;
 
 use super::{BadInput, FilterArgs};
 use crate::dsp::chain;
-use crate::store::{self, ReadOptions, StoreError};
+use crate::store::{self, StoreError};
 
 fn bad(e: StoreError) -> anyhow::Error {
     match e {
@@ -20,22 +20,18 @@ fn bad(e: StoreError) -> anyhow::Error {
 /// # Errors
 /// An unreadable or malformed input (bad input), a chain that cannot be built, a failed write.
 pub fn run(a: &FilterArgs) -> Result<usize> {
-    let opts = ReadOptions {
-        fs_hz: a.fs,
-        unit: a.units.unit(),
-        channels: a.channels,
-    };
-    let mut rec = store::read(&a.input, &opts).map_err(bad)?;
+    let opts = a.src.read_options();
+    let mut rec = store::read(&a.src.input, &opts).map_err(bad)?;
     let sections = a.chain.design(rec.fs_hz)?;
     for ch in &mut rec.channels {
         if a.zero_phase {
             *ch = chain::zero_phase(&sections, ch)
-                .map_err(|e| BadInput(format!("{}: {e}", a.input.display())))?;
+                .map_err(|e| BadInput(format!("{}: {e}", a.src.input.display())))?;
         } else {
             chain::filter_settled(&sections, ch);
         }
     }
-    store::write(&a.out, &rec, a.units.unit()).map_err(|e| match e {
+    store::write(&a.out, &rec, a.src.units.unit()).map_err(|e| match e {
         StoreError::UnknownType { .. } => BadInput(e.to_string()).into(),
         other => anyhow::Error::new(other),
     })?;

@@ -118,12 +118,40 @@ pub struct RecordArgs {
     pub fs: Option<f64>,
 }
 
+/// The recording an offline command reads, and what the file may not say about itself.
+#[derive(Debug, Clone, Args)]
+pub struct InputArgs {
+    /// Recording: .csv/.txt (a time column, a `# fs=` line or --fs), .f32/.f64 raw little-endian
+    /// (--fs, --channels), or a WFDB record's .hea.
+    #[arg(long, value_name = "FILE")]
+    pub input: PathBuf,
+    /// Sample rate, Hz, for files that do not carry one.
+    #[arg(long, value_name = "HZ")]
+    pub fs: Option<f64>,
+    /// Channels per frame of a raw input.
+    #[arg(long, default_value_t = 1, value_name = "N")]
+    pub channels: usize,
+    /// Unit of the input values (and of a filtered output).
+    #[arg(long, value_enum, default_value_t = FileUnitArg::Millivolts)]
+    pub units: FileUnitArg,
+}
+
+impl InputArgs {
+    /// The reader's options.
+    pub fn read_options(&self) -> crate::store::ReadOptions {
+        crate::store::ReadOptions {
+            fs_hz: self.fs,
+            unit: self.units.unit(),
+            channels: self.channels,
+        }
+    }
+}
+
 /// Options of `leadline beats`.
 #[derive(Debug, Clone, Args)]
 pub struct BeatsArgs {
-    /// Recording: .csv/.txt, .f32/.f64 (with --fs) or a WFDB record's .hea.
-    #[arg(long, value_name = "FILE")]
-    pub input: PathBuf,
+    #[command(flatten)]
+    pub src: InputArgs,
     /// Channel to analyse (0-based).
     #[arg(long, default_value_t = 0, value_name = "K")]
     pub channel: usize,
@@ -133,23 +161,13 @@ pub struct BeatsArgs {
     /// Summary (JSON): beat count, mean heart rate, HRV (mean RR, SDNN, RMSSD, pNN50).
     #[arg(long, value_name = "FILE")]
     pub summary: Option<PathBuf>,
-    /// Sample rate, Hz, for files that do not carry one.
-    #[arg(long, value_name = "HZ")]
-    pub fs: Option<f64>,
-    /// Channels per frame of a raw input.
-    #[arg(long, default_value_t = 1, value_name = "N")]
-    pub channels: usize,
-    /// Unit of the input values.
-    #[arg(long, value_enum, default_value_t = FileUnitArg::Millivolts)]
-    pub units: FileUnitArg,
 }
 
 /// Options of `leadline spectrum`.
 #[derive(Debug, Clone, Args)]
 pub struct SpectrumArgs {
-    /// Recording to read (.csv/.txt with a time column or --fs; .f32/.f64 with --fs).
-    #[arg(long, value_name = "FILE")]
-    pub input: PathBuf,
+    #[command(flatten)]
+    pub src: InputArgs,
     /// Welch segment length (power of two, 256–16384); default about 4 s of signal.
     #[arg(long, value_name = "N")]
     pub segment: Option<usize>,
@@ -165,15 +183,6 @@ pub struct SpectrumArgs {
     /// Channel to analyse (0-based).
     #[arg(long, default_value_t = 0, value_name = "K")]
     pub channel: usize,
-    /// Sample rate, Hz, for files that do not carry one.
-    #[arg(long, value_name = "HZ")]
-    pub fs: Option<f64>,
-    /// Channels per frame of a raw input.
-    #[arg(long, default_value_t = 1, value_name = "N")]
-    pub channels: usize,
-    /// Unit of the input values.
-    #[arg(long, value_enum, default_value_t = FileUnitArg::Millivolts)]
-    pub units: FileUnitArg,
 }
 
 /// What `leadline bench` measures.
@@ -327,9 +336,8 @@ impl FileUnitArg {
 /// Options of `leadline filter`.
 #[derive(Debug, Clone, Args)]
 pub struct FilterArgs {
-    /// Recording to read: .csv/.txt (time column or --fs), .f32/.f64 raw little-endian (--fs).
-    #[arg(long, value_name = "FILE")]
-    pub input: PathBuf,
+    #[command(flatten)]
+    pub src: InputArgs,
     #[command(flatten)]
     pub chain: ChainArgs,
     /// Output file; its extension chooses the format (.csv, .f32, .f64).
@@ -338,15 +346,6 @@ pub struct FilterArgs {
     /// Filter forward and backward: no phase shift, |H|² magnitude (recorded data only).
     #[arg(long)]
     pub zero_phase: bool,
-    /// Sample rate, Hz, for files that do not carry one.
-    #[arg(long, value_name = "HZ")]
-    pub fs: Option<f64>,
-    /// Channels per frame of a raw input.
-    #[arg(long, default_value_t = 1, value_name = "N")]
-    pub channels: usize,
-    /// Unit of the input values (and of the output).
-    #[arg(long, value_enum, default_value_t = FileUnitArg::Millivolts)]
-    pub units: FileUnitArg,
 }
 
 /// Options of `leadline monitor`.

@@ -9,7 +9,6 @@ use super::{BadInput, SpectrumArgs};
 use crate::analysis::mains::{self, MainsReport};
 use crate::dsp::spectrum::{Welch, segment_for};
 use crate::export::plot_png;
-use crate::store::ReadOptions;
 
 #[derive(Serialize)]
 struct Report<'a> {
@@ -28,12 +27,8 @@ struct Report<'a> {
 /// # Errors
 /// A bad or unreadable input (exit 2 for bad input), or an output that cannot be written.
 pub fn run(a: &SpectrumArgs) -> Result<()> {
-    let opts = ReadOptions {
-        fs_hz: a.fs,
-        unit: a.units.unit(),
-        channels: a.channels,
-    };
-    let (rec, ch) = super::load_channel(&a.input, &opts, a.channel)?;
+    let opts = a.src.read_options();
+    let (rec, ch) = super::load_channel(&a.src.input, &opts, a.channel)?;
     let x = &rec.channels[ch];
     let segment = a.segment.unwrap_or_else(|| {
         segment_for(rec.fs_hz, 4.0)
@@ -43,7 +38,7 @@ pub fn run(a: &SpectrumArgs) -> Result<()> {
     let mut welch = Welch::new(segment).map_err(|e| BadInput(e.to_string()))?;
     let psd = welch
         .compute(x, rec.fs_hz)
-        .map_err(|e| BadInput(format!("{}: {e}", a.input.display())))?;
+        .map_err(|e| BadInput(format!("{}: {e}", a.src.input.display())))?;
 
     let mut csv = String::from("freq_hz,psd\n");
     for (f, d) in psd.freqs_hz.iter().zip(&psd.density) {
@@ -57,7 +52,7 @@ pub fn run(a: &SpectrumArgs) -> Result<()> {
             .as_ref()
             .map_err(|e| BadInput(format!("no mains report: {e}")))?;
         let doc = Report {
-            input: a.input.display().to_string(),
+            input: a.src.input.display().to_string(),
             channel: a.channel,
             fs_hz: rec.fs_hz,
             segment,
@@ -71,7 +66,7 @@ pub fn run(a: &SpectrumArgs) -> Result<()> {
     if let Some(path) = &a.png {
         let title = format!(
             "{} · channel {} · Welch, {} samples per segment",
-            a.input.display(),
+            a.src.input.display(),
             a.channel + 1,
             segment
         );
