@@ -14,6 +14,7 @@
 //! ```
 //! - [`pipeline`] is the only place that creates channels and starts (named) threads.
 //! - [`source`]: where samples come from ([`source::synth`] is the default).
+//! - [`recorder`]: every processed sample to EDF+/BDF+/CSV/raw files, on its own thread.
 //! - [`process`]: the DSP thread body. [`dsp`]: filter designs and the runtime chain.
 //! - [`scale`]: counts → volts at the ADC → µV at the electrodes.
 //! - [`wire`]: byte formats to and from a microcontroller. [`gui`], [`cli`]: the two front doors.
@@ -37,6 +38,7 @@ pub mod gui;
 pub mod msg;
 pub mod pipeline;
 pub mod process;
+pub mod recorder;
 pub mod rng;
 pub mod scale;
 pub mod source;

@@ -65,6 +65,8 @@ pub struct RecordBlock {
     pub received: Vec<f64>,
     /// The stream has a gap (device lost and found again) just before this block.
     pub gap_before: bool,
+    /// Input-referred µV of the converter's bottom and top counts, when the source sends counts.
+    pub range_uv: Option<(f64, f64)>,
 }
 
 /// A min/max-per-column reduction of one trace over the display window.

@@ -17,7 +17,9 @@ use crossbeam_channel::{Receiver, Sender, bounded, unbounded};
 use crate::dsp::chain::ChainSettings;
 use crate::msg::{Control, RecordBlock, Snapshot};
 use crate::process::{self, DspConfig, DspPorts, Notify};
+use crate::recorder::RecorderCommand;
 use crate::source::{Pacing, SourceSpec, Synth, SynthError, SynthSettings, run_synth};
+use std::time::Duration;
 
 /// Blocks of 10 ms: 64 of them let the DSP thread fall 0.64 s behind before the source waits.
 const RAW_DEPTH: usize = 64;
@@ -54,6 +56,9 @@ pub struct PipelineConfig {
     pub limit_s: Option<f64>,
     /// Deliver every processed sample on [`Pipeline::take_records`].
     pub record: bool,
+    /// Run the recorder thread on every processed sample ([`Pipeline::recorder`]); wins over
+    /// `record`.
+    pub recorder: bool,
 }
 
 impl Default for PipelineConfig {
@@ -66,6 +71,7 @@ impl Default for PipelineConfig {
             pacing: Pacing::RealTime,
             limit_s: None,
             record: false,
+            recorder: false,
         }
     }
 }
@@ -82,6 +88,8 @@ pub struct Pipeline {
     serial_status: Option<crate::source::serial::StatusHandle>,
     replay_tx: Option<Sender<crate::source::replay::ReplayCommand>>,
     replay_status: Option<crate::source::replay::ReplayHandle>,
+    recorder_tx: Option<Sender<RecorderCommand>>,
+    recorder_status: Option<crate::recorder::StatusHandle>,
 }
 
 impl Pipeline {
@@ -96,7 +104,7 @@ impl Pipeline {
         // Control messages are a few per second at most: unbounded cannot grow in practice.
         let (control_tx, control_rx) = unbounded();
         let (synth_tx, synth_rx) = unbounded();
-        let (record_tx, record_rx) = if cfg.record {
+        let (record_tx, mut record_rx) = if cfg.record || cfg.recorder {
             let (t, r) = bounded(RECORD_DEPTH);
             (Some(t), Some(r))
         } else {
@@ -105,6 +113,23 @@ impl Pipeline {
         let label = cfg.source.label();
 
         let mut threads = Vec::new();
+        let (mut recorder_tx, mut recorder_status) = (None, None);
+        if cfg.recorder
+            && let Some(blocks) = record_rx.take()
+        {
+            let status: crate::recorder::StatusHandle = Default::default();
+            recorder_status = Some(Arc::clone(&status));
+            // Start, stop and marker commands come from a person: a few per second at most.
+            let (tx, rx) = unbounded();
+            recorder_tx = Some(tx);
+            let stop = Arc::clone(&stop);
+            threads.push(
+                std::thread::Builder::new()
+                    .name("leadline-recorder".into())
+                    .spawn(move || crate::recorder::run(blocks, rx, &stop, status))
+                    .map_err(|e| PipelineError::Spawn("recorder", e))?,
+            );
+        }
         let mut serial_status = None;
         let (mut replay_tx, mut replay_status) = (None, None);
         match cfg.source {
@@ -185,6 +210,8 @@ impl Pipeline {
             serial_status,
             replay_tx,
             replay_status,
+            recorder_tx,
+            recorder_status,
         })
     }
 
@@ -214,6 +241,34 @@ impl Pipeline {
     /// The recorder path (only when started with `record: true`; once).
     pub fn take_records(&mut self) -> Option<Receiver<RecordBlock>> {
         self.records.take()
+    }
+
+    /// Sends a command to the recorder (ignored when it was not started).
+    pub fn recorder(&self, c: RecorderCommand) {
+        if let Some(tx) = &self.recorder_tx {
+            let _ = tx.send(c);
+        }
+    }
+
+    /// What the recorder is doing (None when it was not started).
+    pub fn recorder_status(&self) -> Option<crate::recorder::RecorderStatus> {
+        self.recorder_status
+            .as_ref()
+            .and_then(|s| s.lock().ok().map(|g| g.clone()))
+    }
+
+    /// Stops a running recording and waits (up to `timeout`) until its file is closed.
+    /// Returns the final status.
+    pub fn finish_recording(&self, timeout: Duration) -> Option<crate::recorder::RecorderStatus> {
+        self.recorder(RecorderCommand::Stop);
+        let deadline = std::time::Instant::now() + timeout;
+        loop {
+            let s = self.recorder_status()?;
+            if s.active.is_none() || std::time::Instant::now() >= deadline {
+                return Some(s);
+            }
+            std::thread::sleep(Duration::from_millis(10));
+        }
     }
 
     /// What the serial thread is doing (None for other sources).

@@ -554,6 +554,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     filtered_uv: filt,
                     received: block.data,
                     gap_before: block.gap_before,
+                    range_uv: scale.map(|s| (s.counts_to_uv(0.0), s.counts_to_uv(s.max_count()))),
                 };
                 if !send_blocking(tx, rec, stop) {
                     return;

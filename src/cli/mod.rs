@@ -107,12 +107,22 @@ pub struct RecordArgs {
     /// How long to record, s (the command exits after this even if nothing arrived).
     #[arg(long, value_name = "S")]
     pub seconds: f64,
-    /// Output file (.csv).
+    /// Output file; its extension chooses the format: .edf (EDF+, 16-bit), .bdf (BDF+, 24-bit),
+    /// .csv, or raw little-endian .f32/.f64.
     #[arg(long, value_name = "FILE")]
     pub out: PathBuf,
-    /// Units of the values: counts writes them exactly as received.
+    /// Units of CSV and raw values: counts writes them exactly as received (EDF/BDF: always µV).
     #[arg(long, value_enum, default_value_t = Units::Millivolts)]
     pub units: Units,
+    /// Record the output of the chain given by the filter flags instead of the raw input.
+    #[arg(long)]
+    pub filtered: bool,
+    /// Place an event marker with this text at the start (repeatable; markers at later times
+    /// come from the monitor).
+    #[arg(long, value_name = "TEXT")]
+    pub marker: Vec<String>,
+    #[command(flatten)]
+    pub chain: ChainArgs,
     /// Sample rate, Hz, when the source does not say (else estimated from arrival).
     #[arg(long, value_name = "HZ")]
     pub fs: Option<f64>,
@@ -121,8 +131,8 @@ pub struct RecordArgs {
 /// The recording an offline command reads, and what the file may not say about itself.
 #[derive(Debug, Clone, Args)]
 pub struct InputArgs {
-    /// Recording: .csv/.txt (a time column, a `# fs=` line or --fs), .f32/.f64 raw little-endian
-    /// (--fs, --channels), or a WFDB record's .hea.
+    /// Recording: .csv/.txt (a time column, a `# fs=` line or --fs), .edf/.bdf (EDF, EDF+, BDF),
+    /// .f32/.f64 raw little-endian (--fs, --channels), or a WFDB record's .hea.
     #[arg(long, value_name = "FILE")]
     pub input: PathBuf,
     /// Sample rate, Hz, for files that do not carry one.
@@ -340,7 +350,8 @@ pub struct FilterArgs {
     pub src: InputArgs,
     #[command(flatten)]
     pub chain: ChainArgs,
-    /// Output file; its extension chooses the format (.csv, .f32, .f64).
+    /// Output file; its extension chooses the format (.csv, .edf, .bdf, .f32, .f64). With no
+    /// filter flags the data pass unchanged, so this converts between formats.
     #[arg(long, value_name = "FILE")]
     pub out: PathBuf,
     /// Filter forward and backward: no phase shift, |H|² magnitude (recorded data only).

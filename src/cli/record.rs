@@ -1,17 +1,16 @@
-//! `leadline record`: a source, headless, to a file for a fixed time; and `leadline ports`.
+//! `leadline record`: a source, headless, through the recorder thread to a file for a fixed time
+//! (format by extension); and `leadline ports`.
 
-use std::fmt::Write as _;
-use std::io::Write as _;
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 
-use anyhow::{Context, Result};
+use anyhow::{Result, bail};
 
 use super::{BadInput, RecordArgs, Units};
 use crate::pipeline::{Pipeline, PipelineConfig};
+use crate::recorder::{RecordFormat, RecordRequest, RecordValues, RecorderCommand};
 use crate::scale::InputScale;
 use crate::source::{Pacing, SourceSpec};
-use crate::store::csv::time_text;
 
 /// Lists serial ports.
 ///
@@ -31,7 +30,8 @@ pub fn ports() -> Result<()> {
 /// Runs the command.
 ///
 /// # Errors
-/// A bad source text or time, an unwritable output file (the message names it).
+/// A bad source text, time or file type (bad input); a file that cannot be written, or a write
+/// that failed part-way (what was written before stays readable).
 pub fn run(a: &RecordArgs) -> Result<()> {
     if !(a.seconds.is_finite() && a.seconds > 0.0) {
         return Err(BadInput(format!(
@@ -40,80 +40,66 @@ pub fn run(a: &RecordArgs) -> Result<()> {
         ))
         .into());
     }
+    let format = RecordFormat::from_path(&a.out).map_err(BadInput)?;
+    if a.units == Units::Counts && matches!(format, RecordFormat::Edf | RecordFormat::Bdf) {
+        return Err(BadInput(
+            "--units counts: EDF/BDF store input-referred µV; write counts to .csv, .f32 or .f64"
+                .into(),
+        )
+        .into());
+    }
     let spec = SourceSpec::parse(&a.source, a.fs, InputScale::default())
         .map_err(|e| BadInput(e.to_string()))?;
-    let mut pipeline = Pipeline::start(
+    let chain = a.chain.settings();
+    let pipeline = Pipeline::start(
         PipelineConfig {
             source: spec,
+            chain,
             pacing: Pacing::RealTime,
-            record: true,
+            recorder: true,
             display_hz: 2.0,
             ..PipelineConfig::default()
         },
         Arc::new(|| {}),
     )?;
-    let rx = pipeline
-        .take_records()
-        .context("the recorder path was not started")?;
-    let file = std::fs::File::create(&a.out)
-        .with_context(|| format!("cannot create {}", a.out.display()))?;
-    let mut w = std::io::BufWriter::new(file);
+    let mut req = RecordRequest::new(&a.out);
+    req.values = match (a.units, a.filtered) {
+        (Units::Counts, _) => RecordValues::Received,
+        (_, true) => RecordValues::Filtered,
+        (_, false) => RecordValues::Raw,
+    };
+    req.csv_uv_per_unit = match a.units {
+        Units::Volts => 1e6,
+        Units::Millivolts | Units::Counts => 1e3,
+        Units::Microvolts => 1.0,
+    };
+    if a.filtered {
+        req.prefilter = chain.describe();
+    }
+    pipeline.recorder(RecorderCommand::Start(req));
+    for m in &a.marker {
+        pipeline.recorder(RecorderCommand::Marker(m.clone()));
+    }
     let deadline = Instant::now() + Duration::from_secs_f64(a.seconds);
-    let mut header_done = false;
-    let mut frames = 0u64;
-    let mut last_flush = Instant::now();
-    let mut text = String::new();
-    while let Some(left) = deadline.checked_duration_since(Instant::now()) {
-        let Ok(block) = rx.recv_timeout(left.min(Duration::from_millis(200))) else {
-            continue;
-        };
-        text.clear();
-        if !header_done {
-            text.push_str("time_s");
-            for k in 1..=block.channels {
-                let _ = write!(text, ",ch{k}");
-            }
-            text.push('\n');
-            header_done = true;
-        }
-        if block.gap_before {
-            text.push_str("# gap: the device was lost and found again here\n");
-        }
-        let n = block.channels.max(1);
-        let values: &[f64] = if a.units == Units::Counts {
-            &block.received
-        } else {
-            &block.raw_uv
-        };
-        let factor = match a.units {
-            Units::Counts => 1.0,
-            Units::Volts => 1e-6,
-            Units::Millivolts => 1e-3,
-            Units::Microvolts => 1.0,
-        };
-        for (i, frame) in values.chunks_exact(n).enumerate() {
-            text.push_str(&time_text(block.first_sample + i as u64, block.fs_hz));
-            for v in frame {
-                let _ = write!(text, ",{}", v * factor);
-            }
-            text.push('\n');
-        }
-        frames += (values.len() / n) as u64;
-        w.write_all(text.as_bytes())
-            .with_context(|| format!("writing {}", a.out.display()))?;
-        // Data reach the disk at least once a second.
-        if last_flush.elapsed() >= Duration::from_secs(1) {
-            w.flush()
-                .with_context(|| format!("writing {}", a.out.display()))?;
-            last_flush = Instant::now();
+    let mut failed = None;
+    while Instant::now() < deadline {
+        std::thread::sleep(Duration::from_millis(50));
+        if let Some(s) = pipeline.recorder_status()
+            && s.failed
+        {
+            failed = Some(s.message);
+            break;
         }
     }
-    w.flush()
-        .with_context(|| format!("writing {}", a.out.display()))?;
-    let status = pipeline.serial_status();
-    pipeline.shutdown();
-    if frames == 0 {
-        let why = status.map(|s| s.message).unwrap_or_default();
+    let status = pipeline.finish_recording(Duration::from_secs(10));
+    let serial = pipeline.serial_status();
+    drop(pipeline);
+    let status = status.unwrap_or_default();
+    if let Some(m) = failed.or(status.failed.then(|| status.message.clone())) {
+        bail!("{m}");
+    }
+    if status.frames == 0 {
+        let why = serial.map(|s| s.message).unwrap_or_default();
         eprintln!(
             "no samples arrived from {} in {} s{}",
             a.source,
@@ -125,7 +111,7 @@ pub fn run(a: &RecordArgs) -> Result<()> {
             }
         );
     } else {
-        eprintln!("recorded {frames} frames to {}", a.out.display());
+        eprintln!("recorded {} frames: {}", status.frames, status.message);
     }
     Ok(())
 }

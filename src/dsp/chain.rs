@@ -103,6 +103,44 @@ impl Default for ChainSettings {
 }
 
 impl ChainSettings {
+    /// The chain in the EDF prefiltering style ("HP:0.5Hz LP:40Hz N:50Hz"), with orders and Q;
+    /// "none" when every stage is bypassed.
+    pub fn describe(&self) -> String {
+        let mut parts = Vec::new();
+        if self.highpass.enabled {
+            parts.push(format!(
+                "HP:{}Hz(o{})",
+                self.highpass.corner_hz, self.highpass.order
+            ));
+        }
+        if self.lowpass.enabled {
+            parts.push(format!(
+                "LP:{}Hz(o{})",
+                self.lowpass.corner_hz, self.lowpass.order
+            ));
+        }
+        if self.notch.enabled {
+            parts.push(format!(
+                "N:{}Hz(Q{}{})",
+                self.notch.mains_hz,
+                self.notch.q,
+                if self.notch.harmonics > 0 {
+                    format!("+{}h", self.notch.harmonics)
+                } else {
+                    String::new()
+                }
+            ));
+        }
+        if self.gain != 1.0 {
+            parts.push(format!("G:{}", self.gain));
+        }
+        if parts.is_empty() {
+            "none".into()
+        } else {
+            parts.join(" ")
+        }
+    }
+
     /// The sections of the chain at `fs`, in processing order.
     ///
     /// # Errors

@@ -80,6 +80,7 @@ fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, Pipel
             pacing: Pacing::RealTime,
             limit_s: None,
             record: false,
+            recorder: true,
         },
         notify,
     )

@@ -12,7 +12,7 @@ use std::fmt::Write as _;
 use std::io::Write as _;
 use std::path::Path;
 
-use super::{FileUnit, ReadOptions, Recording, StoreError};
+use super::{Event, FileUnit, ReadOptions, Recording, StoreError};
 
 fn split(line: &str) -> Vec<&str> {
     let fields: Vec<&str> = if line.contains(',') {
@@ -128,6 +128,7 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
         .collect();
 
     let mut meta_fs = None;
+    let mut events = Vec::new();
     let mut interval = None;
     let mut start = None;
     let content: Vec<(usize, &str)> = lines
@@ -136,6 +137,9 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
         .filter(|(_, l)| {
             if l.starts_with('#') {
                 meta_fs = meta_fs.or(metadata_fs(l));
+                if let Some(e) = parse_event(l) {
+                    events.push(e);
+                }
                 false
             } else {
                 true
@@ -248,6 +252,27 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
         names,
         time_s,
         channels: cols,
+        events,
+    })
+}
+
+/// The comment line that carries an event: `# event 12.5 s: text`.
+pub fn event_line(e: &Event) -> String {
+    format!(
+        "# event {} s: {}\n",
+        e.onset_s,
+        super::edf::clean_text(&e.text)
+    )
+}
+
+/// Reads an `# event T s: text` comment line.
+fn parse_event(l: &str) -> Option<Event> {
+    let rest = l.strip_prefix('#')?.trim_start().strip_prefix("event ")?;
+    let (t, text) = rest.split_once(" s:")?;
+    Some(Event {
+        onset_s: t.trim().parse().ok()?,
+        duration_s: None,
+        text: text.trim().to_string(),
     })
 }
 
@@ -274,6 +299,9 @@ pub fn write(path: &Path, rec: &Recording, unit: FileUnit) -> Result<(), StoreEr
         line.push_str(n);
     }
     line.push('\n');
+    for e in &rec.events {
+        line.push_str(&event_line(e));
+    }
     let scale = 1.0 / unit.to_uv();
     for i in 0..rec.len() {
         match &rec.time_s {

@@ -2,11 +2,13 @@
 //!
 //! - [`csv`]: our CSV (`time_s`, one column per channel) and generic oscilloscope-style CSVs.
 //! - [`raw`]: headerless little-endian f32/f64, frame-major.
+//! - [`edf`]: EDF+ (16-bit) and BDF+ (24-bit), with annotations.
 //! - [`wfdb`]: PhysioNet WFDB records (`.hea` + `.dat`, formats 212 and 16).
 //!
 //! A [`Recording`] holds input-referred µV per channel, whatever the file's unit.
 
 pub mod csv;
+pub mod edf;
 pub mod raw;
 pub mod wfdb;
 
@@ -57,7 +59,9 @@ pub enum StoreError {
     #[error("{path}: no sample rate: the file has no time column or fs= line; give --fs HZ")]
     NoRate { path: String },
     /// The extension names no format we read or write.
-    #[error("{path}: unknown file type (expected .csv, .txt, .f32, .f64 or a WFDB .hea)")]
+    #[error(
+        "{path}: unknown file type (expected .csv, .txt, .edf, .bdf, .f32, .f64 or a WFDB .hea)"
+    )]
     UnknownType { path: String },
 }
 
@@ -88,6 +92,19 @@ pub struct Recording {
     pub time_s: Option<Vec<f64>>,
     /// One vector per channel, µV.
     pub channels: Vec<Vec<f64>>,
+    /// Markers and notes with their times (EDF+ annotations, CSV `# event` lines).
+    pub events: Vec<Event>,
+}
+
+/// A marker or note at a time in a recording.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Event {
+    /// Seconds from the recording's start.
+    pub onset_s: f64,
+    /// How long it lasts, s, if it is not an instant.
+    pub duration_s: Option<f64>,
+    /// What it says.
+    pub text: String,
 }
 
 impl Recording {
@@ -148,13 +165,15 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
         "f32" => raw::read(path, raw::Sample::F32, opts),
         "f64" => raw::read(path, raw::Sample::F64, opts),
         "hea" => wfdb::read(path),
+        "edf" | "bdf" => edf::read(path),
         _ => Err(StoreError::UnknownType {
             path: path.display().to_string(),
         }),
     }
 }
 
-/// Writes a recording, choosing the format by extension.
+/// Writes a recording, choosing the format by extension (`unit` applies to CSV and raw files;
+/// EDF/BDF always store µV with a range fitted to the data).
 ///
 /// # Errors
 /// [`StoreError`] when the file cannot be written.
@@ -163,6 +182,8 @@ pub fn write(path: &Path, rec: &Recording, unit: FileUnit) -> Result<(), StoreEr
         "csv" | "txt" => csv::write(path, rec, unit),
         "f32" => raw::write(path, rec, raw::Sample::F32, unit),
         "f64" => raw::write(path, rec, raw::Sample::F64, unit),
+        "edf" => edf::write(path, rec, edf::EdfKind::Edf).map(|_| ()),
+        "bdf" => edf::write(path, rec, edf::EdfKind::Bdf).map(|_| ()),
         _ => Err(StoreError::UnknownType {
             path: path.display().to_string(),
         }),

@@ -66,6 +66,7 @@ pub fn read(path: &Path, kind: Sample, opts: &ReadOptions) -> Result<Recording, 
         names: (1..=n_ch).map(|k| format!("ch{k}")).collect(),
         time_s: None,
         channels,
+        events: Vec::new(),
     })
 }
 

@@ -164,5 +164,6 @@ pub fn read(path: &Path) -> Result<Recording, StoreError> {
         names: specs.iter().map(|s| s.name.clone()).collect(),
         time_s: None,
         channels,
+        events: Vec::new(),
     })
 }

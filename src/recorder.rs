@@ -1,0 +1,554 @@
+//! The recorder: takes every processed block from the DSP thread (never dropping one) and, while a
+//! recording runs, writes it to an EDF+, BDF+, CSV or raw file chosen by the file's extension.
+//!
+//! It runs on its own thread (started by [`crate::pipeline`]) so a slow disk never holds up the
+//! display. A write that fails (disk full, drive removed) stops the recording with a message in
+//! [`RecorderStatus`]; blocks keep being taken, so the monitor runs on.
+
+use std::fmt::Write as _;
+use std::fs::File;
+use std::io::{BufWriter, Write as _};
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::{Arc, Mutex};
+use std::time::{Duration, Instant};
+
+use crossbeam_channel::{Receiver, select};
+
+use crate::msg::RecordBlock;
+use crate::store::csv::{event_line, time_text};
+use crate::store::edf::{EdfKind, EdfSpec, EdfWriter, GAP};
+use crate::store::{Event, StoreError};
+
+/// File formats the recorder writes, named by extension.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum RecordFormat {
+    Edf,
+    Bdf,
+    Csv,
+    F32,
+    F64,
+}
+
+impl RecordFormat {
+    /// The format an output path's extension names.
+    ///
+    /// # Errors
+    /// A message listing the extensions when it names none.
+    pub fn from_path(path: &Path) -> Result<Self, String> {
+        let ext = path
+            .extension()
+            .and_then(|e| e.to_str())
+            .unwrap_or("")
+            .to_ascii_lowercase();
+        Ok(match ext.as_str() {
+            "edf" => Self::Edf,
+            "bdf" => Self::Bdf,
+            "csv" | "txt" => Self::Csv,
+            "f32" => Self::F32,
+            "f64" => Self::F64,
+            _ => {
+                return Err(format!(
+                    "{}: unknown recording type (expected .edf, .bdf, .csv, .f32 or .f64)",
+                    path.display()
+                ));
+            }
+        })
+    }
+}
+
+/// Which values go to the file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum RecordValues {
+    /// Input-referred µV before the digital chain (what the board delivered).
+    #[default]
+    Raw,
+    /// Input-referred µV after the digital chain.
+    Filtered,
+    /// The source's numbers as received (ADC counts); CSV and raw files only.
+    Received,
+}
+
+/// A request to start recording.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RecordRequest {
+    pub path: PathBuf,
+    pub values: RecordValues,
+    /// µV per CSV/raw unit (1000 = mV); ignored for EDF/BDF (always µV) and received values.
+    pub csv_uv_per_unit: f64,
+    /// Prefiltering text for the EDF header (e.g. the chain when recording filtered values).
+    pub prefilter: String,
+}
+
+impl RecordRequest {
+    /// Raw µV to `path`, CSV in mV.
+    pub fn new(path: impl Into<PathBuf>) -> Self {
+        Self {
+            path: path.into(),
+            values: RecordValues::Raw,
+            csv_uv_per_unit: 1e3,
+            prefilter: String::new(),
+        }
+    }
+}
+
+/// What the recorder is told.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RecorderCommand {
+    Start(RecordRequest),
+    Stop,
+    /// An event marker at the latest sample, with a short text.
+    Marker(String),
+}
+
+/// What the recorder is doing, for the status bar and the record command.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct RecorderStatus {
+    /// The file being written, while recording.
+    pub active: Option<PathBuf>,
+    /// Seconds of data in the current (or last) file.
+    pub elapsed_s: f64,
+    /// Bytes in the current (or last) file.
+    pub bytes: u64,
+    /// Frames in the current (or last) file.
+    pub frames: u64,
+    /// Markers placed in the current (or last) file.
+    pub markers: u64,
+    /// Samples held at the file's range ends (EDF/BDF).
+    pub clipped: u64,
+    /// The last thing worth telling (finished, or why it stopped).
+    pub message: String,
+    /// True when the last recording stopped because of an error.
+    pub failed: bool,
+    /// Frames the recorder has seen since the pipeline started (recording or not).
+    pub seen_frames: u64,
+}
+
+/// Shared status.
+pub type StatusHandle = Arc<Mutex<RecorderStatus>>;
+
+enum Sink {
+    Edf(EdfWriter),
+    Text {
+        w: BufWriter<File>,
+        bytes: u64,
+        line: String,
+        last_flush: Instant,
+    },
+    Raw {
+        w: BufWriter<File>,
+        f32: bool,
+        bytes: u64,
+        last_flush: Instant,
+    },
+}
+
+struct Active {
+    req: RecordRequest,
+    format: RecordFormat,
+    sink: Option<Sink>,
+    /// Frames written.
+    frames: u64,
+    fs_hz: f64,
+    channels: usize,
+    markers: u64,
+    /// Markers that arrived before the first block.
+    early: Vec<String>,
+}
+
+fn io(path: &Path) -> impl Fn(std::io::Error) -> StoreError + '_ {
+    move |e| StoreError::io(path, e)
+}
+
+impl Active {
+    fn open(&mut self, b: &RecordBlock) -> Result<(), StoreError> {
+        let path = self.req.path.clone();
+        self.fs_hz = b.fs_hz;
+        self.channels = b.channels;
+        let labels: Vec<String> = (1..=b.channels).map(|k| format!("ch{k}")).collect();
+        let sink = match self.format {
+            RecordFormat::Edf | RecordFormat::Bdf => {
+                let kind = if self.format == RecordFormat::Edf {
+                    EdfKind::Edf
+                } else {
+                    EdfKind::Bdf
+                };
+                // The converter's whole span when it is known (so nothing the board can send
+                // clips), else ±10 mV; filtered values get twice the span for overshoot.
+                let (lo, hi) = b.range_uv.unwrap_or((-10_000.0, 10_000.0));
+                let half = lo.abs().max(hi.abs())
+                    * if self.req.values == RecordValues::Filtered {
+                        2.0
+                    } else {
+                        1.0
+                    };
+                let mut spec = EdfSpec::new(kind, b.fs_hz, labels, (-half, half));
+                spec.prefilter = self.req.prefilter.clone();
+                spec.durable = true;
+                Sink::Edf(EdfWriter::create(&path, &spec)?)
+            }
+            RecordFormat::Csv => {
+                let f = File::create(&path).map_err(io(&path))?;
+                let mut line = String::from("# leadline recording; values in ");
+                line.push_str(match self.req.values {
+                    RecordValues::Received => "the source's own units (counts)",
+                    _ if self.req.csv_uv_per_unit == 1.0 => "uV (input-referred)",
+                    _ if self.req.csv_uv_per_unit == 1e6 => "V (input-referred)",
+                    _ => "mV (input-referred)",
+                });
+                line.push_str("\ntime_s");
+                for k in 1..=b.channels {
+                    let _ = write!(line, ",ch{k}");
+                }
+                line.push('\n');
+                Sink::Text {
+                    w: BufWriter::new(f),
+                    bytes: 0,
+                    line,
+                    last_flush: Instant::now(),
+                }
+            }
+            RecordFormat::F32 | RecordFormat::F64 => {
+                let f = File::create(&path).map_err(io(&path))?;
+                Sink::Raw {
+                    w: BufWriter::new(f),
+                    f32: self.format == RecordFormat::F32,
+                    bytes: 0,
+                    last_flush: Instant::now(),
+                }
+            }
+        };
+        self.sink = Some(sink);
+        for text in std::mem::take(&mut self.early) {
+            self.marker(&text);
+        }
+        Ok(())
+    }
+
+    fn now_s(&self) -> f64 {
+        if self.fs_hz > 0.0 {
+            self.frames as f64 / self.fs_hz
+        } else {
+            0.0
+        }
+    }
+
+    fn marker(&mut self, text: &str) {
+        let Some(sink) = self.sink.as_mut() else {
+            self.early.push(text.to_string());
+            return;
+        };
+        let t = self.frames as f64 / self.fs_hz;
+        self.markers += 1;
+        match sink {
+            Sink::Edf(w) => w.annotate(t, None, text),
+            Sink::Text { line, .. } => line.push_str(&event_line(&Event {
+                onset_s: t,
+                duration_s: None,
+                text: text.to_string(),
+            })),
+            // Raw files have nowhere to put text.
+            Sink::Raw { .. } => {}
+        }
+    }
+
+    fn write(&mut self, b: &RecordBlock) -> Result<(), StoreError> {
+        if self.sink.is_none() {
+            self.open(b)?;
+        }
+        if b.channels != self.channels || (b.fs_hz - self.fs_hz).abs() > 1e-9 * self.fs_hz {
+            return Err(StoreError::malformed(
+                &self.req.path,
+                format!(
+                    "the stream changed from {} channel(s) at {} Hz to {} at {} Hz; recording stopped (start a new file)",
+                    self.channels, self.fs_hz, b.channels, b.fs_hz
+                ),
+            ));
+        }
+        let now = self.now_s();
+        let path = self.req.path.clone();
+        let values: &[f64] = match self.req.values {
+            RecordValues::Raw => &b.raw_uv,
+            RecordValues::Filtered => &b.filtered_uv,
+            RecordValues::Received => &b.received,
+        };
+        let frames = (values.len() / b.channels.max(1)) as u64;
+        let Some(sink) = self.sink.as_mut() else {
+            return Ok(());
+        };
+        match sink {
+            Sink::Edf(w) => {
+                if b.gap_before {
+                    w.annotate(now, None, GAP);
+                }
+                if self.req.values == RecordValues::Received {
+                    return Err(StoreError::malformed(
+                        &path,
+                        "EDF/BDF store input-referred µV; counts go to .csv, .f32 or .f64",
+                    ));
+                }
+                w.push(values)?;
+            }
+            Sink::Text {
+                w,
+                bytes,
+                line,
+                last_flush,
+            } => {
+                if b.gap_before {
+                    line.push_str(&event_line(&Event {
+                        onset_s: now,
+                        duration_s: None,
+                        text: GAP.into(),
+                    }));
+                }
+                let k = if self.req.values == RecordValues::Received {
+                    1.0
+                } else {
+                    1.0 / self.req.csv_uv_per_unit
+                };
+                for (i, frame) in values.chunks_exact(b.channels.max(1)).enumerate() {
+                    line.push_str(&time_text(self.frames + i as u64, b.fs_hz));
+                    for v in frame {
+                        let _ = write!(line, ",{}", v * k);
+                    }
+                    line.push('\n');
+                }
+                w.write_all(line.as_bytes()).map_err(io(&path))?;
+                *bytes += line.len() as u64;
+                line.clear();
+                // Data reach the OS at least once a second.
+                if last_flush.elapsed() >= Duration::from_millis(500) {
+                    w.flush().map_err(io(&path))?;
+                    *last_flush = Instant::now();
+                }
+            }
+            Sink::Raw {
+                w,
+                f32,
+                bytes,
+                last_flush,
+            } => {
+                let k = if self.req.values == RecordValues::Received {
+                    1.0
+                } else {
+                    1.0 / self.req.csv_uv_per_unit
+                };
+                let mut buf = Vec::with_capacity(values.len() * 8);
+                for v in values {
+                    if *f32 {
+                        buf.extend_from_slice(&((v * k) as f32).to_le_bytes());
+                    } else {
+                        buf.extend_from_slice(&(v * k).to_le_bytes());
+                    }
+                }
+                w.write_all(&buf).map_err(io(&path))?;
+                *bytes += buf.len() as u64;
+                if last_flush.elapsed() >= Duration::from_millis(500) {
+                    w.flush().map_err(io(&path))?;
+                    *last_flush = Instant::now();
+                }
+            }
+        }
+        self.frames += frames;
+        Ok(())
+    }
+
+    fn bytes(&self) -> u64 {
+        match &self.sink {
+            Some(Sink::Edf(w)) => w.bytes(),
+            Some(Sink::Text { bytes, .. } | Sink::Raw { bytes, .. }) => *bytes,
+            None => 0,
+        }
+    }
+
+    fn clipped(&self) -> u64 {
+        match &self.sink {
+            Some(Sink::Edf(w)) => w.clipped(),
+            _ => 0,
+        }
+    }
+
+    fn finish(self) -> Result<u64, StoreError> {
+        let path = self.req.path.clone();
+        match self.sink {
+            Some(Sink::Edf(w)) => w.finish().map(|s| s.bytes),
+            Some(Sink::Text {
+                mut w, bytes, line, ..
+            }) => {
+                w.write_all(line.as_bytes()).map_err(io(&path))?;
+                w.flush().map_err(io(&path))?;
+                w.get_ref().sync_all().map_err(io(&path))?;
+                Ok(bytes + line.len() as u64)
+            }
+            Some(Sink::Raw { mut w, bytes, .. }) => {
+                w.flush().map_err(io(&path))?;
+                w.get_ref().sync_all().map_err(io(&path))?;
+                Ok(bytes)
+            }
+            None => Ok(0),
+        }
+    }
+}
+
+fn human_bytes(b: u64) -> String {
+    if b >= 10 << 20 {
+        format!("{:.0} MB", b as f64 / 1048576.0)
+    } else if b >= 1 << 20 {
+        format!("{:.1} MB", b as f64 / 1048576.0)
+    } else {
+        format!("{:.0} kB", b as f64 / 1024.0)
+    }
+}
+
+/// The recorder's loop: runs until `stop` is set or the DSP thread hangs up. A recording still
+/// running then is finished properly.
+pub fn run(
+    blocks: Receiver<RecordBlock>,
+    commands: Receiver<RecorderCommand>,
+    stop: &AtomicBool,
+    status: StatusHandle,
+) {
+    let mut active: Option<Active> = None;
+    let set = |f: &dyn Fn(&mut RecorderStatus)| {
+        if let Ok(mut s) = status.lock() {
+            f(&mut s);
+        }
+    };
+    let end = |a: Active, why: Option<String>| {
+        let path = a.req.path.clone();
+        let (frames, markers, elapsed) = (a.frames, a.markers, a.now_s());
+        let clipped = a.clipped();
+        let result = a.finish();
+        set(&|s| {
+            s.active = None;
+            s.frames = frames;
+            s.markers = markers;
+            s.elapsed_s = elapsed;
+            s.clipped = clipped;
+            match (&result, &why) {
+                (Ok(bytes), None) => {
+                    s.bytes = *bytes;
+                    s.failed = false;
+                    s.message = format!(
+                        "saved {} ({elapsed:.1} s, {}){}",
+                        path.display(),
+                        human_bytes(*bytes),
+                        if clipped > 0 {
+                            format!(
+                                "; {clipped} samples were outside the file's range and held at its ends"
+                            )
+                        } else {
+                            String::new()
+                        }
+                    );
+                }
+                (_, Some(w)) => {
+                    s.failed = true;
+                    s.message = format!("recording stopped: {w}; what was written before is kept");
+                }
+                (Err(e), None) => {
+                    s.failed = true;
+                    s.message = format!("recording stopped: {e}; what was written before is kept");
+                }
+            }
+        });
+    };
+    loop {
+        if stop.load(Ordering::Relaxed) {
+            break;
+        }
+        select! {
+            recv(blocks) -> b => {
+                let Ok(b) = b else { break };
+                let frames = b.frames_count();
+                if let Some(a) = active.as_mut() {
+                    match a.write(&b) {
+                        Ok(()) => {
+                            let (el, by, fr, mk, cl) = (a.now_s(), a.bytes(), a.frames, a.markers, a.clipped());
+                            set(&|s| {
+                                s.elapsed_s = el;
+                                s.bytes = by;
+                                s.frames = fr;
+                                s.markers = mk;
+                                s.clipped = cl;
+                            });
+                        }
+                        Err(e) => {
+                            if let Some(a) = active.take() {
+                                end(a, Some(e.to_string()));
+                            }
+                        }
+                    }
+                }
+                set(&|s| s.seen_frames += frames);
+            }
+            recv(commands) -> c => {
+                let Ok(c) = c else { continue };
+                match c {
+                    RecorderCommand::Start(req) => {
+                        if let Some(a) = active.take() {
+                            end(a, None);
+                        }
+                        match RecordFormat::from_path(&req.path) {
+                            Ok(format) => {
+                                let path = req.path.clone();
+                                active = Some(Active {
+                                    req,
+                                    format,
+                                    sink: None,
+                                    frames: 0,
+                                    fs_hz: 0.0,
+                                    channels: 0,
+                                    markers: 0,
+                                    early: Vec::new(),
+                                });
+                                set(&|s| {
+                                    *s = RecorderStatus {
+                                        active: Some(path.clone()),
+                                        seen_frames: s.seen_frames,
+                                        message: format!("recording to {}", path.display()),
+                                        ..RecorderStatus::default()
+                                    };
+                                });
+                            }
+                            Err(m) => set(&|s| {
+                                s.failed = true;
+                                s.message = m.clone();
+                            }),
+                        }
+                    }
+                    RecorderCommand::Stop => {
+                        if let Some(a) = active.take() {
+                            end(a, None);
+                        }
+                    }
+                    RecorderCommand::Marker(text) => {
+                        if let Some(a) = active.as_mut() {
+                            a.marker(&text);
+                            let mk = a.markers;
+                            set(&|s| s.markers = mk);
+                        }
+                    }
+                }
+            }
+            default(Duration::from_millis(100)) => {}
+        }
+    }
+    // Whatever is queued belongs in the file too.
+    if let Some(mut a) = active.take() {
+        while let Ok(b) = blocks.try_recv() {
+            if a.write(&b).is_err() {
+                break;
+            }
+        }
+        end(a, None);
+    }
+}
+
+impl RecordBlock {
+    /// Frames in the block.
+    pub fn frames_count(&self) -> u64 {
+        (self.raw_uv.len() / self.channels.max(1)) as u64
+    }
+}
