@@ -27,6 +27,7 @@ fn main() -> ExitCode {
         Some(Command::Ports) => leadline::cli::record::ports(),
         Some(Command::Record(a)) => leadline::cli::record::run(&a),
         Some(Command::Bench(a)) => leadline::cli::bench::run(&a),
+        Some(Command::ExportC(a)) => leadline::cli::export_c::run(&a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
