@@ -41,6 +41,7 @@ pub mod process;
 pub mod recorder;
 pub mod rng;
 pub mod scale;
+pub mod setup;
 pub mod source;
 pub mod store;
 pub mod wire;

@@ -11,9 +11,7 @@ fn main() -> ExitCode {
     let cli = Cli::parse();
     let result = match cli.command {
         None => leadline::gui::run(&MonitorArgs {
-            source: "synth".into(),
             size: "1280x800".into(),
-            view: leadline::cli::StartView::Spectrum,
             ..MonitorArgs::default()
         }),
         Some(Command::Monitor(a)) => leadline::gui::run(&a),

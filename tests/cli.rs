@@ -360,3 +360,24 @@ fn parts_json_follows_the_contract() {
     ]);
     assert_eq!(o.status.code(), Some(2));
 }
+
+#[test]
+fn monitor_refuses_a_bad_setup_file_naming_the_line_and_key() {
+    let p = tmp("bad-setup.toml");
+    std::fs::write(
+        &p,
+        "[chain.lowpass]\nenabled = true\ncorner_hz = \"forty\"\n",
+    )
+    .unwrap();
+    // The setup is read before any window opens, so this needs no display.
+    let o = leadline(&["monitor", "--config", p.to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    let e = String::from_utf8_lossy(&o.stderr);
+    assert!(
+        e.contains("bad-setup.toml") && e.contains("line 3") && e.contains("corner_hz"),
+        "{e}"
+    );
+    let o = leadline(&["monitor", "--config", tmp("missing.toml").to_str().unwrap()]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&o.stderr).contains("missing.toml"));
+}

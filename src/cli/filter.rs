@@ -23,6 +23,7 @@ pub fn run(a: &FilterArgs) -> Result<usize> {
     let opts = a.src.read_options();
     let mut rec = store::read(&a.src.input, &opts).map_err(bad)?;
     let sections = a.chain.design(rec.fs_hz)?;
+    let before = a.png.as_ref().and_then(|_| rec.channels.first().cloned());
     for ch in &mut rec.channels {
         if a.zero_phase {
             *ch = chain::zero_phase(&sections, ch)
@@ -35,6 +36,44 @@ pub fn run(a: &FilterArgs) -> Result<usize> {
         StoreError::UnknownType { .. } => BadInput(e.to_string()).into(),
         other => anyhow::Error::new(other),
     })?;
+    if let (Some(png), Some(raw)) = (&a.png, before) {
+        use crate::export::plot_png::{TraceLine, columns_of, trace_png};
+        let n = 1400;
+        let (c_raw, c_out) = (
+            columns_of(&raw, rec.fs_hz, n),
+            columns_of(&rec.channels[0], rec.fs_hz, n),
+        );
+        let markers: Vec<(f64, String)> = rec
+            .events
+            .iter()
+            .map(|e| (e.onset_s, e.text.clone()))
+            .collect();
+        let title = format!(
+            "{}: {} — chain {}",
+            a.src.input.display(),
+            rec.names.first().map_or("ch1", String::as_str),
+            a.chain.settings().describe()
+        );
+        trace_png(
+            png,
+            &[
+                TraceLine {
+                    label: "before the chain",
+                    rgb: (150, 150, 150),
+                    columns: &c_raw,
+                },
+                TraceLine {
+                    label: "after the chain",
+                    rgb: (0, 110, 160),
+                    columns: &c_out,
+                },
+            ],
+            ("mV", 1e3),
+            &markers,
+            &title,
+        )?;
+        eprintln!("plot saved to {}", png.display());
+    }
     eprintln!(
         "filtered {} frames × {} channels at {:.6} Hz into {}",
         rec.len(),

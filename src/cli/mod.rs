@@ -400,14 +400,24 @@ pub struct FilterArgs {
     /// Filter forward and backward: no phase shift, |H|² magnitude (recorded data only).
     #[arg(long)]
     pub zero_phase: bool,
+    /// Also plot the first channel before and after the chain to this PNG.
+    #[arg(long, value_name = "PNG")]
+    pub png: Option<PathBuf>,
 }
 
 /// Options of `leadline monitor`.
 #[derive(Debug, Clone, Args, Default)]
 pub struct MonitorArgs {
     /// Signal source: synth (the built-in simulator), serial:PATH[@BAUD][:ascii|:binary], or file:PATH (replay).
-    #[arg(long, default_value = "synth", value_name = "SPEC")]
-    pub source: String,
+    /// Default: the setup's source (see --config), else the simulator.
+    #[arg(long, value_name = "SPEC")]
+    pub source: Option<String>,
+    /// Start from this setup (TOML) instead of the one remembered from the last run.
+    #[arg(long, value_name = "FILE")]
+    pub config: Option<PathBuf>,
+    /// Start from the defaults: ignore (and do not overwrite) the remembered setup.
+    #[arg(long, conflicts_with = "config")]
+    pub fresh: bool,
     /// Simulator sample rate, Hz (125–4000).
     #[arg(long, value_name = "HZ")]
     pub fs: Option<f64>,
@@ -421,8 +431,8 @@ pub struct MonitorArgs {
     #[arg(long, value_name = "PNG", requires = "exit_after")]
     pub screenshot: Option<PathBuf>,
     /// What the strip under the traces shows at start.
-    #[arg(long, value_enum, default_value_t = StartView::Spectrum)]
-    pub view: StartView,
+    #[arg(long, value_enum)]
+    pub view: Option<StartView>,
     /// Window size in logical pixels, WIDTHxHEIGHT.
     #[arg(long, value_name = "WxH", default_value = "1280x800")]
     pub size: String,

@@ -8,6 +8,7 @@ use plotters::prelude::*;
 
 use crate::analysis::mains::MainsReport;
 use crate::dsp::spectrum::Psd;
+use crate::msg::Columns;
 
 /// Why a plot was not written.
 #[derive(Debug, thiserror::Error)]
@@ -143,4 +144,142 @@ pub fn psd_png(
         root.present().map_err(draw_err)?;
     }
     write_rgb_png(path, &buf, w, h)
+}
+
+/// One line of a trace plot: min/max per column (a single value per column draws a plain line).
+#[derive(Debug, Clone)]
+pub struct TraceLine<'a> {
+    pub label: &'a str,
+    pub rgb: (u8, u8, u8),
+    pub columns: &'a Columns,
+}
+
+/// Traces against time (s) in `unit` (values are µV, divided by `uv_per_unit`), with markers as
+/// vertical lines and their text.
+///
+/// # Errors
+/// [`PlotError`] if drawing or writing fails, or there is nothing to draw.
+pub fn trace_png(
+    path: &Path,
+    lines: &[TraceLine<'_>],
+    (unit, uv_per_unit): (&str, f64),
+    markers: &[(f64, String)],
+    title: &str,
+) -> Result<(), PlotError> {
+    register_font();
+    let (w, h) = (1400u32, 600u32);
+    let cols: Vec<&Columns> = lines
+        .iter()
+        .map(|l| l.columns)
+        .filter(|c| !c.min.is_empty())
+        .collect();
+    let Some(first) = cols.first() else {
+        return Err(PlotError::Draw("no samples to plot yet".into()));
+    };
+    let t_lo = first.t0_s;
+    let t_hi = cols
+        .iter()
+        .map(|c| c.t0_s + c.dt_s * c.min.len() as f64)
+        .fold(t_lo + 1e-3, f64::max);
+    let k = 1.0 / uv_per_unit;
+    let (mut v_lo, mut v_hi) = (f64::MAX, f64::MIN);
+    for c in &cols {
+        for (&a, &b) in c.min.iter().zip(&c.max) {
+            if a.is_finite() && b.is_finite() {
+                v_lo = v_lo.min(f64::from(a) * k);
+                v_hi = v_hi.max(f64::from(b) * k);
+            }
+        }
+    }
+    if v_lo >= v_hi {
+        (v_lo, v_hi) = (v_lo - 1.0, v_lo + 1.0);
+    }
+    let pad = 0.06 * (v_hi - v_lo);
+    let (v_lo, v_hi) = (v_lo - pad, v_hi + pad);
+    let mut buf = vec![0u8; (w * h * 3) as usize];
+    {
+        let root = BitMapBackend::with_buffer(&mut buf, (w, h)).into_drawing_area();
+        root.fill(&WHITE).map_err(draw_err)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, (FONT, 24))
+            .margin(16)
+            .x_label_area_size(50)
+            .y_label_area_size(80)
+            .build_cartesian_2d(t_lo..t_hi, v_lo..v_hi)
+            .map_err(draw_err)?;
+        chart
+            .configure_mesh()
+            .x_desc("time (s)")
+            .y_desc(format!("{unit} at the electrodes"))
+            .label_style((FONT, 16))
+            .axis_desc_style((FONT, 18))
+            .draw()
+            .map_err(draw_err)?;
+        for l in lines {
+            let c = l.columns;
+            let colour = RGBColor(l.rgb.0, l.rgb.1, l.rgb.2);
+            // Down to the column's low, up to its high: the band the samples in it span.
+            let pts = c
+                .min
+                .iter()
+                .zip(&c.max)
+                .enumerate()
+                .flat_map(|(i, (&a, &b))| {
+                    let t = c.t0_s + (i as f64 + 0.5) * c.dt_s;
+                    [(t, f64::from(a) * k), (t, f64::from(b) * k)]
+                });
+            chart
+                .draw_series(LineSeries::new(pts, &colour))
+                .map_err(draw_err)?
+                .label(l.label)
+                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], colour));
+        }
+        for (t, text) in markers {
+            if *t < t_lo || *t > t_hi {
+                continue;
+            }
+            let c = RGBColor(170, 60, 160);
+            chart
+                .draw_series(std::iter::once(PathElement::new(
+                    vec![(*t, v_lo), (*t, v_hi)],
+                    c,
+                )))
+                .map_err(draw_err)?;
+            chart
+                .draw_series(std::iter::once(plotters::element::Text::new(
+                    text.clone(),
+                    (*t, v_hi - pad * 0.5),
+                    (FONT, 15).into_font().color(&c),
+                )))
+                .map_err(draw_err)?;
+        }
+        chart
+            .configure_series_labels()
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .label_font((FONT, 16))
+            .draw()
+            .map_err(draw_err)?;
+        root.present().map_err(draw_err)?;
+    }
+    write_rgb_png(path, &buf, w, h)
+}
+
+/// Min/max columns of `x` (µV) at `fs`: about `n` columns, for plotting long signals.
+pub fn columns_of(x: &[f64], fs: f64, n: usize) -> Columns {
+    let per = x.len().div_ceil(n.max(1)).max(1);
+    let mut c = Columns {
+        t0_s: 0.0,
+        dt_s: per as f64 / fs,
+        min: Vec::new(),
+        max: Vec::new(),
+    };
+    for chunk in x.chunks(per) {
+        let (a, b) = chunk
+            .iter()
+            .fold((f64::MAX, f64::MIN), |(a, b), &v| (a.min(v), b.max(v)));
+        c.min.push(a as f32);
+        c.max.push(b as f32);
+    }
+    c
 }

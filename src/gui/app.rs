@@ -23,8 +23,8 @@ pub struct AppOptions {
     pub screenshot: Option<PathBuf>,
     /// Show the first-start caution.
     pub show_caution: bool,
-    /// The lower strip at start.
-    pub view: crate::cli::StartView,
+    /// Keep the setup in the configuration folder as it changes (restored at the next start).
+    pub remember_setup: bool,
 }
 
 type Shot = Arc<Mutex<Option<Arc<egui::ColorImage>>>>;
@@ -48,23 +48,16 @@ pub struct LeadlineApp {
     picker: panels::source::SourcePicker,
     file_path: String,
     parts: panels::parts::PartsView,
-    lower: LowerView,
+    record: panels::record::RecordPanel,
+    files: panels::files::FilesPanel,
+    /// Markers placed, at stream time (s), for drawing on the trace.
+    markers: Vec<(f64, String)>,
+    /// The setup as last written to the configuration folder, and when.
+    remembered: Option<(crate::setup::Setup, Instant)>,
+    theme_applied: Option<crate::setup::Theme>,
 }
 
-/// What the strip under the traces shows.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum LowerView {
-    /// The averaged beat and the RR tachogram.
-    Beats,
-    /// The running spectrum with the mains measurement.
-    Spectrum,
-    /// The chain's magnitude, phase and group delay.
-    Response,
-    /// The chain realised with standard parts.
-    Parts,
-    /// Nothing: the traces take the whole height.
-    Hidden,
-}
+pub use super::state::LowerView;
 
 fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, PipelineError> {
     Pipeline::start(
@@ -105,7 +98,6 @@ impl LeadlineApp {
         outcome: Arc<Mutex<Result<()>>>,
     ) -> Result<Self, PipelineError> {
         let pipeline = start_pipeline(&settings, Arc::clone(&notify))?;
-        let start_view = opts.view;
         let file_path = settings_file_path(&settings);
         Ok(Self {
             settings,
@@ -125,13 +117,11 @@ impl LeadlineApp {
             picker: Default::default(),
             file_path,
             parts: Default::default(),
-            lower: match start_view {
-                crate::cli::StartView::Beats => LowerView::Beats,
-                crate::cli::StartView::Spectrum => LowerView::Spectrum,
-                crate::cli::StartView::Response => LowerView::Response,
-                crate::cli::StartView::Parts => LowerView::Parts,
-                crate::cli::StartView::Traces => LowerView::Hidden,
-            },
+            record: Default::default(),
+            files: Default::default(),
+            markers: Vec::new(),
+            remembered: None,
+            theme_applied: None,
         })
     }
 
@@ -163,8 +153,11 @@ impl LeadlineApp {
     fn restart_source(&mut self) {
         match start_pipeline(&self.settings, Arc::clone(&self.notify)) {
             Ok(p) => {
+                // A recording in progress is closed properly before its stream goes.
+                let _ = self.pipeline.finish_recording(Duration::from_secs(3));
                 self.pipeline = p;
                 self.view = View::default();
+                self.markers.clear();
             }
             Err(e) => {
                 // Keep the old stream; the settings panel shows the refused values until changed.
@@ -229,6 +222,24 @@ impl LeadlineApp {
             self.paused = !self.paused;
             self.pending.push(Control::DisplayPaused(self.paused));
         }
+        if pressed(egui::Key::R) {
+            let recording = self
+                .pipeline
+                .recorder_status()
+                .is_some_and(|s| s.active.is_some());
+            let a = if recording {
+                panels::record::RecordAction::Stop
+            } else {
+                panels::record::RecordAction::Start(
+                    self.record.request(&self.settings.chain.describe()),
+                )
+            };
+            self.record_action(a);
+        }
+        if pressed(egui::Key::M) {
+            let text = self.record.next_marker();
+            self.record_action(panels::record::RecordAction::Marker(text));
+        }
         if pressed(egui::Key::H) {
             self.spectrum.before = self.view.snapshot.as_ref().and_then(|s| s.spectrum.clone());
         }
@@ -240,8 +251,219 @@ impl LeadlineApp {
             (egui::Key::Num5, LowerView::Hidden),
         ] {
             if pressed(k) {
-                self.lower = v;
+                self.settings.lower = v;
             }
+        }
+    }
+
+    /// Carries out a recording request.
+    pub fn record_action(&mut self, a: panels::record::RecordAction) {
+        use crate::recorder::RecorderCommand;
+        match a {
+            panels::record::RecordAction::Start(req) => {
+                self.pipeline.recorder(RecorderCommand::Start(req));
+            }
+            panels::record::RecordAction::Stop => {
+                self.pipeline.recorder(RecorderCommand::Stop);
+            }
+            panels::record::RecordAction::Marker(text) => {
+                let t = self.view.snapshot.as_ref().map_or(0.0, |s| s.t_end_s);
+                self.markers.push((t, text.clone()));
+                self.pipeline.recorder(RecorderCommand::Marker(text));
+            }
+        }
+    }
+
+    /// The recording panel's fields (tests set the file name).
+    pub fn record_panel_mut(&mut self) -> &mut panels::record::RecordPanel {
+        &mut self.record
+    }
+
+    /// The files panel's fields (tests set the file names).
+    pub fn files_panel_mut(&mut self) -> &mut panels::files::FilesPanel {
+        &mut self.files
+    }
+
+    /// Settings, to change them as a panel would (tests).
+    pub fn settings_mut(&mut self) -> &mut Settings {
+        &mut self.settings
+    }
+
+    /// Markers placed, at stream time (tests read them).
+    pub fn markers(&self) -> &[(f64, String)] {
+        &self.markers
+    }
+
+    /// What the recorder is doing (tests read it).
+    pub fn recorder_status(&self) -> Option<crate::recorder::RecorderStatus> {
+        self.pipeline.recorder_status()
+    }
+
+    /// Replaces the settings with a setup's and restarts the source.
+    ///
+    /// # Errors
+    /// A message when the setup's source cannot be used.
+    pub fn apply_setup(&mut self, setup: &crate::setup::Setup) -> Result<(), String> {
+        let s = Settings::from_setup(setup)?;
+        self.settings = s;
+        self.file_path = settings_file_path(&self.settings);
+        self.restart_source();
+        Ok(())
+    }
+
+    fn files_action(&mut self, a: panels::files::FilesAction, fs: f64) {
+        use panels::files::FilesAction;
+        let result: Result<String, String> = match a {
+            FilesAction::OpenSetup(p) => match crate::setup::Setup::load(&p) {
+                Ok(l) => self.apply_setup(&l.setup).map(|()| {
+                    if l.warnings.is_empty() {
+                        format!("loaded {}", p.display())
+                    } else {
+                        format!("loaded {}; {}", p.display(), l.warnings.join("; "))
+                    }
+                }),
+                Err(e) => Err(e.to_string()),
+            },
+            FilesAction::SaveSetup(p) => self
+                .settings
+                .to_setup()
+                .save(&p)
+                .map(|()| format!("saved {}", p.display()))
+                .map_err(|e| e.to_string()),
+            FilesAction::ExportC {
+                path,
+                format,
+                prefix,
+            } => {
+                let info = crate::export::c_header::HeaderInfo {
+                    fs_hz: fs,
+                    chain: self.settings.chain.describe(),
+                    prefix,
+                    format,
+                };
+                self.settings
+                    .chain
+                    .design(fs)
+                    .map_err(|e| e.to_string())
+                    .and_then(|sections| {
+                        crate::export::c_header::header(&sections, &info).map_err(|e| e.to_string())
+                    })
+                    .and_then(|text| {
+                        std::fs::write(&path, text).map_err(|e| format!("{}: {e}", path.display()))
+                    })
+                    .map(|()| format!("wrote {} ({} at {fs} Hz)", path.display(), format.name()))
+            }
+            FilesAction::TracePng(p) => self.trace_png(&p),
+            FilesAction::SpectrumPng(p) => self.spectrum_png(&p),
+        };
+        match result {
+            Ok(m) => {
+                self.files.message = m;
+                self.files.failed = false;
+            }
+            Err(m) => {
+                self.files.message = m;
+                self.files.failed = true;
+            }
+        }
+    }
+
+    /// Writes the traces now in the window as a PNG.
+    ///
+    /// # Errors
+    /// A message when there is nothing yet or the file cannot be written.
+    pub fn trace_png(&self, path: &std::path::Path) -> Result<String, String> {
+        use crate::export::plot_png::{TraceLine, trace_png};
+        let snap = self.view.snapshot.as_ref().ok_or("no samples yet")?;
+        let ch = self
+            .settings
+            .channel
+            .min(snap.traces.len().saturating_sub(1));
+        let t = snap.traces.get(ch).ok_or("no samples yet")?;
+        let (k, unit) = match self.settings.unit {
+            TraceUnit::Microvolts => (1.0, "µV"),
+            TraceUnit::Millivolts => (1e3, "mV"),
+        };
+        let title = format!(
+            "ch{} at {} Hz — chain {}",
+            ch + 1,
+            snap.fs_hz,
+            self.settings.chain.describe()
+        );
+        let raw = panels::trace::RAW_COLOUR;
+        let filt = panels::trace::FILTERED_COLOUR;
+        trace_png(
+            path,
+            &[
+                TraceLine {
+                    label: "before the chain",
+                    rgb: (raw.r(), raw.g(), raw.b()),
+                    columns: &t.raw,
+                },
+                TraceLine {
+                    label: "after the chain",
+                    // The screen colour, darkened for a white page.
+                    rgb: (filt.r() / 2, filt.g() * 3 / 4, filt.b() * 3 / 4),
+                    columns: &t.filtered,
+                },
+            ],
+            (unit, k),
+            &self.markers,
+            &title,
+        )
+        .map(|()| format!("saved {}", path.display()))
+        .map_err(|e| e.to_string())
+    }
+
+    /// Writes the latest spectrum (after the chain) as a PNG.
+    ///
+    /// # Errors
+    /// A message when there is no spectrum yet or the file cannot be written.
+    pub fn spectrum_png(&self, path: &std::path::Path) -> Result<String, String> {
+        let f = self
+            .view
+            .snapshot
+            .as_ref()
+            .and_then(|s| s.spectrum.as_ref())
+            .ok_or("no spectrum yet (it needs a few seconds of signal)")?;
+        let title = format!(
+            "ch{} after the chain {}, Welch over {:.0} s at {} Hz",
+            f.channel + 1,
+            self.settings.chain.describe(),
+            f.seconds,
+            f.fs_hz
+        );
+        crate::export::plot_png::psd_png(path, &f.filtered, f.mains_filtered.as_ref(), &title)
+            .map(|()| format!("saved {}", path.display()))
+            .map_err(|e| e.to_string())
+    }
+
+    /// Writes the setup to the configuration folder when it changed (at most every 2 s).
+    fn remember(&mut self, force: bool) {
+        if !self.opts.remember_setup {
+            return;
+        }
+        let now = self.settings.to_setup();
+        let due = match &self.remembered {
+            None => true,
+            Some((old, at)) => *old != now && (force || at.elapsed() >= Duration::from_secs(2)),
+        };
+        if due {
+            if let Some(p) = crate::setup::last_setup_path() {
+                // Not being able to remember only means defaults at the next start.
+                let _ = now.save(&p);
+            }
+            self.remembered = Some((now, Instant::now()));
+        }
+    }
+
+    fn apply_theme(&mut self, ctx: &egui::Context) {
+        if self.theme_applied != Some(self.settings.theme) {
+            ctx.set_visuals(match self.settings.theme {
+                crate::setup::Theme::Dark => egui::Visuals::dark(),
+                crate::setup::Theme::Light => egui::Visuals::light(),
+            });
+            self.theme_applied = Some(self.settings.theme);
         }
     }
 
@@ -269,9 +491,26 @@ impl LeadlineApp {
                     self.paused = !self.paused;
                     self.pending.push(Control::DisplayPaused(self.paused));
                 }
+                let rec_status = self.pipeline.recorder_status();
+                let chain_text = self.settings.chain.describe();
+                if let Some(a) = panels::record::top_bar(ui, &mut self.record, rec_status.as_ref(), &chain_text) {
+                    self.record_action(a);
+                }
                 ui.label("Keys").on_hover_text(
-                    "Keys: Space freeze/resume · H hold the spectrum as 'before' · 1 beats · 2 spectrum · 3 chain response · 4 parts · 5 traces only",
+                    "Keys: Space freeze/resume · R record/stop · M marker · H hold the spectrum as 'before' · 1 beats · 2 spectrum · 3 chain response · 4 parts · 5 traces only",
                 );
+                let dark = self.settings.theme == crate::setup::Theme::Dark;
+                if ui
+                    .button(if dark { "Light" } else { "Dark" })
+                    .on_hover_text("Switch between dark and light colours (light is easier to read on a bright bench or a projector).")
+                    .clicked()
+                {
+                    self.settings.theme = if dark {
+                        crate::setup::Theme::Light
+                    } else {
+                        crate::setup::Theme::Dark
+                    };
+                }
                 ui.separator();
                 let w = ui
                     .add(
@@ -395,6 +634,20 @@ impl LeadlineApp {
                             self.pipeline.replay(c);
                         }
                     }
+                    ui.add_space(10.0);
+                    egui::CollapsingHeader::new(egui::RichText::new("Recording").heading())
+                        .default_open(true)
+                        .show(ui, |ui| {
+                            let st = self.pipeline.recorder_status();
+                            panels::record::settings(ui, &mut self.record, st.as_ref());
+                        });
+                    egui::CollapsingHeader::new(egui::RichText::new("Files").heading())
+                        .default_open(false)
+                        .show(ui, |ui| {
+                            if let Some(a) = panels::files::show(ui, &mut self.files) {
+                                self.files_action(a, fs);
+                            }
+                        });
                     if self.settings.serial.is_none() && self.settings.file.is_none() {
                         ui.add_space(10.0);
                         ui.heading("Simulated bench");
@@ -414,29 +667,29 @@ impl LeadlineApp {
         self.response.update(&self.settings.chain, fs);
         egui::CentralPanel::default_margins().show(ui, |ui| {
             let total = ui.available_height();
-            let lower_h = if self.lower == LowerView::Hidden {
+            let lower_h = if self.settings.lower == LowerView::Hidden {
                 0.0
             } else {
                 (0.42 * total).clamp(150.0, 360.0)
             };
             let trace_h = total - lower_h - 30.0;
             ui.allocate_ui(egui::vec2(ui.available_width(), trace_h), |ui| {
-                panels::trace::show(ui, &self.view, &self.settings);
+                panels::trace::show(ui, &self.view, &self.settings, &self.markers);
             });
             ui.horizontal(|ui| {
-                ui.selectable_value(&mut self.lower, LowerView::Beats, "Beats")
+                ui.selectable_value(&mut self.settings.lower, LowerView::Beats, "Beats")
                     .on_hover_text("The averaged beat before and after the chain, HRV and the RR tachogram.");
-                ui.selectable_value(&mut self.lower, LowerView::Spectrum, "Spectrum")
+                ui.selectable_value(&mut self.settings.lower, LowerView::Spectrum, "Spectrum")
                     .on_hover_text("Running Welch PSD before and after the chain, with the mains lines measured.");
-                ui.selectable_value(&mut self.lower, LowerView::Response, "Chain response")
+                ui.selectable_value(&mut self.settings.lower, LowerView::Response, "Chain response")
                     .on_hover_text(
                         "Magnitude, phase and group delay of the digital chain as set now.",
                     );
-                ui.selectable_value(&mut self.lower, LowerView::Parts, "Parts")
+                ui.selectable_value(&mut self.settings.lower, LowerView::Parts, "Parts")
                     .on_hover_text("The chain built from standard parts: resistors from an E series, your capacitors, the tolerance spread.");
-                ui.selectable_value(&mut self.lower, LowerView::Hidden, "Traces only");
+                ui.selectable_value(&mut self.settings.lower, LowerView::Hidden, "Traces only");
             });
-            match self.lower {
+            match self.settings.lower {
                 LowerView::Response => {
                     self.parts.update(&self.settings.chain, fs);
                     panels::response::show(ui, &self.response, &self.settings.chain, panels::trace::FILTERED_COLOUR, self.parts.stages());
@@ -472,7 +725,15 @@ impl LeadlineApp {
 impl eframe::App for LeadlineApp {
     fn logic(&mut self, ctx: &egui::Context, _frame: &mut eframe::Frame) {
         self.poll();
+        self.apply_theme(ctx);
+        self.remember(false);
         self.exit_logic(ctx);
+    }
+
+    fn on_exit(&mut self, _gl: Option<&eframe::glow::Context>) {
+        // A recording still running is closed properly; the setup is kept for the next start.
+        let _ = self.pipeline.finish_recording(Duration::from_secs(5));
+        self.remember(true);
     }
 
     fn ui(&mut self, ui: &mut egui::Ui, _frame: &mut eframe::Frame) {

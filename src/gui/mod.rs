@@ -32,17 +32,68 @@ fn parse_size(s: &str) -> Result<[f32; 2]> {
     Ok([w, h])
 }
 
+/// The settings to start with: `--config`, else the remembered setup (unless `--fresh`), else
+/// the defaults; then the command line's own options on top.
+///
+/// # Errors
+/// A `--config` file that cannot be read or used (bad input), a bad `--source` or simulator value.
+pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
+    let mut settings = state::Settings::default();
+    if let Some(path) = &args.config {
+        let loaded = crate::setup::Setup::load(path).map_err(|e| BadInput(e.to_string()))?;
+        for w in &loaded.warnings {
+            eprintln!("leadline: {}: {w}", path.display());
+        }
+        settings = state::Settings::from_setup(&loaded.setup)
+            .map_err(|e| BadInput(format!("{}: {e}", path.display())))?;
+    } else if !args.fresh
+        && let Some(path) = crate::setup::last_setup_path().filter(|p| p.exists())
+    {
+        match crate::setup::Setup::load(&path)
+            .map_err(|e| e.to_string())
+            .and_then(|l| state::Settings::from_setup(&l.setup))
+        {
+            Ok(s) => settings = s,
+            Err(e) => eprintln!(
+                "leadline: the remembered setup was not used ({e}); starting from the defaults"
+            ),
+        }
+    }
+    if let Some(src) = &args.source {
+        let spec = crate::source::SourceSpec::parse(src, args.fs, settings.scale)
+            .map_err(|e| BadInput(e.to_string()))?;
+        settings.serial = None;
+        settings.file = None;
+        match spec {
+            crate::source::SourceSpec::Serial(s) => settings.serial = Some(s),
+            crate::source::SourceSpec::File(f) => settings.file = Some(f),
+            crate::source::SourceSpec::Synth(_) => {}
+        }
+    }
+    if let Some(fs) = args.fs {
+        settings.synth.fs_hz = fs;
+    }
+    if let Some(n) = args.channels {
+        settings.synth.channels = n;
+    }
+    settings.synth.validate()?;
+    if let Some(v) = args.view {
+        settings.lower = match v {
+            crate::cli::StartView::Beats => state::LowerView::Beats,
+            crate::cli::StartView::Spectrum => state::LowerView::Spectrum,
+            crate::cli::StartView::Response => state::LowerView::Response,
+            crate::cli::StartView::Parts => state::LowerView::Parts,
+            crate::cli::StartView::Traces => state::LowerView::Hidden,
+        };
+    }
+    Ok(settings)
+}
+
 /// Opens the monitor window and returns when it closes.
 ///
 /// # Errors
 /// A bad option, no display, or a screenshot that could not be written.
 pub fn run(args: &MonitorArgs) -> Result<()> {
-    let spec = crate::source::SourceSpec::parse(
-        &args.source,
-        args.fs,
-        crate::scale::InputScale::default(),
-    )
-    .map_err(|e| BadInput(e.to_string()))?;
     if let Some(s) = args.exit_after
         && !(s.is_finite() && s > 0.0)
     {
@@ -52,24 +103,12 @@ pub fn run(args: &MonitorArgs) -> Result<()> {
         .into());
     }
     let size = parse_size(&args.size)?;
-    let mut settings = state::Settings::default();
-    if let Some(fs) = args.fs {
-        settings.synth.fs_hz = fs;
-    }
-    if let Some(n) = args.channels {
-        settings.synth.channels = n;
-    }
-    settings.synth.validate()?;
-    match spec {
-        crate::source::SourceSpec::Serial(s) => settings.serial = Some(s),
-        crate::source::SourceSpec::File(f) => settings.file = Some(f),
-        crate::source::SourceSpec::Synth(_) => {}
-    }
+    let settings = start_settings(args)?;
     let opts = AppOptions {
         exit_after_s: args.exit_after,
         screenshot: args.screenshot.clone(),
         show_caution: !state::caution_acknowledged(),
-        view: args.view,
+        remember_setup: !args.fresh,
     };
     let outcome = Arc::new(std::sync::Mutex::new(Ok(())));
     let outcome_app = Arc::clone(&outcome);

@@ -4,7 +4,49 @@ use std::path::PathBuf;
 
 use crate::dsp::chain::ChainSettings;
 use crate::msg::Snapshot;
+use crate::scale::InputScale;
+use crate::setup::{Setup, SourceKind, SourceSetup, Theme, ViewSetup, WireChoice};
 use crate::source::SynthSettings;
+
+/// What the strip under the traces shows.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum LowerView {
+    /// The averaged beat and the RR tachogram.
+    Beats,
+    /// The running spectrum with the mains measurement.
+    #[default]
+    Spectrum,
+    /// The chain's magnitude, phase and group delay.
+    Response,
+    /// The chain realised with standard parts.
+    Parts,
+    /// Nothing: the traces take the whole height.
+    Hidden,
+}
+
+impl LowerView {
+    /// The name in setup files.
+    pub fn name(self) -> &'static str {
+        match self {
+            LowerView::Beats => "beats",
+            LowerView::Spectrum => "spectrum",
+            LowerView::Response => "response",
+            LowerView::Parts => "parts",
+            LowerView::Hidden => "traces",
+        }
+    }
+
+    /// From the name in setup files (unknown: the spectrum).
+    pub fn from_name(n: &str) -> Self {
+        match n {
+            "beats" => LowerView::Beats,
+            "response" => LowerView::Response,
+            "parts" => LowerView::Parts,
+            "traces" => LowerView::Hidden,
+            _ => LowerView::Spectrum,
+        }
+    }
+}
 
 /// Unit of the trace axes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -42,6 +84,16 @@ pub struct Settings {
     pub serial: Option<crate::source::serial::SerialSpec>,
     /// A recording replayed instead of the simulator.
     pub file: Option<crate::source::replay::ReplaySpec>,
+    /// ADC and front-end scaling for count samples from a board.
+    pub scale: InputScale,
+    /// Colours.
+    pub theme: Theme,
+    /// Vertical scale of the traces: 0 = automatic, else ± this many µV around the centre.
+    pub fixed_range_uv: f64,
+    /// Sweep (wrap-around) display instead of scrolling.
+    pub sweep: bool,
+    /// The strip under the traces.
+    pub lower: LowerView,
 }
 
 impl Default for Settings {
@@ -55,6 +107,86 @@ impl Default for Settings {
             display_hz: 30.0,
             serial: None,
             file: None,
+            scale: InputScale::default(),
+            theme: Theme::Dark,
+            fixed_range_uv: 0.0,
+            sweep: false,
+            lower: LowerView::Spectrum,
+        }
+    }
+}
+
+impl Settings {
+    /// The settings a setup describes.
+    ///
+    /// # Errors
+    /// A message when its source cannot be used.
+    pub fn from_setup(s: &Setup) -> Result<Self, String> {
+        use crate::source::SourceSpec;
+        let (serial, file) = match s.source_spec()? {
+            SourceSpec::Serial(spec) => (Some(spec), None),
+            SourceSpec::File(f) => (None, Some(f)),
+            SourceSpec::Synth(_) => (None, None),
+        };
+        Ok(Self {
+            chain: s.chain,
+            synth: s.synth.clone(),
+            window_s: s.view.window_s,
+            unit: if s.view.unit == "uV" {
+                TraceUnit::Microvolts
+            } else {
+                TraceUnit::Millivolts
+            },
+            channel: s.view.channel,
+            display_hz: s.view.display_hz,
+            serial,
+            file,
+            scale: s.scale,
+            theme: s.view.theme,
+            fixed_range_uv: s.view.fixed_range_uv,
+            sweep: s.view.sweep,
+            lower: LowerView::from_name(&s.view.lower),
+        })
+    }
+
+    /// These settings as a setup file says them.
+    pub fn to_setup(&self) -> Setup {
+        let mut source = SourceSetup::default();
+        if let Some(sp) = &self.serial {
+            source.kind = SourceKind::Serial;
+            source.port = sp.path.clone();
+            source.baud = sp.baud;
+            source.wire = match sp.format {
+                None => WireChoice::Auto,
+                Some(crate::wire::Format::Text) => WireChoice::Ascii,
+                Some(crate::wire::Format::Binary) => WireChoice::Binary,
+            };
+            source.fs_hz = sp.fs_hz.unwrap_or(0.0);
+            source.uv_per_unit = sp.physical_to_uv;
+        } else if let Some(f) = &self.file {
+            source.kind = SourceKind::File;
+            source.file = f.path.display().to_string();
+            source.fs_hz = f.read.fs_hz.unwrap_or(0.0);
+            source.file_unit = f.read.unit.name().into();
+        }
+        Setup {
+            source,
+            scale: self.scale,
+            chain: self.chain,
+            synth: self.synth.clone(),
+            view: ViewSetup {
+                window_s: self.window_s,
+                unit: match self.unit {
+                    TraceUnit::Microvolts => "uV".into(),
+                    TraceUnit::Millivolts => "mV".into(),
+                },
+                channel: self.channel,
+                display_hz: self.display_hz,
+                lower: self.lower.name().into(),
+                theme: self.theme,
+                fixed_range_uv: self.fixed_range_uv,
+                sweep: self.sweep,
+            },
         }
     }
 }
@@ -77,7 +209,8 @@ pub fn set_config_dir_override(dir: PathBuf) {
     }
 }
 
-fn config_dir() -> Option<PathBuf> {
+/// The folder for leadline's own files: `$XDG_CONFIG_HOME/leadline` or `~/.config/leadline`.
+pub fn config_dir() -> Option<PathBuf> {
     if let Some(d) = CONFIG_DIR_OVERRIDE.lock().ok().and_then(|g| g.clone()) {
         return Some(d);
     }

@@ -3,7 +3,9 @@
 pub mod beats;
 pub mod caution;
 pub mod chain;
+pub mod files;
 pub mod parts;
+pub mod record;
 pub mod replay;
 pub mod response;
 pub mod simulator;

@@ -11,6 +11,9 @@ pub const RAW_COLOUR: egui::Color32 = egui::Color32::from_rgb(132, 146, 166);
 /// Colour of the filtered trace.
 pub const FILTERED_COLOUR: egui::Color32 = egui::Color32::from_rgb(0, 168, 150);
 
+/// Colour of event markers.
+pub const MARKER_COLOUR: egui::Color32 = egui::Color32::from_rgb(190, 90, 200);
+
 /// Colour of the beat markers.
 pub const BEAT_COLOUR: egui::Color32 = egui::Color32::from_rgba_premultiplied(120, 70, 40, 90);
 
@@ -30,7 +33,7 @@ pub fn column_points(c: &Columns, scale: f64) -> Vec<[f64; 2]> {
 }
 
 /// Draws both traces into the space given.
-pub fn show(ui: &mut egui::Ui, view: &View, settings: &Settings) {
+pub fn show(ui: &mut egui::Ui, view: &View, settings: &Settings, markers: &[(f64, String)]) {
     let Some(snap) = &view.snapshot else {
         ui.centered_and_justified(|ui| ui.label("Waiting for the first samples…"));
         return;
@@ -82,6 +85,13 @@ pub fn show(ui: &mut egui::Ui, view: &View, settings: &Settings) {
                     for &t in &beat_times {
                         pu.vline(VLine::new("", t).color(BEAT_COLOUR).width(1.0));
                     }
+                }
+                for (t, text) in markers.iter().filter(|(t, _)| *t >= x_min) {
+                    pu.vline(
+                        VLine::new(text.as_str(), *t)
+                            .color(MARKER_COLOUR)
+                            .width(1.5),
+                    );
                 }
                 pu.line(
                     Line::new(name, PlotPoints::new(column_points(cols, factor)))
