@@ -177,6 +177,9 @@ pub struct Snapshot {
     pub beats: Option<BeatView>,
     /// Every channel is inverted before the chain.
     pub inverted: bool,
+    /// Age of the newest sample in this snapshot when it was made, ms: from the source thread
+    /// handing it over to the snapshot leaving the DSP thread (the display's leading edge).
+    pub latency_ms: f64,
 }
 
 /// Messages from the GUI (or CLI) to the threads. Tiny and rare: the channel is unbounded.
@@ -196,4 +199,6 @@ pub enum Control {
     Invert(bool),
     /// Welch segment length (power of two, 256–16384); 0 picks about 4 s.
     SpectrumSegment(usize),
+    /// Most snapshots per second (the display rate), 1–120.
+    DisplayRate(f64),
 }

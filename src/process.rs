@@ -366,7 +366,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
         mut window_s,
         display_hz,
     } = cfg;
-    let period = Duration::from_secs_f64(1.0 / display_hz.clamp(1.0, 240.0));
+    let mut period = Duration::from_secs_f64(1.0 / display_hz.clamp(1.0, 240.0));
     let mut stats = Stats::default();
     let mut state: Option<Running> = None;
     let mut chain_error: Option<String> = None;
@@ -374,6 +374,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
     let mut scale: Option<InputScale> = None;
     let mut last_snapshot = Instant::now() - period;
     let mut oldest_pending: Option<Instant> = None;
+    let mut newest_pending: Option<Instant> = None;
     let mut latency_window_start = Instant::now();
     let mut latency_max_ms: f64 = 0.0;
     let mut spectrum = SpectrumState::new();
@@ -404,6 +405,10 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     }
                 }
                 Control::DisplayPaused(p) => paused = p,
+                Control::DisplayRate(hz) if hz.is_finite() => {
+                    period = Duration::from_secs_f64(1.0 / hz.clamp(1.0, 120.0));
+                }
+                Control::DisplayRate(_) => {}
                 Control::Channel(c) => {
                     spectrum.channel = c;
                     spectrum.frame = None;
@@ -502,6 +507,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
             }
             stats.frames += block.frames() as u64;
             oldest_pending.get_or_insert(block.made_at);
+            newest_pending = Some(block.made_at);
 
             let mut uv = Vec::with_capacity(block.data.len());
             rails.clear();
@@ -576,9 +582,13 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 latency_window_start = now;
             }
             spectrum.update(r);
+            let newest_age_ms = newest_pending
+                .take()
+                .map_or(0.0, |t| now.duration_since(t).as_secs_f64() * 1e3);
             let snap = Snapshot {
                 beats: beat_state.as_ref().map(BeatState::view),
                 inverted: invert,
+                latency_ms: newest_age_ms,
                 ..snapshot(
                     r,
                     window_s,
@@ -590,7 +600,13 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 )
             };
             offer(&ports, snap, &mut stats);
-            last_snapshot = now;
+            // Keep the cadence: blocks arrive every few ms, so stepping by the period (rather
+            // than restarting it at each snapshot) gives the display rate on average.
+            last_snapshot = if now.duration_since(last_snapshot) < 2 * period {
+                last_snapshot + period
+            } else {
+                now
+            };
             notify();
         }
     }
@@ -626,6 +642,7 @@ fn snapshot(
         spectrum: spectrum.clone(),
         beats: None,
         inverted: false,
+        latency_ms: 0.0,
     }
 }
 

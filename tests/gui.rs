@@ -194,3 +194,166 @@ fn setup_save_and_open_restore_the_chain_and_view() {
     assert_eq!(h.state().settings().theme, leadline::setup::Theme::Light);
     assert_eq!(h.state().settings().to_setup(), saved.to_setup());
 }
+
+/// Waits until the DSP thread runs a chain that `ok` accepts.
+fn wait_applied(
+    h: &mut Harness<'static, LeadlineApp>,
+    what: &str,
+    ok: impl Fn(&leadline::dsp::ChainSettings) -> bool,
+) {
+    run_until(h, what, |a| {
+        a.view().snapshot.as_ref().is_some_and(|s| ok(&s.chain))
+    });
+}
+
+#[test]
+fn the_notch_q_and_the_low_pass_corner_reach_the_dsp_thread() {
+    let mut h = harness(app());
+    h.run_steps(3);
+    h.get_by_role_and_label(Role::Slider, "Notch Q")
+        .set_value_accesskit(12.0);
+    h.run_steps(2);
+    wait_applied(&mut h, "notch Q 12", |c| c.notch.q == 12.0);
+    h.get_by_role_and_label(Role::Slider, "Low-pass corner")
+        .set_value_accesskit(25.0);
+    h.run_steps(2);
+    wait_applied(&mut h, "low-pass 25 Hz", |c| c.lowpass.corner_hz == 25.0);
+    // The notch's mains button comes first (the simulator's mains setting is further down).
+    h.get_all_by_role_and_label(Role::Button, "60 Hz")
+        .next()
+        .unwrap()
+        .click();
+    h.run_steps(2);
+    wait_applied(&mut h, "notch at 60 Hz", |c| c.notch.mains_hz == 60.0);
+}
+
+#[test]
+fn replaying_a_file_switches_the_source() {
+    // A recording of our own simulator, made here.
+    let path = tmp("replay-source.csv");
+    let rec = leadline::store::Recording {
+        fs_hz: 250.0,
+        names: vec!["ch1".into()],
+        time_s: None,
+        channels: vec![
+            (0..2500)
+                .map(|i| 500.0 * ((i as f64) * 0.05).sin())
+                .collect(),
+        ],
+        events: vec![],
+    };
+    leadline::store::write(&path, &rec, leadline::store::FileUnit::Millivolts).unwrap();
+    let mut h = harness(app());
+    run_until(&mut h, "the simulator's first snapshot", |a| {
+        a.view().snapshot.as_ref().is_some_and(|s| s.fs_hz == 500.0)
+    });
+    h.state_mut().set_replay_path(&path.display().to_string());
+    h.run_steps(1);
+    h.get_by_role_and_label(Role::Button, "Replay").click();
+    h.run_steps(2);
+    assert!(h.state().settings().file.is_some());
+    run_until(&mut h, "a snapshot from the file at 250 Hz", |a| {
+        a.view().snapshot.as_ref().is_some_and(|s| s.fs_hz == 250.0)
+    });
+}
+
+#[test]
+fn hold_as_before_keeps_the_spectrum() {
+    let mut h = harness(app());
+    run_until(&mut h, "a spectrum", |a| {
+        a.view()
+            .snapshot
+            .as_ref()
+            .is_some_and(|s| s.spectrum.is_some())
+    });
+    assert!(!h.state().spectrum_held());
+    h.get_by_role_and_label(Role::Button, "Hold as before")
+        .click();
+    h.run_steps(2);
+    assert!(h.state().spectrum_held());
+}
+
+fn click_at(h: &mut Harness<'static, LeadlineApp>, x: f32, y: f32) {
+    use eframe::egui::{Event, Modifiers, PointerButton, pos2};
+    let pos = pos2(x, y);
+    h.input_mut().events.push(Event::PointerMoved(pos));
+    h.run_steps(1);
+    for pressed in [true, false] {
+        h.input_mut().events.push(Event::PointerButton {
+            pos,
+            button: PointerButton::Primary,
+            pressed,
+            modifiers: Modifiers::NONE,
+        });
+        h.run_steps(1);
+    }
+}
+
+#[test]
+fn two_clicks_on_the_trace_place_cursors_with_their_deltas() {
+    let mut h = harness(app());
+    run_until(&mut h, "two seconds of trace", |a| {
+        a.view().snapshot.as_ref().is_some_and(|s| s.t_end_s > 2.0)
+    });
+    // Freeze first, as one does to measure; then click twice on the lower (filtered) trace.
+    h.key_press(eframe::egui::Key::Space);
+    h.run_steps(2);
+    click_at(&mut h, 500.0, 330.0);
+    click_at(&mut h, 700.0, 300.0);
+    let c = h.state().trace_state().cursors;
+    let (a, b) = (c[0].expect("cursor 1"), c[1].expect("cursor 2"));
+    assert!(b[0] > a[0], "the second click is later: {a:?} {b:?}");
+    // 200 px of a 10 s window about 900 px wide: about 2.2 s.
+    let dt = b[0] - a[0];
+    assert!(dt > 1.5 && dt < 3.0, "Δt {dt}");
+    assert!(b[1] > a[1], "the second click is higher");
+    h.run_steps(2);
+    assert!(
+        h.query_by_label_contains("Δt").is_some(),
+        "the readout is shown"
+    );
+    h.key_press(eframe::egui::Key::C);
+    h.run_steps(2);
+    assert_eq!(h.state().trace_state().cursors, [None, None]);
+}
+
+#[test]
+fn the_help_panel_lists_the_shortcuts() {
+    let mut h = harness(app());
+    h.run_steps(2);
+    assert!(!h.state().help_open());
+    h.get_by_role_and_label(Role::Button, "Help").click();
+    h.run_steps(2);
+    assert!(h.state().help_open());
+    assert!(
+        h.query_by_label_contains("start / stop recording")
+            .is_some()
+    );
+    h.key_press(eframe::egui::Key::F1);
+    h.run_steps(2);
+    assert!(!h.state().help_open());
+}
+
+#[test]
+fn display_settings_and_the_trace_png_button() {
+    let png = tmp("gui-trace.png");
+    let _ = std::fs::remove_file(&png);
+    let mut a = app();
+    a.files_panel_mut().trace_png = png.display().to_string();
+    let mut h = harness_sized(a, [1280.0, 1800.0]);
+    run_until(&mut h, "a snapshot", |a| a.view().snapshot.is_some());
+    h.get_by_label("Display").click();
+    h.run_steps(2);
+    h.get_by_role_and_label(Role::CheckBox, "Sweep display")
+        .click();
+    h.get_by_role_and_label(Role::RadioButton, "Fixed").click();
+    h.run_steps(2);
+    assert!(h.state().settings().sweep);
+    assert!(h.state().settings().fixed_range_uv > 0.0);
+    h.get_by_label("Files").click();
+    h.run_steps(2);
+    h.get_by_role_and_label(Role::Button, "Save trace").click();
+    h.run_steps(2);
+    let bytes = std::fs::read(&png).unwrap();
+    assert_eq!(&bytes[1..4], b"PNG");
+}

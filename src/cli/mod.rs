@@ -430,9 +430,17 @@ pub struct MonitorArgs {
     /// Save a PNG of the window just before exiting (needs --exit-after).
     #[arg(long, value_name = "PNG", requires = "exit_after")]
     pub screenshot: Option<PathBuf>,
-    /// What the strip under the traces shows at start.
+    /// What the strip under the traces shows at start; `default` and `heavy` are the presets
+    /// `--bench` measures (1 kHz × 1 ch, 10 s window / 2 kHz × 8 ch, 30 s window).
     #[arg(long, value_enum)]
     pub view: Option<StartView>,
+    /// Run the real window for SECONDS (after a 2 s warm-up), then print frame rate, app time
+    /// per frame, latency, CPU and memory; the last line is JSON.
+    #[arg(long, value_name = "SECONDS")]
+    pub bench: Option<f64>,
+    /// Start with the traces frozen (with --bench: the idle cost).
+    #[arg(long)]
+    pub paused: bool,
     /// Window size in logical pixels, WIDTHxHEIGHT.
     #[arg(long, value_name = "WxH", default_value = "1280x800")]
     pub size: String,
@@ -452,6 +460,10 @@ pub enum StartView {
     Parts,
     /// Traces only.
     Traces,
+    /// Measurement preset: simulator at 1 kHz, 1 channel, 10 s window, spectrum strip.
+    Default,
+    /// Measurement preset: simulator 8 channels at 2 kHz, 30 s window, spectrum strip.
+    Heavy,
 }
 
 /// Output format of `leadline simulate`.

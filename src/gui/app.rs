@@ -25,6 +25,14 @@ pub struct AppOptions {
     pub show_caution: bool,
     /// Keep the setup in the configuration folder as it changes (restored at the next start).
     pub remember_setup: bool,
+    /// Start with the traces frozen.
+    pub start_paused: bool,
+    /// Measure for this many seconds (after a warm-up), report, and close.
+    pub bench_s: Option<f64>,
+    /// Name of the view measured (for the report).
+    pub bench_view: String,
+    /// Where the bench report goes.
+    pub bench_report: Arc<Mutex<Option<super::bench::BenchReport>>>,
 }
 
 type Shot = Arc<Mutex<Option<Arc<egui::ColorImage>>>>;
@@ -55,6 +63,11 @@ pub struct LeadlineApp {
     /// The setup as last written to the configuration folder, and when.
     remembered: Option<(crate::setup::Setup, Instant)>,
     theme_applied: Option<crate::setup::Theme>,
+    bench: Option<super::bench::BenchRun>,
+    trace: panels::trace::TraceState,
+    help_open: bool,
+    /// Time spent in `logic` and `ui` of the current and the previous frame, ms.
+    app_ms: (f64, Option<f64>),
 }
 
 pub use super::state::LowerView;
@@ -98,13 +111,20 @@ impl LeadlineApp {
         outcome: Arc<Mutex<Result<()>>>,
     ) -> Result<Self, PipelineError> {
         let pipeline = start_pipeline(&settings, Arc::clone(&notify))?;
+        let paused = opts.start_paused;
+        if paused {
+            pipeline.control(Control::DisplayPaused(true));
+        }
+        let bench = opts
+            .bench_s
+            .map(|s| super::bench::BenchRun::new(s, &opts.bench_view, paused));
         let file_path = settings_file_path(&settings);
         Ok(Self {
             settings,
             view: View::default(),
             pipeline,
             notify,
-            paused: false,
+            paused,
             caution_open: opts.show_caution,
             opts,
             started: Instant::now(),
@@ -122,6 +142,10 @@ impl LeadlineApp {
             markers: Vec::new(),
             remembered: None,
             theme_applied: None,
+            bench,
+            trace: Default::default(),
+            help_open: false,
+            app_ms: (0.0, None),
         })
     }
 
@@ -141,13 +165,18 @@ impl LeadlineApp {
     }
 
     /// Takes the newest snapshot unless paused. Called from `logic` (and by tests).
-    pub fn poll(&mut self) {
+    pub fn poll(&mut self) -> bool {
         if let Some(s) = self.pipeline.latest_snapshot()
             && !self.paused
         {
+            if let Some(b) = &mut self.bench {
+                b.on_snapshot(s.latency_ms);
+            }
             self.view.snapshot = Some(s);
             self.view.snapshots_seen += 1;
+            return true;
         }
+        false
     }
 
     fn restart_source(&mut self) {
@@ -219,8 +248,19 @@ impl LeadlineApp {
         }
         let pressed = |k: egui::Key| ctx.input(|i| i.key_pressed(k));
         if pressed(egui::Key::Space) {
-            self.paused = !self.paused;
-            self.pending.push(Control::DisplayPaused(self.paused));
+            self.set_paused(!self.paused);
+        }
+        if pressed(egui::Key::C) {
+            self.trace.clear();
+        }
+        if pressed(egui::Key::F1)
+            || ctx.input(|i| {
+                i.events
+                    .iter()
+                    .any(|e| matches!(e, egui::Event::Text(t) if t == "?"))
+            })
+        {
+            self.help_open = !self.help_open;
         }
         if pressed(egui::Key::R) {
             let recording = self
@@ -254,6 +294,35 @@ impl LeadlineApp {
                 self.settings.lower = v;
             }
         }
+    }
+
+    /// Freezes or resumes the display; resuming also goes back to following the live data.
+    pub fn set_paused(&mut self, paused: bool) {
+        self.paused = paused;
+        if !paused {
+            self.trace.follow = true;
+        }
+        self.pending.push(Control::DisplayPaused(paused));
+    }
+
+    /// The trace panel's state (tests read the cursors).
+    pub fn trace_state(&self) -> &panels::trace::TraceState {
+        &self.trace
+    }
+
+    /// Types the replay path (tests).
+    pub fn set_replay_path(&mut self, p: &str) {
+        self.file_path = p.to_string();
+    }
+
+    /// True when a spectrum is held as 'before' (tests).
+    pub fn spectrum_held(&self) -> bool {
+        self.spectrum.before.is_some()
+    }
+
+    /// True while the help panel is open.
+    pub fn help_open(&self) -> bool {
+        self.help_open
     }
 
     /// Carries out a recording request.
@@ -458,6 +527,10 @@ impl LeadlineApp {
     }
 
     fn apply_theme(&mut self, ctx: &egui::Context) {
+        let smooth = self.settings.smooth_lines;
+        if ctx.tessellation_options(|o| o.feathering) != smooth {
+            ctx.tessellation_options_mut(|o| o.feathering = smooth);
+        }
         if self.theme_applied != Some(self.settings.theme) {
             ctx.set_visuals(match self.settings.theme {
                 crate::setup::Theme::Dark => egui::Visuals::dark(),
@@ -480,25 +553,34 @@ impl LeadlineApp {
             ui.horizontal(|ui| {
                 ui.label(egui::RichText::new("leadline").strong().size(18.0));
                 ui.separator();
-                let label = if self.paused { "Resume" } else { "Freeze" };
+                let label = if !self.trace.follow {
+                    "Follow live"
+                } else if self.paused {
+                    "Resume"
+                } else {
+                    "Freeze"
+                };
                 if ui
                     .button(label)
                     .on_hover_text(
-                        "Freeze the traces to look closely; data keep flowing underneath.",
+                        "Freeze the traces to look closely (Space); data keep flowing underneath and into any recording. While frozen: drag to pan, scroll to zoom, click to place the two cursors.",
                     )
                     .clicked()
                 {
-                    self.paused = !self.paused;
-                    self.pending.push(Control::DisplayPaused(self.paused));
+                    self.set_paused(!self.paused);
                 }
                 let rec_status = self.pipeline.recorder_status();
                 let chain_text = self.settings.chain.describe();
                 if let Some(a) = panels::record::top_bar(ui, &mut self.record, rec_status.as_ref(), &chain_text) {
                     self.record_action(a);
                 }
-                ui.label("Keys").on_hover_text(
-                    "Keys: Space freeze/resume · R record/stop · M marker · H hold the spectrum as 'before' · 1 beats · 2 spectrum · 3 chain response · 4 parts · 5 traces only",
-                );
+                if ui
+                    .selectable_label(self.help_open, "Help")
+                    .on_hover_text("Keyboard shortcuts and how to measure (F1 or ?).")
+                    .clicked()
+                {
+                    self.help_open = !self.help_open;
+                }
                 let dark = self.settings.theme == crate::setup::Theme::Dark;
                 if ui
                     .button(if dark { "Light" } else { "Dark" })
@@ -526,7 +608,11 @@ impl LeadlineApp {
                 ui.separator();
                 ui.selectable_value(&mut self.settings.unit, TraceUnit::Millivolts, "mV");
                 ui.selectable_value(&mut self.settings.unit, TraceUnit::Microvolts, "µV");
-                let n = self.settings.synth.channels;
+                let n = self
+                    .view
+                    .snapshot
+                    .as_ref()
+                    .map_or(self.settings.synth.channels, |s| s.traces.len());
                 if n > 1 {
                     ui.separator();
                     let before = self.settings.channel;
@@ -559,7 +645,14 @@ impl LeadlineApp {
         });
 
         egui::Panel::bottom("status-bar").show(ui, |ui| {
-            panels::status::show(ui, &self.view, self.pipeline.label(), self.paused);
+            let rec = self.pipeline.recorder_status();
+            panels::status::show(
+                ui,
+                &self.view,
+                self.pipeline.label(),
+                self.paused,
+                rec.as_ref(),
+            );
             if let Some(st) = self.pipeline.serial_status() {
                 panels::status::serial_line(ui, &st);
             }
@@ -635,6 +728,13 @@ impl LeadlineApp {
                         }
                     }
                     ui.add_space(10.0);
+                    egui::CollapsingHeader::new(egui::RichText::new("Display").heading())
+                        .default_open(false)
+                        .show(ui, |ui| {
+                            if let Some(c) = panels::display::show(ui, &mut self.settings) {
+                                self.pending.push(c);
+                            }
+                        });
                     egui::CollapsingHeader::new(egui::RichText::new("Recording").heading())
                         .default_open(true)
                         .show(ui, |ui| {
@@ -674,7 +774,11 @@ impl LeadlineApp {
             };
             let trace_h = total - lower_h - 30.0;
             ui.allocate_ui(egui::vec2(ui.available_width(), trace_h), |ui| {
-                panels::trace::show(ui, &self.view, &self.settings, &self.markers);
+                let ev = panels::trace::show(ui, &self.view, &self.settings, &self.markers, &mut self.trace);
+                if ev.left_live && !self.paused {
+                    self.paused = true;
+                    self.pending.push(Control::DisplayPaused(true));
+                }
             });
             ui.horizontal(|ui| {
                 ui.selectable_value(&mut self.settings.lower, LowerView::Beats, "Beats")
@@ -712,6 +816,7 @@ impl LeadlineApp {
             }
         });
 
+        panels::help::show(ui.ctx(), &mut self.help_open);
         if panels::caution::first_start(ui.ctx(), &mut self.caution_open) {
             super::state::acknowledge_caution();
         }
@@ -723,10 +828,25 @@ impl LeadlineApp {
 }
 
 impl eframe::App for LeadlineApp {
-    fn logic(&mut self, ctx: &egui::Context, _frame: &mut eframe::Frame) {
-        self.poll();
+    fn logic(&mut self, ctx: &egui::Context, frame: &mut eframe::Frame) {
+        let t0 = Instant::now();
+        let new_data = self.poll();
         self.apply_theme(ctx);
         self.remember(false);
+        let previous = self.app_ms.1.take();
+        self.app_ms.0 = t0.elapsed().as_secs_f64() * 1e3;
+        if let Some(b) = &mut self.bench {
+            b.on_frame(previous, frame.info().cpu_usage, new_data);
+            if b.finish_if_due() {
+                if let Ok(mut g) = self.opts.bench_report.lock() {
+                    *g = b.report.clone();
+                }
+                ctx.send_viewport_cmd(egui::ViewportCommand::Close);
+            } else if let Some(left) = b.remaining() {
+                // Wake at the end even when nothing arrives (paused).
+                ctx.request_repaint_after(left);
+            }
+        }
         self.exit_logic(ctx);
     }
 
@@ -737,6 +857,8 @@ impl eframe::App for LeadlineApp {
     }
 
     fn ui(&mut self, ui: &mut egui::Ui, _frame: &mut eframe::Frame) {
+        let t0 = Instant::now();
         self.show(ui);
+        self.app_ms.1 = Some(self.app_ms.0 + t0.elapsed().as_secs_f64() * 1e3);
     }
 }

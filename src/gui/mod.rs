@@ -2,6 +2,7 @@
 //! want sent; the app applies them after drawing.
 
 pub mod app;
+pub mod bench;
 pub mod panels;
 pub mod screenshot;
 pub mod state;
@@ -84,7 +85,23 @@ pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
             crate::cli::StartView::Response => state::LowerView::Response,
             crate::cli::StartView::Parts => state::LowerView::Parts,
             crate::cli::StartView::Traces => state::LowerView::Hidden,
+            crate::cli::StartView::Default | crate::cli::StartView::Heavy => {
+                state::LowerView::Spectrum
+            }
         };
+        let heavy = v == crate::cli::StartView::Heavy;
+        if matches!(
+            v,
+            crate::cli::StartView::Default | crate::cli::StartView::Heavy
+        ) {
+            settings.serial = None;
+            settings.file = None;
+            settings.synth.fs_hz = args.fs.unwrap_or(if heavy { 2000.0 } else { 1000.0 });
+            settings.synth.channels = args.channels.unwrap_or(if heavy { 8 } else { 1 });
+            settings.window_s = if heavy { 30.0 } else { 10.0 };
+            settings.display_hz = 30.0;
+            settings.synth.validate()?;
+        }
     }
     Ok(settings)
 }
@@ -108,8 +125,23 @@ pub fn run(args: &MonitorArgs) -> Result<()> {
         exit_after_s: args.exit_after,
         screenshot: args.screenshot.clone(),
         show_caution: !state::caution_acknowledged(),
-        remember_setup: !args.fresh,
+        // A measurement or a scripted run must not change what the user starts with next time.
+        remember_setup: !args.fresh && args.bench.is_none() && args.exit_after.is_none(),
+        start_paused: args.paused,
+        bench_s: args.bench,
+        bench_view: match args.view {
+            Some(crate::cli::StartView::Heavy) => "heavy".into(),
+            Some(crate::cli::StartView::Default) | None => "default".into(),
+            Some(other) => format!("{other:?}").to_lowercase(),
+        },
+        bench_report: Arc::default(),
     };
+    if let Some(b) = args.bench
+        && !(b.is_finite() && b > 0.0)
+    {
+        return Err(BadInput(format!("--bench {b}: must be a positive number of seconds")).into());
+    }
+    let report = Arc::clone(&opts.bench_report);
     let outcome = Arc::new(std::sync::Mutex::new(Ok(())));
     let outcome_app = Arc::clone(&outcome);
     let native = eframe::NativeOptions {
@@ -125,13 +157,21 @@ pub fn run(args: &MonitorArgs) -> Result<()> {
         native,
         Box::new(move |cc| {
             let ctx = cc.egui_ctx.clone();
-            let notify: crate::process::Notify = Arc::new(move || ctx.request_repaint());
+            // A zero-delay request makes egui paint two frames; any non-zero delay paints one.
+            let notify: crate::process::Notify =
+                Arc::new(move || ctx.request_repaint_after(std::time::Duration::from_nanos(1)));
             let app = LeadlineApp::new(settings, notify, opts, outcome_app)?;
             Ok(Box::new(app))
         }),
     )
     .map_err(|e| anyhow::anyhow!("cannot open the monitor window: {e}"))
     .context("is a display available? (under CI: xvfb-run)")?;
+    if args.bench.is_some() {
+        match report.lock().ok().and_then(|mut g| g.take()) {
+            Some(r) => println!("{}", r.text()),
+            None => anyhow::bail!("the window closed before the bench finished"),
+        }
+    }
     match outcome.lock() {
         Ok(mut g) => std::mem::replace(&mut *g, Ok(())),
         Err(_) => Err(anyhow::anyhow!("the window thread failed")),

@@ -94,6 +94,8 @@ pub struct Settings {
     pub sweep: bool,
     /// The strip under the traces.
     pub lower: LowerView,
+    /// Anti-aliased lines (costly with software OpenGL).
+    pub smooth_lines: bool,
 }
 
 impl Default for Settings {
@@ -112,6 +114,7 @@ impl Default for Settings {
             fixed_range_uv: 0.0,
             sweep: false,
             lower: LowerView::Spectrum,
+            smooth_lines: false,
         }
     }
 }
@@ -146,6 +149,7 @@ impl Settings {
             fixed_range_uv: s.view.fixed_range_uv,
             sweep: s.view.sweep,
             lower: LowerView::from_name(&s.view.lower),
+            smooth_lines: s.view.smooth_lines,
         })
     }
 
@@ -186,6 +190,7 @@ impl Settings {
                 theme: self.theme,
                 fixed_range_uv: self.fixed_range_uv,
                 sweep: self.sweep,
+                smooth_lines: self.smooth_lines,
             },
         }
     }

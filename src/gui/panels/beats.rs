@@ -30,7 +30,7 @@ pub fn rate_readout(ui: &mut egui::Ui, view: Option<&BeatView>) {
         }
     };
     ui.vertical(|ui| {
-        ui.label(egui::RichText::new(text).size(26.0).strong().color(colour))
+        ui.label(egui::RichText::new(text).size(30.0).strong().color(colour))
             .on_hover_text("Heart rate: 60 / mean of the last 8 accepted RR intervals (see README, \"Heart rate\").");
         ui.label(egui::RichText::new(detail).small());
     });

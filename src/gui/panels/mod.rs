@@ -3,7 +3,9 @@
 pub mod beats;
 pub mod caution;
 pub mod chain;
+pub mod display;
 pub mod files;
+pub mod help;
 pub mod parts;
 pub mod record;
 pub mod replay;

@@ -233,11 +233,16 @@ pub fn show(
                     .style(LineStyle::Dashed { length: 6.0 }),
             );
         }
-        pu.line(Line::new("before the filters", PlotPoints::new(raw.clone())).color(RAW_COLOUR));
+        pu.line(
+            Line::new("before the filters", PlotPoints::new(raw.clone()))
+                .color(RAW_COLOUR)
+                .width(1.5),
+        );
         if view.show_filtered {
             pu.line(
                 Line::new("after the filters", PlotPoints::new(curve(&frame.filtered)))
-                    .color(FILTERED_COLOUR),
+                    .color(FILTERED_COLOUR)
+                    .width(1.5),
             );
         }
         if let Some(sections) = sections {
@@ -258,7 +263,7 @@ pub fn show(
             pu.line(
                 Line::new("chain gain", PlotPoints::new(gain))
                     .color(GAIN_COLOUR)
-                    .width(1.0),
+                    .width(1.5),
             );
         }
         if let Some(r) = &frame.mains_raw {

@@ -5,7 +5,13 @@ use eframe::egui;
 use crate::gui::state::View;
 
 /// Draws the status line.
-pub fn show(ui: &mut egui::Ui, view: &View, source: &str, paused: bool) {
+pub fn show(
+    ui: &mut egui::Ui,
+    view: &View,
+    source: &str,
+    paused: bool,
+    rec: Option<&crate::recorder::RecorderStatus>,
+) {
     ui.horizontal_wrapped(|ui| {
         ui.label(format!("source: {source}"));
         match &view.snapshot {
@@ -43,9 +49,33 @@ pub fn show(ui: &mut egui::Ui, view: &View, source: &str, paused: bool) {
                 ui.label("waiting for data…");
             }
         }
+        ui.separator();
+        match rec {
+            Some(r) if r.active.is_some() => {
+                ui.colored_label(
+                    egui::Color32::from_rgb(220, 70, 60),
+                    format!(
+                        "recording {} · {:.0} s",
+                        r.active
+                            .as_ref()
+                            .and_then(|p| p.file_name())
+                            .map(|f| f.to_string_lossy().into_owned())
+                            .unwrap_or_default(),
+                        r.elapsed_s
+                    ),
+                );
+            }
+            Some(r) if r.failed => {
+                ui.colored_label(ui.visuals().error_fg_color, "recording stopped (see Recording)");
+            }
+            _ => {
+                ui.label("not recording");
+            }
+        }
         if paused {
             ui.separator();
-            ui.label(egui::RichText::new("PAUSED").strong());
+            ui.label(egui::RichText::new("FROZEN").strong())
+                .on_hover_text("The display is frozen; data keep flowing (and recording goes on).");
         }
     });
 }

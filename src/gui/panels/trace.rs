@@ -1,7 +1,7 @@
 //! The rolling trace: before and after the filters, stacked, sharing the time axis.
 
 use eframe::egui;
-use egui_plot::{Legend, Line, Plot, PlotPoints, VLine};
+use egui_plot::{HLine, Legend, Line, Plot, PlotPoints, VLine};
 
 use crate::gui::state::{Settings, View};
 use crate::msg::Columns;
@@ -10,6 +10,9 @@ use crate::msg::Columns;
 pub const RAW_COLOUR: egui::Color32 = egui::Color32::from_rgb(132, 146, 166);
 /// Colour of the filtered trace.
 pub const FILTERED_COLOUR: egui::Color32 = egui::Color32::from_rgb(0, 168, 150);
+
+/// Colour of the measurement cursors.
+pub const CURSOR_COLOUR: egui::Color32 = egui::Color32::from_rgb(230, 200, 60);
 
 /// Colour of event markers.
 pub const MARKER_COLOUR: egui::Color32 = egui::Color32::from_rgb(190, 90, 200);
@@ -32,20 +35,114 @@ pub fn column_points(c: &Columns, scale: f64) -> Vec<[f64; 2]> {
     pts
 }
 
+/// What the user has done to the traces: cursors, and whether the view follows the data.
+#[derive(Debug, Clone, PartialEq)]
+pub struct TraceState {
+    /// Measurement cursors (time s, value µV); a click places the next one.
+    pub cursors: [Option<[f64; 2]>; 2],
+    /// Which cursor the next click places.
+    pub next_cursor: usize,
+    /// The view scrolls with the data; false once the user zooms or pans (then the display is
+    /// frozen until "Follow live").
+    pub follow: bool,
+}
+
+impl Default for TraceState {
+    fn default() -> Self {
+        Self {
+            cursors: [None, None],
+            next_cursor: 0,
+            follow: true,
+        }
+    }
+}
+
+/// Δt (s), ΔV (µV) and the rate implied by Δt (per minute) between two cursors.
+pub fn cursor_deltas(a: [f64; 2], b: [f64; 2]) -> (f64, f64, Option<f64>) {
+    let dt = b[0] - a[0];
+    let dv = b[1] - a[1];
+    let rate = (dt.abs() > 1e-6).then(|| 60.0 / dt.abs());
+    (dt, dv, rate)
+}
+
+impl TraceState {
+    /// Places the next cursor at (t s, v µV).
+    pub fn place(&mut self, t: f64, v_uv: f64) {
+        self.cursors[self.next_cursor] = Some([t, v_uv]);
+        self.next_cursor = (self.next_cursor + 1) % 2;
+    }
+
+    /// Removes both cursors.
+    pub fn clear(&mut self) {
+        self.cursors = [None, None];
+        self.next_cursor = 0;
+    }
+
+    /// The readout text, when both cursors are placed.
+    pub fn readout(&self, unit: super::super::state::TraceUnit) -> Option<String> {
+        let (a, b) = (self.cursors[0]?, self.cursors[1]?);
+        let (dt, dv, rate) = cursor_deltas(a, b);
+        let (k, u) = match unit {
+            super::super::state::TraceUnit::Microvolts => (1.0, "µV"),
+            super::super::state::TraceUnit::Millivolts => (1e-3, "mV"),
+        };
+        Some(format!(
+            "Δt {:.1} ms · ΔV {:.3} {u}{}",
+            dt * 1e3,
+            dv * k,
+            rate.map_or(String::new(), |r| format!(" · 1/Δt = {r:.1} per minute"))
+        ))
+    }
+}
+
+/// What the user did in the traces this frame.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct TraceEvents {
+    /// Zoomed or panned: the display should freeze.
+    pub left_live: bool,
+}
+
+/// Maps a time to the sweep display: x in 0..window, and whether it is in the newest pass.
+fn sweep_x(t: f64, t_end: f64, window: f64) -> (f64, bool) {
+    let x = t.rem_euclid(window);
+    let x_now = t_end.rem_euclid(window);
+    (x, t > t_end - x_now)
+}
+
 /// Draws both traces into the space given.
-pub fn show(ui: &mut egui::Ui, view: &View, settings: &Settings, markers: &[(f64, String)]) {
+pub fn show(
+    ui: &mut egui::Ui,
+    view: &View,
+    settings: &Settings,
+    markers: &[(f64, String)],
+    state: &mut TraceState,
+) -> TraceEvents {
+    let mut events = TraceEvents::default();
     let Some(snap) = &view.snapshot else {
         ui.centered_and_justified(|ui| ui.label("Waiting for the first samples…"));
-        return;
+        return events;
     };
     let ch = settings.channel.min(snap.traces.len().saturating_sub(1));
     let Some(trace) = snap.traces.get(ch) else {
-        return;
+        return events;
     };
     let (factor, unit) = settings.unit.factor_and_label();
-    let x_max = snap.t_end_s.max(snap.window_s);
-    let x_min = x_max - snap.window_s;
-    let height = ((ui.available_height() - 12.0) / 2.0).max(80.0);
+    let window = snap.window_s;
+    let sweep = settings.sweep && state.follow;
+    let x_max = snap.t_end_s.max(window);
+    let x_min = x_max - window;
+    let readout = state.readout(settings.unit);
+    let height =
+        ((ui.available_height() - if readout.is_some() { 34.0 } else { 12.0 }) / 2.0).max(80.0);
+    if let Some(r) = &readout {
+        ui.horizontal(|ui| {
+            ui.label(egui::RichText::new(r).monospace().strong())
+                .on_hover_text("Between cursor 1 and cursor 2: time, voltage, and the rate a period of Δt means (an RR interval as beats per minute).");
+            if ui.small_button("Clear cursors").on_hover_text("Remove both cursors (key C).").clicked() {
+                state.clear();
+            }
+        });
+    }
     let link = egui::Id::unique("trace-time-axis");
     let beat_times: Vec<f64> = snap
         .beats
@@ -59,6 +156,13 @@ pub fn show(ui: &mut egui::Ui, view: &View, settings: &Settings, markers: &[(f64
                 .collect()
         })
         .unwrap_or_default();
+    let place = |t: f64| {
+        if sweep {
+            sweep_x(t, snap.t_end_s, window).0
+        } else {
+            t
+        }
+    };
     for (title, id, cols, colour) in [
         ("before the filters", "raw-trace", &trace.raw, RAW_COLOUR),
         (
@@ -69,42 +173,152 @@ pub fn show(ui: &mut egui::Ui, view: &View, settings: &Settings, markers: &[(f64
         ),
     ] {
         let name = format!("ch{} {title}", ch + 1);
-        Plot::new(id)
+        let pts = column_points(cols, factor);
+        let fixed = (settings.fixed_range_uv > 0.0).then(|| {
+            let (lo, hi) = cols
+                .min
+                .iter()
+                .zip(&cols.max)
+                .fold((f32::MAX, f32::MIN), |(l, h), (&a, &b)| {
+                    (l.min(a), h.max(b))
+                });
+            let mid = if id == "filtered-trace" || lo > hi {
+                0.0
+            } else {
+                0.5 * f64::from(lo + hi)
+            };
+            let r = settings.fixed_range_uv;
+            ((mid - r) * factor, (mid + r) * factor)
+        });
+        let resp = Plot::new(id)
             .height(height)
             .legend(Legend::default())
-            .x_axis_label("time (s)")
+            .x_axis_label(if sweep {
+                "time in the sweep (s)"
+            } else {
+                "time (s)"
+            })
             .y_axis_label(unit)
             .link_axis(link, [true, false])
-            .allow_drag(false)
-            .allow_zoom(false)
-            .allow_scroll(false)
+            .link_cursor(link, [true, false])
+            .allow_drag(true)
+            .allow_zoom(true)
+            .allow_scroll(true)
             .allow_boxed_zoom(false)
+            .allow_double_click_reset(false)
             .show(ui, |pu| {
-                pu.set_plot_bounds_x(x_min..=x_max);
+                if state.follow {
+                    if sweep {
+                        pu.set_plot_bounds_x(0.0..=window);
+                    } else {
+                        pu.set_plot_bounds_x(x_min..=x_max);
+                    }
+                    match fixed {
+                        Some((lo, hi)) => pu.set_plot_bounds_y(lo..=hi),
+                        None => pu.set_auto_bounds([false, true]),
+                    }
+                }
                 if id == "filtered-trace" {
                     for &t in &beat_times {
-                        pu.vline(VLine::new("", t).color(BEAT_COLOUR).width(1.0));
+                        pu.vline(VLine::new("", place(t)).color(BEAT_COLOUR).width(1.0));
                     }
                 }
                 for (t, text) in markers.iter().filter(|(t, _)| *t >= x_min) {
                     pu.vline(
-                        VLine::new(text.as_str(), *t)
+                        VLine::new(text.as_str(), place(*t))
                             .color(MARKER_COLOUR)
                             .width(1.5),
                     );
                 }
-                pu.line(
-                    Line::new(name, PlotPoints::new(column_points(cols, factor)))
-                        .color(colour)
-                        .width(1.5),
-                );
+                if sweep {
+                    // The newest pass up to now, then the older one after a small gap.
+                    let x_now = snap.t_end_s.rem_euclid(window);
+                    let gap = 0.02 * window;
+                    let (mut new, mut old) = (Vec::new(), Vec::new());
+                    for p in &pts {
+                        let (x, newest) = sweep_x(p[0], snap.t_end_s, window);
+                        if newest {
+                            new.push([x, p[1]]);
+                        } else if x > x_now + gap {
+                            old.push([x, p[1]]);
+                        }
+                    }
+                    pu.line(
+                        Line::new(name.clone(), PlotPoints::new(new))
+                            .color(colour)
+                            .width(1.5),
+                    );
+                    pu.line(
+                        Line::new(name, PlotPoints::new(old))
+                            .color(colour)
+                            .width(1.5),
+                    );
+                    pu.vline(
+                        VLine::new("", x_now)
+                            .color(colour.gamma_multiply(0.5))
+                            .width(1.0),
+                    );
+                } else {
+                    pu.line(
+                        Line::new(name, PlotPoints::new(pts))
+                            .color(colour)
+                            .width(1.5),
+                    );
+                }
+                for (k, c) in state.cursors.iter().enumerate() {
+                    if let Some([t, v]) = c {
+                        let label = format!("cursor {}", k + 1);
+                        pu.vline(
+                            VLine::new(label.clone(), *t)
+                                .color(CURSOR_COLOUR)
+                                .width(1.0),
+                        );
+                        pu.hline(
+                            HLine::new(label, v * factor)
+                                .color(CURSOR_COLOUR)
+                                .width(1.0),
+                        );
+                    }
+                }
+                pu.pointer_coordinate()
             });
+        let r = &resp.response;
+        if r.clicked()
+            && let Some(p) = resp.inner
+        {
+            // The cursor's time is on the axis as drawn (sweep time in sweep mode).
+            state.place(p.x, p.y / factor);
+        }
+        let scrolled = r.hovered() && ui.input(|i| i.smooth_scroll_delta != egui::Vec2::ZERO);
+        if r.dragged() || scrolled {
+            state.follow = false;
+            events.left_live = true;
+        }
     }
+    events
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn cursor_deltas_give_the_rate_of_an_rr_interval() {
+        // Two R peaks 0.8 s apart are 75 per minute; the sign of Δt does not change the rate.
+        let (dt, dv, r) = cursor_deltas([1.0, 100.0], [1.8, 1300.0]);
+        assert!((dt - 0.8).abs() < 1e-12 && (dv - 1200.0).abs() < 1e-9);
+        assert!((r.unwrap() - 75.0).abs() < 1e-9);
+        let (_, _, r) = cursor_deltas([1.8, 0.0], [1.0, 0.0]);
+        assert!((r.unwrap() - 75.0).abs() < 1e-9);
+        assert!(cursor_deltas([1.0, 0.0], [1.0, 5.0]).2.is_none());
+    }
+
+    #[test]
+    fn sweep_maps_time_into_the_window_and_knows_the_newest_pass() {
+        // Window 10 s, now at 23 s: 21 s is in the newest pass at x = 1; 15 s is older, x = 5.
+        assert_eq!(sweep_x(21.0, 23.0, 10.0), (1.0, true));
+        assert_eq!(sweep_x(15.0, 23.0, 10.0), (5.0, false));
+    }
 
     #[test]
     fn each_column_contributes_its_extremes() {
