@@ -549,7 +549,13 @@ impl LeadlineApp {
             .as_ref()
             .map_or(self.settings.synth.fs_hz, |s| s.fs_hz);
 
-        egui::Panel::top("top-bar").show(ui, |ui| {
+        // Panels draw no background of their own: the window is cleared to the panel colour
+        // anyway, and with software OpenGL every full-window layer costs CPU at each frame.
+        let style = ui.style().clone();
+        let bare = |f: egui::Frame| f.fill(egui::Color32::TRANSPARENT);
+        egui::Panel::top("top-bar")
+            .frame(bare(egui::Frame::side_top_panel(&style)))
+            .show(ui, |ui| {
             ui.horizontal(|ui| {
                 ui.label(egui::RichText::new("leadline").strong().size(18.0));
                 ui.separator();
@@ -644,22 +650,25 @@ impl LeadlineApp {
             });
         });
 
-        egui::Panel::bottom("status-bar").show(ui, |ui| {
-            let rec = self.pipeline.recorder_status();
-            panels::status::show(
-                ui,
-                &self.view,
-                self.pipeline.label(),
-                self.paused,
-                rec.as_ref(),
-            );
-            if let Some(st) = self.pipeline.serial_status() {
-                panels::status::serial_line(ui, &st);
-            }
-            panels::caution::reminder(ui);
-        });
+        egui::Panel::bottom("status-bar")
+            .frame(bare(egui::Frame::side_top_panel(&style)))
+            .show(ui, |ui| {
+                let rec = self.pipeline.recorder_status();
+                panels::status::show(
+                    ui,
+                    &self.view,
+                    self.pipeline.label(),
+                    self.paused,
+                    rec.as_ref(),
+                );
+                if let Some(st) = self.pipeline.serial_status() {
+                    panels::status::serial_line(ui, &st);
+                }
+                panels::caution::reminder(ui);
+            });
 
         egui::Panel::left("controls")
+            .frame(bare(egui::Frame::side_top_panel(&style)))
             .default_size(300.0)
             .show(ui, |ui| {
                 egui::ScrollArea::vertical().show(ui, |ui| {
@@ -765,7 +774,9 @@ impl LeadlineApp {
             });
 
         self.response.update(&self.settings.chain, fs);
-        egui::CentralPanel::default_margins().show(ui, |ui| {
+        egui::CentralPanel::default_margins()
+            .frame(bare(egui::Frame::central_panel(&style)))
+            .show(ui, |ui| {
             let total = ui.available_height();
             let lower_h = if self.settings.lower == LowerView::Hidden {
                 0.0
@@ -848,6 +859,11 @@ impl eframe::App for LeadlineApp {
             }
         }
         self.exit_logic(ctx);
+    }
+
+    fn clear_color(&self, visuals: &egui::Visuals) -> [f32; 4] {
+        // The panels draw no fill of their own: the clear colour is their background.
+        visuals.panel_fill.to_normalized_gamma_f32()
     }
 
     fn on_exit(&mut self, _gl: Option<&eframe::glow::Context>) {

@@ -143,12 +143,18 @@ impl BenchRun {
         }
     }
 
-    /// Time left until the end (for the repaint timer), None once finished.
+    /// Time left until the next milestone, the end of the warm-up or of the run (for the repaint
+    /// timer); None once finished.
     pub fn remaining(&self) -> Option<Duration> {
         if self.report.is_some() {
             return None;
         }
-        let end = WARM_UP_S + self.seconds;
+        // Wake at the end of the warm-up too, so an idle (paused) window starts measuring.
+        let end = if self.measuring_since.is_none() {
+            WARM_UP_S
+        } else {
+            WARM_UP_S + self.seconds
+        };
         let left = end - self.started.elapsed().as_secs_f64();
         Some(Duration::from_secs_f64(left.max(0.0)))
     }
@@ -158,12 +164,12 @@ impl BenchRun {
         if self.report.is_some() {
             return true;
         }
-        if self.remaining().is_some_and(|d| !d.is_zero()) {
-            return false;
-        }
         let Some((t0, cpu0, rss0)) = self.measuring_since else {
             return false;
         };
+        if self.started.elapsed().as_secs_f64() < WARM_UP_S + self.seconds {
+            return false;
+        }
         let secs = t0.elapsed().as_secs_f64();
         let frames = self.frame_ms.len() as u64;
         let rss = rss_mb();
