@@ -343,6 +343,11 @@ impl Cascade {
             }
             return;
         }
+        // Recordings: two halves side by side (exact to rounding, see `halves`).
+        if super::halves::run(&self.design, &mut self.sections, x) {
+            self.last_input = last;
+            return;
+        }
         for (design, state) in self
             .design
             .chunks(LANES)

@@ -3,6 +3,7 @@
 
 pub mod chain;
 pub mod design;
+pub mod halves;
 pub mod response;
 pub mod spectrum;
 
