@@ -56,11 +56,11 @@ impl Lanes8 {
     /// A step where only lanes holding a real sample advance (the pipeline's fill and drain).
     fn step_masked(&mut self, t: usize, n: usize, x: [f64; 2], carry: &[f64; W]) -> [f64; W] {
         let mut out = *carry;
-        for half in 0..2 {
+        for (half, &x_in) in x.iter().enumerate() {
             for j in 0..GROUP {
                 let k = half * GROUP + j;
                 if t >= j && t - j < n {
-                    let inp = if j == 0 { x[half] } else { carry[k - 1] };
+                    let inp = if j == 0 { x_in } else { carry[k - 1] };
                     out[k] = self.lane(k, inp);
                 }
             }
