@@ -460,7 +460,6 @@ impl LeadlineApp {
             self.settings.chain.describe()
         );
         let raw = panels::trace::RAW_COLOUR;
-        let filt = panels::trace::FILTERED_COLOUR;
         trace_png(
             path,
             &[
@@ -472,7 +471,7 @@ impl LeadlineApp {
                 TraceLine {
                     label: "after the chain",
                     // The screen colour, darkened for a white page.
-                    rgb: (filt.r() / 2, filt.g() * 3 / 4, filt.b() * 3 / 4),
+                    rgb: (0, 126, 112),
                     columns: &t.filtered,
                 },
             ],
@@ -612,8 +611,10 @@ impl LeadlineApp {
                     self.pending.push(Control::Window(self.settings.window_s));
                 }
                 ui.separator();
-                ui.selectable_value(&mut self.settings.unit, TraceUnit::Millivolts, "mV");
-                ui.selectable_value(&mut self.settings.unit, TraceUnit::Microvolts, "µV");
+                ui.selectable_value(&mut self.settings.unit, TraceUnit::Millivolts, "mV")
+                    .on_hover_text("Trace axes in millivolts at the electrodes (input-referred).");
+                ui.selectable_value(&mut self.settings.unit, TraceUnit::Microvolts, "µV")
+                    .on_hover_text("Trace axes in microvolts at the electrodes (input-referred).");
                 let n = self
                     .view
                     .snapshot
@@ -717,10 +718,10 @@ impl LeadlineApp {
                     ui.horizontal(|ui| {
                         ui.add(
                             egui::TextEdit::singleline(&mut self.file_path)
-                                .hint_text("recording.csv / .hea / .f32")
+                                .hint_text("recording.edf / .csv / .hea")
                                 .desired_width(170.0),
                         )
-                        .on_hover_text("A recording to replay: our CSV, a scope CSV with a time column, raw .f32/.f64 or a WFDB .hea.");
+                        .on_hover_text("A recording to replay: EDF/EDF+/BDF, our CSV, a scope CSV with a time column, raw .f32/.f64 or a WFDB .hea.");
                         if ui.add_enabled(!self.file_path.is_empty(), egui::Button::new("Replay")).clicked() {
                             self.settings.file = Some(crate::source::replay::ReplaySpec {
                                 path: self.file_path.clone().into(),
@@ -802,7 +803,8 @@ impl LeadlineApp {
                     );
                 ui.selectable_value(&mut self.settings.lower, LowerView::Parts, "Parts")
                     .on_hover_text("The chain built from standard parts: resistors from an E series, your capacitors, the tolerance spread.");
-                ui.selectable_value(&mut self.settings.lower, LowerView::Hidden, "Traces only");
+                ui.selectable_value(&mut self.settings.lower, LowerView::Hidden, "Traces only")
+                    .on_hover_text("Hide the lower strip: the traces take the whole height.");
             });
             match self.settings.lower {
                 LowerView::Response => {

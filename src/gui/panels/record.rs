@@ -119,8 +119,8 @@ pub fn top_bar(
         }
     }
     let m = ui
-        .add_enabled(recording, egui::Button::new("Marker"))
-        .on_hover_text("Drop an event marker at the latest sample (key M): it goes into the file as an annotation and onto the trace.");
+        .button("Marker")
+        .on_hover_text("Drop an event marker at the latest sample (key M): onto the trace, and into the file as an annotation while recording.");
     if m.clicked() {
         action = Some(RecordAction::Marker(panel.next_marker()));
     }
