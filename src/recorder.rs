@@ -154,6 +154,10 @@ struct Active {
     markers: u64,
     /// Markers that arrived before the first block.
     early: Vec<String>,
+    /// The stream's index of the frame expected next (to notice frames lost on the wire).
+    next_sample: Option<u64>,
+    /// The rate the file's times count in (the stream's, or the whole rate EDF stores).
+    time_fs: f64,
 }
 
 fn io(path: &Path) -> impl Fn(std::io::Error) -> StoreError + '_ {
@@ -164,6 +168,7 @@ impl Active {
     fn open(&mut self, b: &RecordBlock) -> Result<(), StoreError> {
         let path = self.req.path.clone();
         self.fs_hz = b.fs_hz;
+        self.time_fs = b.fs_hz;
         self.channels = b.channels;
         let labels: Vec<String> = (1..=b.channels).map(|k| format!("ch{k}")).collect();
         let sink = match self.format {
@@ -182,10 +187,30 @@ impl Active {
                     } else {
                         1.0
                     };
-                let mut spec = EdfSpec::new(kind, b.fs_hz, labels, (-half, half));
+                // A rate estimated from arrival times (498.73 Hz) has no whole number of samples
+                // per record: store the nearest whole rate and say so in the file.
+                let fits = crate::store::edf::rate_fits(b.fs_hz, b.channels, kind);
+                let stored = if fits {
+                    b.fs_hz
+                } else {
+                    b.fs_hz.round().max(1.0)
+                };
+                let mut spec = EdfSpec::new(kind, stored, labels, (-half, half));
                 spec.prefilter = self.req.prefilter.clone();
                 spec.durable = true;
-                Sink::Edf(EdfWriter::create(&path, &spec)?)
+                let mut w = EdfWriter::create(&path, &spec)?;
+                self.time_fs = stored;
+                if !fits {
+                    w.annotate(
+                        0.0,
+                        None,
+                        &format!(
+                            "sample rate {:.4} Hz (estimated) stored as {stored} Hz",
+                            b.fs_hz
+                        ),
+                    );
+                }
+                Sink::Edf(w)
             }
             RecordFormat::Csv => {
                 let f = File::create(&path).map_err(io(&path))?;
@@ -226,19 +251,19 @@ impl Active {
     }
 
     fn now_s(&self) -> f64 {
-        if self.fs_hz > 0.0 {
-            self.frames as f64 / self.fs_hz
+        if self.time_fs > 0.0 {
+            self.frames as f64 / self.time_fs
         } else {
             0.0
         }
     }
 
     fn marker(&mut self, text: &str) {
+        let t = self.now_s();
         let Some(sink) = self.sink.as_mut() else {
             self.early.push(text.to_string());
             return;
         };
-        let t = self.frames as f64 / self.fs_hz;
         self.markers += 1;
         match sink {
             Sink::Edf(w) => w.annotate(t, None, text),
@@ -267,6 +292,13 @@ impl Active {
         }
         let now = self.now_s();
         let path = self.req.path.clone();
+        let lost = self
+            .next_sample
+            .map_or(0, |n| b.first_sample.saturating_sub(n));
+        self.next_sample = Some(b.first_sample + b.frames_count());
+        let lost_note = (lost > 0).then(|| {
+            format!("{lost} frames lost on the link here (the file runs on without them)")
+        });
         let values: &[f64] = match self.req.values {
             RecordValues::Raw => &b.raw_uv,
             RecordValues::Filtered => &b.filtered_uv,
@@ -280,6 +312,9 @@ impl Active {
             Sink::Edf(w) => {
                 if b.gap_before {
                     w.annotate(now, None, GAP);
+                }
+                if let Some(n) = &lost_note {
+                    w.annotate(now, None, n);
                 }
                 if self.req.values == RecordValues::Received {
                     return Err(StoreError::malformed(
@@ -295,11 +330,14 @@ impl Active {
                 line,
                 last_flush,
             } => {
-                if b.gap_before {
+                for text in [b.gap_before.then(|| GAP.to_string()), lost_note.clone()]
+                    .into_iter()
+                    .flatten()
+                {
                     line.push_str(&event_line(&Event {
                         onset_s: now,
                         duration_s: None,
-                        text: GAP.into(),
+                        text,
                     }));
                 }
                 let k = if self.req.values == RecordValues::Received {
@@ -502,6 +540,8 @@ pub fn run(
                                     channels: 0,
                                     markers: 0,
                                     early: Vec::new(),
+                                    next_sample: None,
+                                    time_fs: 0.0,
                                 });
                                 set(&|s| {
                                     *s = RecorderStatus {
@@ -550,5 +590,80 @@ impl RecordBlock {
     /// Frames in the block.
     pub fn frames_count(&self) -> u64 {
         (self.raw_uv.len() / self.channels.max(1)) as u64
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crossbeam_channel::unbounded;
+
+    fn block(first: u64, n: usize, fs: f64) -> RecordBlock {
+        let v: Vec<f64> = (0..n).map(|i| ((first as usize + i) % 50) as f64).collect();
+        RecordBlock {
+            first_sample: first,
+            fs_hz: fs,
+            channels: 1,
+            raw_uv: v.clone(),
+            filtered_uv: v.clone(),
+            received: v,
+            gap_before: false,
+            range_uv: Some((-3300.0, 3300.0)),
+        }
+    }
+
+    /// Runs the recorder over `blocks` into `path` and returns the final status.
+    fn record(path: &Path, blocks: Vec<RecordBlock>) -> RecorderStatus {
+        let (btx, brx) = unbounded();
+        let (ctx, crx) = unbounded();
+        let status: StatusHandle = Default::default();
+        let stop = AtomicBool::new(false);
+        std::thread::scope(|s| {
+            s.spawn(|| run(brx, crx, &stop, Arc::clone(&status)));
+            ctx.send(RecorderCommand::Start(RecordRequest::new(path)))
+                .unwrap();
+            std::thread::sleep(Duration::from_millis(50));
+            for b in blocks {
+                btx.send(b).unwrap();
+            }
+            std::thread::sleep(Duration::from_millis(100));
+            ctx.send(RecorderCommand::Stop).unwrap();
+            let t = Instant::now();
+            while status.lock().unwrap().active.is_some() && t.elapsed() < Duration::from_secs(5) {
+                std::thread::sleep(Duration::from_millis(10));
+            }
+            stop.store(true, Ordering::Relaxed);
+        });
+        status.lock().unwrap().clone()
+    }
+
+    #[test]
+    fn an_estimated_rate_is_stored_whole_and_lost_frames_are_noted() {
+        let path = std::env::temp_dir().join(format!("leadline-rec-{}.edf", std::process::id()));
+        let fs = 498.734;
+        // 600 frames, then 20 lost on the link, then 400 more.
+        let st = record(&path, vec![block(0, 600, fs), block(620, 400, fs)]);
+        assert!(!st.failed, "{}", st.message);
+        assert_eq!(st.frames, 1000);
+        let rec = crate::store::edf::read(&path).unwrap();
+        assert_eq!(rec.fs_hz, 499.0);
+        assert_eq!(rec.len(), 1000);
+        let texts: Vec<&str> = rec.events.iter().map(|e| e.text.as_str()).collect();
+        assert!(
+            texts
+                .iter()
+                .any(|t| t.contains("498.7340 Hz (estimated) stored as 499 Hz")),
+            "{texts:?}"
+        );
+        let lost = rec
+            .events
+            .iter()
+            .find(|e| e.text.starts_with("20 frames lost"))
+            .unwrap();
+        assert!(
+            (lost.onset_s - 600.0 / 499.0).abs() < 1e-6,
+            "{}",
+            lost.onset_s
+        );
     }
 }

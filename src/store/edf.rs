@@ -178,6 +178,11 @@ fn record_layout(fs_hz: f64, channels: usize, kind: EdfKind) -> Option<(String, 
     first_fit
 }
 
+/// True when EDF/BDF can store `fs_hz` exactly (some record duration holds whole samples).
+pub fn rate_fits(fs_hz: f64, channels: usize, kind: EdfKind) -> bool {
+    fs_hz.is_finite() && fs_hz > 0.0 && record_layout(fs_hz, channels.max(1), kind).is_some()
+}
+
 /// Days since 1970-01-01 → (year, month 1–12, day 1–31), proleptic Gregorian.
 fn civil_from_days(z: i64) -> (i64, u32, u32) {
     let z = z + 719_468;
