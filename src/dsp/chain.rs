@@ -103,20 +103,14 @@ impl Default for ChainSettings {
 }
 
 impl ChainSettings {
-    /// The chain in the EDF prefiltering style ("HP:0.5Hz LP:40Hz N:50Hz"), with orders and Q;
-    /// "none" when every stage is bypassed.
+    /// The chain in processing order, in the style of EDF's prefiltering field
+    /// ("HP:0.5Hz(o2) N:50Hz(Q30) LP:40Hz(o4)"); "none" when every stage is bypassed.
     pub fn describe(&self) -> String {
         let mut parts = Vec::new();
         if self.highpass.enabled {
             parts.push(format!(
                 "HP:{}Hz(o{})",
                 self.highpass.corner_hz, self.highpass.order
-            ));
-        }
-        if self.lowpass.enabled {
-            parts.push(format!(
-                "LP:{}Hz(o{})",
-                self.lowpass.corner_hz, self.lowpass.order
             ));
         }
         if self.notch.enabled {
@@ -129,6 +123,12 @@ impl ChainSettings {
                 } else {
                     String::new()
                 }
+            ));
+        }
+        if self.lowpass.enabled {
+            parts.push(format!(
+                "LP:{}Hz(o{})",
+                self.lowpass.corner_hz, self.lowpass.order
             ));
         }
         if self.gain != 1.0 {
@@ -530,6 +530,20 @@ pub fn zero_phase(sections: &[Section], x: &[f64]) -> Result<Vec<f64>, TooShort>
 
 #[cfg(test)]
 mod tests {
+    #[test]
+    fn the_description_lists_the_stages_in_processing_order() {
+        let mut c = ChainSettings::default();
+        assert_eq!(c.describe(), "HP:0.5Hz(o2) N:50Hz(Q30) LP:40Hz(o4)");
+        c.notch.harmonics = 2;
+        c.gain = 2.0;
+        c.lowpass.enabled = false;
+        assert_eq!(c.describe(), "HP:0.5Hz(o2) N:50Hz(Q30+2h) G:2");
+        c.highpass.enabled = false;
+        c.notch.enabled = false;
+        c.gain = 1.0;
+        assert_eq!(c.describe(), "none");
+    }
+
     use super::*;
 
     #[test]

@@ -288,7 +288,7 @@ pub fn worst_case_gains(sections: &[Section]) -> Vec<f64> {
 #[derive(Debug, Clone, PartialEq)]
 pub struct HeaderInfo {
     pub fs_hz: f64,
-    /// Human description of the chain, e.g. "HP:0.5Hz(o2) LP:40Hz(o4) N:50Hz(Q30)".
+    /// Human description of the chain, e.g. "HP:0.5Hz(o2) N:50Hz(Q30) LP:40Hz(o4)".
     pub chain: String,
     pub prefix: String,
     pub format: CFormat,
@@ -462,38 +462,7 @@ pub fn header(sections: &[Section], info: &HeaderInfo) -> Result<String, ExportE
             }
             let _ = writeln!(h, "}};");
             let _ = writeln!(h);
-            let _ = writeln!(h, "typedef struct {{");
-            let _ = writeln!(h, "    float ic1[{up}_SECTIONS];");
-            let _ = writeln!(h, "    float ic2[{up}_SECTIONS];");
-            let _ = writeln!(h, "}} {p}_state;");
-            let _ = writeln!(h);
-            let _ = writeln!(h, "static void {p}_init({p}_state *s)");
-            let _ = writeln!(h, "{{");
-            let _ = writeln!(h, "    int i;");
-            let _ = writeln!(h, "    for (i = 0; i < {up}_SECTIONS; i++) {{");
-            let _ = writeln!(h, "        s->ic1[i] = 0.0f;");
-            let _ = writeln!(h, "        s->ic2[i] = 0.0f;");
-            let _ = writeln!(h, "    }}");
-            let _ = writeln!(h, "}}");
-            let _ = writeln!(h);
-            let _ = writeln!(h, "static float {p}_process({p}_state *s, float x)");
-            let _ = writeln!(h, "{{");
-            let _ = writeln!(h, "    int i;");
-            let _ = writeln!(h, "    float v = x;");
-            let _ = writeln!(h, "    for (i = 0; i < {up}_SECTIONS; i++) {{");
-            let _ = writeln!(h, "        const float *c = {p}_coef[i];");
-            let _ = writeln!(h, "        float v3 = v - s->ic2[i];");
-            let _ = writeln!(h, "        float v1 = c[0] * s->ic1[i] + c[1] * v3;");
-            let _ = writeln!(
-                h,
-                "        float v2 = s->ic2[i] + c[1] * s->ic1[i] + c[2] * v3;"
-            );
-            let _ = writeln!(h, "        s->ic1[i] = 2.0f * v1 - s->ic1[i];");
-            let _ = writeln!(h, "        s->ic2[i] = 2.0f * v2 - s->ic2[i];");
-            let _ = writeln!(h, "        v = c[3] * v + c[4] * v1 + c[5] * v2;");
-            let _ = writeln!(h, "    }}");
-            let _ = writeln!(h, "    return v;");
-            let _ = writeln!(h, "}}");
+            h.push_str(&template(F32_CODE, p, &up));
         }
         CFormat::Q15 | CFormat::Q31 => {
             let m = FixedModel::new(sections)?;
@@ -508,83 +477,133 @@ pub fn header(sections: &[Section], info: &HeaderInfo) -> Result<String, ExportE
             }
             let _ = writeln!(h, "}};");
             let _ = writeln!(h);
-            let _ = writeln!(h, "typedef struct {{");
-            let _ = writeln!(h, "    int32_t x1[{up}_SECTIONS], x2[{up}_SECTIONS];");
-            let _ = writeln!(h, "    int32_t y1[{up}_SECTIONS], y2[{up}_SECTIONS];");
-            let _ = writeln!(h, "    int64_t err[{up}_SECTIONS];");
-            let _ = writeln!(h, "    uint32_t saturations;");
-            let _ = writeln!(h, "}} {p}_state;");
-            let _ = writeln!(h);
-            let _ = writeln!(h, "static void {p}_init({p}_state *s)");
-            let _ = writeln!(h, "{{");
-            let _ = writeln!(h, "    int i;");
-            let _ = writeln!(h, "    for (i = 0; i < {up}_SECTIONS; i++) {{");
-            let _ = writeln!(h, "        s->x1[i] = s->x2[i] = s->y1[i] = s->y2[i] = 0;");
-            let _ = writeln!(h, "        s->err[i] = 0;");
-            let _ = writeln!(h, "    }}");
-            let _ = writeln!(h, "    s->saturations = 0u;");
-            let _ = writeln!(h, "}}");
-            let _ = writeln!(h);
-            let _ = writeln!(h, "/* One Q1.31 sample through every section. */");
-            let _ = writeln!(h, "static int32_t {p}_run_q31({p}_state *s, int32_t x)");
-            let _ = writeln!(h, "{{");
-            let _ = writeln!(h, "    int i;");
-            let _ = writeln!(h, "    int32_t v = x;");
-            let _ = writeln!(h, "    for (i = 0; i < {up}_SECTIONS; i++) {{");
-            let _ = writeln!(h, "        const int32_t *c = {p}_coef[i];");
-            let _ = writeln!(h, "        uint64_t acc = (uint64_t)s->err[i];");
-            let _ = writeln!(h, "        int64_t y;");
-            let _ = writeln!(h, "        int64_t rem;");
-            let _ = writeln!(h, "        acc += (uint64_t)((int64_t)c[0] * v);");
-            let _ = writeln!(h, "        acc += (uint64_t)((int64_t)c[1] * s->x1[i]);");
-            let _ = writeln!(h, "        acc += (uint64_t)((int64_t)c[2] * s->x2[i]);");
-            let _ = writeln!(h, "        acc -= (uint64_t)((int64_t)c[3] * s->y1[i]);");
-            let _ = writeln!(h, "        acc -= (uint64_t)((int64_t)c[4] * s->y2[i]);");
-            let _ = writeln!(h, "        y = (int64_t)acc >> 30;");
-            let _ = writeln!(h, "        rem = (int64_t)(acc & 0x3FFFFFFFu);");
-            let _ = writeln!(h, "        if (y > INT32_MAX) {{");
-            let _ = writeln!(h, "            y = INT32_MAX;");
-            let _ = writeln!(h, "            rem = 0;");
-            let _ = writeln!(h, "            s->saturations++;");
-            let _ = writeln!(h, "        }} else if (y < INT32_MIN) {{");
-            let _ = writeln!(h, "            y = INT32_MIN;");
-            let _ = writeln!(h, "            rem = 0;");
-            let _ = writeln!(h, "            s->saturations++;");
-            let _ = writeln!(h, "        }}");
-            let _ = writeln!(h, "        s->err[i] = rem;");
-            let _ = writeln!(h, "        s->x2[i] = s->x1[i];");
-            let _ = writeln!(h, "        s->x1[i] = v;");
-            let _ = writeln!(h, "        s->y2[i] = s->y1[i];");
-            let _ = writeln!(h, "        s->y1[i] = (int32_t)y;");
-            let _ = writeln!(h, "        v = (int32_t)y;");
-            let _ = writeln!(h, "    }}");
-            let _ = writeln!(h, "    return v;");
-            let _ = writeln!(h, "}}");
-            let _ = writeln!(h);
-            if info.format == CFormat::Q15 {
-                let _ = writeln!(h, "static int16_t {p}_process({p}_state *s, int16_t x)");
-                let _ = writeln!(h, "{{");
-                let _ = writeln!(
-                    h,
-                    "    int64_t y = (int64_t){p}_run_q31(s, (int32_t)x * 65536);"
-                );
-                let _ = writeln!(h, "    y = (y + 32768) >> 16;");
-                let _ = writeln!(h, "    if (y > INT16_MAX) y = INT16_MAX;");
-                let _ = writeln!(h, "    if (y < INT16_MIN) y = INT16_MIN;");
-                let _ = writeln!(h, "    return (int16_t)y;");
-                let _ = writeln!(h, "}}");
-            } else {
-                let _ = writeln!(h, "static int32_t {p}_process({p}_state *s, int32_t x)");
-                let _ = writeln!(h, "{{");
-                let _ = writeln!(h, "    return {p}_run_q31(s, x);");
-                let _ = writeln!(h, "}}");
-            }
+            h.push_str(&template(FIXED_CODE, p, &up));
+            h.push_str(&template(
+                if info.format == CFormat::Q15 {
+                    Q15_ENTRY
+                } else {
+                    Q31_ENTRY
+                },
+                p,
+                &up,
+            ));
         }
     }
     let _ = writeln!(h);
     let _ = writeln!(h, "#endif /* {up}_FILTERS_H */");
     Ok(h)
 }
+
+/// The C text with `@p@` and `@UP@` replaced by the prefix and its upper case.
+fn template(code: &str, p: &str, up: &str) -> String {
+    code.replace("@UP@", up).replace("@p@", p)
+}
+
+/// State, init and per-sample function of the float32 state-variable sections.
+const F32_CODE: &str = r"typedef struct {
+    float ic1[@UP@_SECTIONS];
+    float ic2[@UP@_SECTIONS];
+} @p@_state;
+
+static void @p@_init(@p@_state *s)
+{
+    int i;
+    for (i = 0; i < @UP@_SECTIONS; i++) {
+        s->ic1[i] = 0.0f;
+        s->ic2[i] = 0.0f;
+    }
+}
+
+static float @p@_process(@p@_state *s, float x)
+{
+    int i;
+    float v = x;
+    for (i = 0; i < @UP@_SECTIONS; i++) {
+        const float *c = @p@_coef[i];
+        float v3 = v - s->ic2[i];
+        float v1 = c[0] * s->ic1[i] + c[1] * v3;
+        float v2 = s->ic2[i] + c[1] * s->ic1[i] + c[2] * v3;
+        s->ic1[i] = 2.0f * v1 - s->ic1[i];
+        s->ic2[i] = 2.0f * v2 - s->ic2[i];
+        v = c[3] * v + c[4] * v1 + c[5] * v2;
+    }
+    return v;
+}
+";
+
+/// State, init and the Q1.31 section loop of the fixed-point formats (see [`FixedModel`]).
+const FIXED_CODE: &str = r"typedef struct {
+    int32_t x1[@UP@_SECTIONS], x2[@UP@_SECTIONS];
+    int32_t y1[@UP@_SECTIONS], y2[@UP@_SECTIONS];
+    int64_t err[@UP@_SECTIONS];
+    uint32_t saturations;
+} @p@_state;
+
+static void @p@_init(@p@_state *s)
+{
+    int i;
+    for (i = 0; i < @UP@_SECTIONS; i++) {
+        s->x1[i] = s->x2[i] = s->y1[i] = s->y2[i] = 0;
+        s->err[i] = 0;
+    }
+    s->saturations = 0u;
+}
+
+/* One Q1.31 sample through every section. */
+static int32_t @p@_run_q31(@p@_state *s, int32_t x)
+{
+    int i;
+    int32_t v = x;
+    for (i = 0; i < @UP@_SECTIONS; i++) {
+        const int32_t *c = @p@_coef[i];
+        uint64_t acc = (uint64_t)s->err[i];
+        int64_t y;
+        int64_t rem;
+        acc += (uint64_t)((int64_t)c[0] * v);
+        acc += (uint64_t)((int64_t)c[1] * s->x1[i]);
+        acc += (uint64_t)((int64_t)c[2] * s->x2[i]);
+        acc -= (uint64_t)((int64_t)c[3] * s->y1[i]);
+        acc -= (uint64_t)((int64_t)c[4] * s->y2[i]);
+        y = (int64_t)acc >> 30;
+        rem = (int64_t)(acc & 0x3FFFFFFFu);
+        if (y > INT32_MAX) {
+            y = INT32_MAX;
+            rem = 0;
+            s->saturations++;
+        } else if (y < INT32_MIN) {
+            y = INT32_MIN;
+            rem = 0;
+            s->saturations++;
+        }
+        s->err[i] = rem;
+        s->x2[i] = s->x1[i];
+        s->x1[i] = v;
+        s->y2[i] = s->y1[i];
+        s->y1[i] = (int32_t)y;
+        v = (int32_t)y;
+    }
+    return v;
+}
+
+";
+
+/// The per-sample function for Q15 samples.
+const Q15_ENTRY: &str = r"static int16_t @p@_process(@p@_state *s, int16_t x)
+{
+    int64_t y = (int64_t)@p@_run_q31(s, (int32_t)x * 65536);
+    y = (y + 32768) >> 16;
+    if (y > INT16_MAX) y = INT16_MAX;
+    if (y < INT16_MIN) y = INT16_MIN;
+    return (int16_t)y;
+}
+";
+
+/// The per-sample function for Q31 samples.
+const Q31_ENTRY: &str = r"static int32_t @p@_process(@p@_state *s, int32_t x)
+{
+    return @p@_run_q31(s, x);
+}
+";
 
 /// An int32 literal that is valid C even for INT32_MIN.
 fn c_int32(v: i32) -> String {
