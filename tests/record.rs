@@ -406,3 +406,36 @@ fn record_writes_each_format_its_extension_names() {
         assert!(peak > 300.0 && peak < 3000.0, "{ext}: peak {peak} µV");
     }
 }
+
+#[test]
+fn record_takes_its_source_and_chain_from_a_setup() {
+    let setup = tmp("bench-setup.toml");
+    std::fs::write(
+        &setup,
+        "[synth]\nfs_hz = 250.0\nchannels = 2\n\n[chain.lowpass]\nenabled = true\ncorner_hz = 30.0\norder = 2\n",
+    )
+    .unwrap();
+    let path = tmp("from-setup.edf");
+    let out = leadline()
+        .args(["record", "--seconds", "1.5", "--filtered", "--config"])
+        .arg(&setup)
+        .arg("--out")
+        .arg(&path)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let rec = store::read(&path, &ReadOptions::default()).unwrap();
+    assert_eq!(rec.fs_hz, 250.0);
+    assert_eq!(rec.channels.len(), 2);
+    // The header's prefiltering field names the setup's chain: per-signal fields come one field
+    // for all signals at a time (EDF spec), 3 signals here (2 channels + annotations).
+    let bytes = std::fs::read(&path).unwrap();
+    let ns = 3;
+    let at = 256 + ns * (16 + 80 + 8 * 5);
+    let prefilter = String::from_utf8_lossy(&bytes[at..at + 80]).to_string();
+    assert!(prefilter.contains("LP:30Hz(o2)"), "{prefilter}");
+}

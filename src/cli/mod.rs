@@ -144,9 +144,14 @@ pub struct PartsArgs {
 /// Options of `leadline record`.
 #[derive(Debug, Clone, Args)]
 pub struct RecordArgs {
-    /// Source: synth or serial:PATH[@BAUD][:ascii|:binary].
+    /// Source: synth, serial:PATH[@BAUD][:ascii|:binary] or file:PATH (default: the --config
+    /// setup's source, else the simulator).
     #[arg(long, value_name = "SPEC")]
-    pub source: String,
+    pub source: Option<String>,
+    /// Take the source, scaling, simulator and chain from this setup (TOML); --source and any
+    /// filter flag given on the command line win.
+    #[arg(long, value_name = "FILE")]
+    pub config: Option<PathBuf>,
     /// How long to record, s (the command exits after this even if nothing arrived).
     #[arg(long, value_name = "S")]
     pub seconds: f64,

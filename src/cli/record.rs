@@ -48,9 +48,29 @@ pub fn run(a: &RecordArgs) -> Result<()> {
         )
         .into());
     }
-    let spec = SourceSpec::parse(&a.source, a.fs, InputScale::default())
-        .map_err(|e| BadInput(e.to_string()))?;
-    let chain = a.chain.settings();
+    let setup = match &a.config {
+        Some(path) => {
+            let l = crate::setup::Setup::load(path).map_err(|e| BadInput(e.to_string()))?;
+            for w in &l.warnings {
+                eprintln!("leadline: {}: {w}", path.display());
+            }
+            Some(l.setup)
+        }
+        None => None,
+    };
+    let scale = setup.as_ref().map_or_else(InputScale::default, |s| s.scale);
+    let spec = match (&a.source, &setup) {
+        (Some(text), _) => SourceSpec::parse(text, a.fs, scale).map_err(|e| e.to_string()),
+        (None, Some(s)) => s.source_spec(),
+        (None, None) => SourceSpec::parse("synth", a.fs, scale).map_err(|e| e.to_string()),
+    }
+    .map_err(BadInput)?;
+    let flags_given =
+        a.chain.highpass.is_some() || a.chain.notch.is_some() || a.chain.lowpass.is_some();
+    let chain = match &setup {
+        Some(s) if !flags_given => s.chain,
+        _ => a.chain.settings(),
+    };
     let pipeline = Pipeline::start(
         PipelineConfig {
             source: spec,
@@ -102,7 +122,7 @@ pub fn run(a: &RecordArgs) -> Result<()> {
         let why = serial.map(|s| s.message).unwrap_or_default();
         eprintln!(
             "no samples arrived from {} in {} s{}",
-            a.source,
+            a.source.as_deref().unwrap_or("the setup's source"),
             a.seconds,
             if why.is_empty() {
                 String::new()
