@@ -34,6 +34,30 @@ pub struct SpectrumView {
     pub segment: usize,
     /// The held "before" estimate.
     pub before: Option<Arc<SpectrumFrame>>,
+    /// The chain's gain at the estimate's bins, reduced for drawing: computed once per estimate
+    /// and chain, not at every frame.
+    gain_cache: Option<GainCache>,
+    /// The estimate's curves, reduced for drawing, per estimate.
+    curve_cache: Option<CurveCache>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+struct CurveCache {
+    serial: u64,
+    log: bool,
+    columns: usize,
+    raw: Vec<[f64; 2]>,
+    filtered: Vec<[f64; 2]>,
+}
+
+#[derive(Debug, Clone, PartialEq)]
+struct GainCache {
+    serial: u64,
+    log: bool,
+    top_db: f64,
+    columns: usize,
+    sections: Vec<crate::dsp::Section>,
+    points: Vec<[f64; 2]>,
 }
 
 impl Default for SpectrumView {
@@ -43,6 +67,8 @@ impl Default for SpectrumView {
             show_filtered: true,
             segment: 0,
             before: None,
+            gain_cache: None,
+            curve_cache: None,
         }
     }
 }
@@ -168,7 +194,24 @@ pub fn show(
             .collect();
         decimate(&pts, columns)
     };
-    let raw = curve(&frame.raw);
+    if view
+        .curve_cache
+        .as_ref()
+        .is_none_or(|c| c.serial != frame.serial || c.log != log || c.columns != columns)
+    {
+        view.curve_cache = Some(CurveCache {
+            serial: frame.serial,
+            log,
+            columns,
+            raw: curve(&frame.raw),
+            filtered: curve(&frame.filtered),
+        });
+    }
+    let (raw, filtered) = view
+        .curve_cache
+        .as_ref()
+        .map(|c| (c.raw.clone(), c.filtered.clone()))
+        .unwrap_or_default();
     let top = raw.iter().map(|p| p[1]).fold(FLOOR_DB, f64::max).ceil();
     let mut plot = Plot::new("spectrum")
         .height((ui.available_height() - 4.0).max(100.0))
@@ -245,26 +288,48 @@ pub fn show(
         );
         if view.show_filtered {
             pu.line(
-                Line::new("after the filters", PlotPoints::new(curve(&frame.filtered)))
+                Line::new("after the filters", PlotPoints::new(filtered))
                     .color(FILTERED_COLOUR)
                     .width(1.5),
             );
         }
         if let Some(sections) = sections {
-            let gain: Vec<[f64; 2]> = frame
-                .raw
-                .freqs_hz
-                .iter()
-                .skip(1)
-                .map(|&f| {
-                    [
-                        xf(f),
-                        (20.0 * response::magnitude(sections, f, frame.fs_hz).log10())
-                            .max(FLOOR_DB - top)
-                            + top,
-                    ]
-                })
-                .collect();
+            let fresh = view.gain_cache.as_ref().is_none_or(|c| {
+                c.serial != frame.serial
+                    || c.log != log
+                    || c.top_db != top
+                    || c.columns != columns
+                    || c.sections.as_slice() != sections
+            });
+            if fresh {
+                let pts: Vec<[f64; 2]> = frame
+                    .raw
+                    .freqs_hz
+                    .iter()
+                    .skip(1)
+                    .map(|&f| {
+                        [
+                            xf(f),
+                            (20.0 * response::magnitude(sections, f, frame.fs_hz).log10())
+                                .max(FLOOR_DB - top)
+                                + top,
+                        ]
+                    })
+                    .collect();
+                view.gain_cache = Some(GainCache {
+                    serial: frame.serial,
+                    log,
+                    top_db: top,
+                    columns,
+                    sections: sections.to_vec(),
+                    points: decimate(&pts, columns),
+                });
+            }
+            let gain = view
+                .gain_cache
+                .as_ref()
+                .map(|c| c.points.clone())
+                .unwrap_or_default();
             pu.line(
                 Line::new("chain gain", PlotPoints::new(gain))
                     .color(GAIN_COLOUR)
