@@ -15,7 +15,7 @@ import numpy as np
 
 ROOT = Path(__file__).resolve().parent.parent
 EXE = ROOT / "target" / "release" / "leadline"
-RECORD = ROOT.parent / "shared" / "data" / "mitdb" / "100"
+RECORD = ROOT / "tests" / "data" / "mitdb" / "100"
 
 
 def main():

@@ -8,15 +8,19 @@ use crate::analysis::rate::{Hrv, RateState};
 use crate::analysis::template::Template;
 use crate::dsp::chain::ChainSettings;
 use crate::dsp::spectrum::Psd;
-use crate::scale::InputScale;
+use crate::scale::{FrontEnd, InputScale};
 use crate::source::SynthSettings;
 
 /// What the numbers in a [`RawBlock`] are.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum SampleUnit {
-    /// ADC counts, converted with this scale.
+    /// ADC counts as the source sent them. The scale is the source's own (the simulator's board,
+    /// or the one the source was started with); a front end set by the user replaces it.
     Counts(InputScale),
-    /// Already input-referred microvolts.
+    /// Decimal numbers as the source sent them, with the source's µV per unit (1000 for mV); a
+    /// front end set by the user replaces it.
+    Decimal(f64),
+    /// Already input-referred microvolts (recordings): no front end applies.
     Microvolts,
 }
 
@@ -165,8 +169,10 @@ pub struct Snapshot {
     pub chain: ChainSettings,
     /// Why the last requested chain was refused, if it was.
     pub chain_error: Option<String>,
-    /// Input scale in force (None for sources that deliver µV).
+    /// Input scale in force on the followed channel (None for sources that deliver µV).
     pub scale: Option<InputScale>,
+    /// The scaling looks wrong: "check the front-end scaling: …" with the figure.
+    pub scale_check: Option<String>,
     /// Counters.
     pub stats: Stats,
     /// The source has ended (a finite run or a file).
@@ -201,4 +207,7 @@ pub enum Control {
     SpectrumSegment(usize),
     /// Most snapshots per second (the display rate), 1–120.
     DisplayRate(f64),
+    /// The front end per channel (one entry: every channel), applied from the next block without
+    /// reconnecting; None goes back to the source's own scaling.
+    FrontEnd(Option<Vec<FrontEnd>>),
 }

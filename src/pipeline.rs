@@ -50,6 +50,8 @@ pub struct PipelineConfig {
     pub window_s: f64,
     /// Most snapshots per second (the display rate).
     pub display_hz: f64,
+    /// The user's front end per channel; None uses the source's own scaling.
+    pub front_end: Option<Vec<crate::scale::FrontEnd>>,
     /// Real time or as fast as possible.
     pub pacing: Pacing,
     /// Stop the source after this many seconds of signal (None: run until stopped).
@@ -68,6 +70,7 @@ impl Default for PipelineConfig {
             chain: ChainSettings::default(),
             window_s: 10.0,
             display_hz: 30.0,
+            front_end: None,
             pacing: Pacing::RealTime,
             limit_s: None,
             record: false,
@@ -177,6 +180,7 @@ impl Pipeline {
             chain: cfg.chain,
             window_s: cfg.window_s,
             display_hz: cfg.display_hz,
+            front_end: cfg.front_end,
         };
         let ports = DspPorts {
             raw_rx,

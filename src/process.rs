@@ -19,7 +19,7 @@ use crate::msg::{
     BeatView, ChannelTrace, Columns, Control, RawBlock, RecordBlock, SampleUnit, Snapshot,
     SpectrumFrame, Stats,
 };
-use crate::scale::InputScale;
+use crate::scale::{self, FrontEnd, InputScale};
 use crate::source::run::send_blocking;
 
 /// About one column per pixel of a wide trace; the GUI never draws more points than this.
@@ -170,6 +170,8 @@ pub struct DspConfig {
     pub window_s: f64,
     /// Most snapshots per second.
     pub display_hz: f64,
+    /// The user's front end per channel (None: the source's own scaling).
+    pub front_end: Option<Vec<FrontEnd>>,
 }
 
 /// The channels the DSP thread talks on. Policies are set where they are created (pipeline.rs).
@@ -365,6 +367,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
         mut chain,
         mut window_s,
         display_hz,
+        mut front_end,
     } = cfg;
     let mut period = Duration::from_secs_f64(1.0 / display_hz.clamp(1.0, 240.0));
     let mut stats = Stats::default();
@@ -422,6 +425,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     spectrum.segment_request = n;
                     spectrum.frame = None;
                 }
+                Control::FrontEnd(f) => front_end = f,
                 // Simulator settings go straight to the source thread.
                 Control::Synth(_) => {}
             }
@@ -511,22 +515,48 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
 
             let mut uv = Vec::with_capacity(block.data.len());
             rails.clear();
-            scale = match block.unit {
-                SampleUnit::Counts(s) => Some(s),
-                SampleUnit::Microvolts => None,
+            // The user's front end wins over the source's own scaling (never over files in µV).
+            let user = |ch: usize| {
+                front_end
+                    .as_deref()
+                    .and_then(|l| scale::for_channel(l, ch))
+                    .copied()
             };
+            let fe_of = |ch: usize| -> Option<FrontEnd> {
+                match block.unit {
+                    SampleUnit::Microvolts => None,
+                    SampleUnit::Counts(s) => Some(user(ch).unwrap_or(FrontEnd::counts(s))),
+                    SampleUnit::Decimal(k) => Some(user(ch).unwrap_or(FrontEnd {
+                        values: if k == 1e6 {
+                            scale::ValueKind::Volts
+                        } else if k == 1.0 {
+                            scale::ValueKind::Microvolts
+                        } else {
+                            scale::ValueKind::Millivolts
+                        },
+                        adc: InputScale::default(),
+                    })),
+                }
+            };
+            let decimal = matches!(block.unit, SampleUnit::Decimal(_));
+            let fes: Vec<Option<FrontEnd>> = (0..r.channels).map(fe_of).collect();
+            scale = fes
+                .get(follow.min(r.channels - 1))
+                .copied()
+                .flatten()
+                .and_then(|f| if decimal { None } else { f.scale() });
             for (i, &v) in block.data.iter().enumerate() {
                 let ch = i % r.channels;
-                let value = match block.unit {
-                    SampleUnit::Counts(s) => {
-                        let rail = s.is_rail(v);
+                let value = match &fes[ch] {
+                    Some(fe) => {
+                        let rail = fe.is_rail(v, decimal);
                         if rail {
                             stats.clipped += 1;
                         }
                         rails.push(rail);
-                        s.counts_to_uv(v)
+                        fe.to_uv(v, decimal)
                     }
-                    SampleUnit::Microvolts => {
+                    None => {
                         rails.push(false);
                         v
                     }
@@ -560,7 +590,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     filtered_uv: filt,
                     received: block.data,
                     gap_before: block.gap_before,
-                    range_uv: scale.map(|s| (s.counts_to_uv(0.0), s.counts_to_uv(s.max_count()))),
+                    range_uv: scale.map(|s| s.range_uv()),
                 };
                 if !send_blocking(tx, rec, stop) {
                     return;
@@ -587,6 +617,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 .map_or(0.0, |t| now.duration_since(t).as_secs_f64() * 1e3);
             let snap = Snapshot {
                 beats: beat_state.as_ref().map(BeatState::view),
+                scale_check: beat_state.as_ref().and_then(|b| b.quality.scale_check()),
                 inverted: invert,
                 latency_ms: newest_age_ms,
                 ..snapshot(
@@ -641,6 +672,7 @@ fn snapshot(
         source_done: done,
         spectrum: spectrum.clone(),
         beats: None,
+        scale_check: None,
         inverted: false,
         latency_ms: 0.0,
     }

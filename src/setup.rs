@@ -11,7 +11,7 @@ use std::path::{Path, PathBuf};
 use serde::{Deserialize, Serialize};
 
 use crate::dsp::ChainSettings;
-use crate::scale::InputScale;
+use crate::scale::{FrontEnd, InputScale, ValueKind};
 use crate::source::SynthSettings;
 
 /// Where the samples come from.
@@ -122,13 +122,42 @@ impl Default for ViewSetup {
     }
 }
 
+/// What the numbers of a board's stream are, beyond the `[scale]` ADC model.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
+#[serde(default)]
+pub struct FrontEndSetup {
+    /// Channel 1 (and every channel not listed in `channels`): "counts" (through `[scale]`), or
+    /// the values are already "V", "mV" or "uV".
+    pub values: ValueKind,
+    /// Channels 2, 3, … when they differ from channel 1: `[[front_end.channels]]` tables, each
+    /// with `values` and an `adc` table like `[scale]`.
+    pub channels: Vec<FrontEnd>,
+    /// The user's own board, kept by "save as my board" in the monitor (at most one entry).
+    pub my_board: Vec<FrontEnd>,
+}
+
+impl FrontEndSetup {
+    /// The front end per channel (entry k for channel k; the last one for the rest).
+    pub fn per_channel(&self, scale: InputScale) -> Vec<FrontEnd> {
+        let mut v = vec![FrontEnd {
+            values: self.values,
+            adc: scale,
+        }];
+        v.extend(self.channels.iter().copied());
+        v
+    }
+}
+
 /// A whole setup.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize, Default)]
 #[serde(default)]
 pub struct Setup {
     pub source: SourceSetup,
-    /// ADC and front-end scaling of count samples (serial boards).
+    /// ADC and front-end scaling of count samples (serial boards): channel 1, and every channel
+    /// `[front_end]` does not list.
     pub scale: InputScale,
+    /// What the numbers are, and channels with a front end of their own.
+    pub front_end: FrontEndSetup,
     pub chain: ChainSettings,
     pub synth: SynthSettings,
     pub view: ViewSetup,
@@ -207,6 +236,10 @@ impl Setup {
     /// A message naming the key.
     pub fn validate(&self) -> Result<(), String> {
         self.scale.validate().map_err(|e| format!("[scale]: {e}"))?;
+        for (k, fe) in self.front_end.channels.iter().enumerate() {
+            fe.validate()
+                .map_err(|e| format!("[[front_end.channels]] entry {}: {e}", k + 1))?;
+        }
         self.synth.validate().map_err(|e| format!("[synth]: {e}"))?;
         let v = &self.view;
         if !(v.window_s.is_finite() && (1.0..=60.0).contains(&v.window_s)) {

@@ -1,5 +1,5 @@
 //! QRS detection scored as ANSI/AAMI EC57 does (±150 ms match, Se and +P, gross over records) on
-//! the MIT-BIH Arrhythmia Database records in ../shared/data/mitdb (Moody & Mark, IEEE EMB
+//! the MIT-BIH Arrhythmia Database records in tests/data/mitdb (Moody & Mark, IEEE EMB
 //! 20(3):45–50, 2001; PhysioNet, Goldberger et al., Circulation 101(23):e215–e220, 2000; ODC-By
 //! 1.0). Published real-time detectors on the whole database for comparison: Pan & Tompkins 1985
 //! Se 99.3 % (recalled from memory); Hamilton & Tompkins 1986 Se 99.69 % / +P 99.77 % (their
@@ -12,7 +12,7 @@ use std::path::PathBuf;
 use leadline::analysis::beats::{Detector, Score, score};
 
 fn data_dir() -> PathBuf {
-    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("../shared/data/mitdb")
+    PathBuf::from(env!("CARGO_MANIFEST_DIR")).join("tests/data/mitdb")
 }
 
 fn reference(record: &str) -> Vec<u64> {

@@ -244,8 +244,8 @@ fn spectrum_writes_psd_report_and_png_from_a_scope_style_csv() {
 
 #[test]
 fn beats_reads_wfdb_and_writes_beats_and_a_summary() {
-    // MIT-BIH record 100 (PhysioNet, ODC-By 1.0; see ../shared/data/mitdb/README.md).
-    let hea = concat!(env!("CARGO_MANIFEST_DIR"), "/../shared/data/mitdb/100.hea");
+    // MIT-BIH record 100 (PhysioNet, ODC-By 1.0; see tests/data/mitdb/README.md).
+    let hea = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/data/mitdb/100.hea");
     let (out, summary) = (tmp("beats100.csv"), tmp("summary100.json"));
     let o = leadline(&[
         "beats",

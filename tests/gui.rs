@@ -241,6 +241,7 @@ fn replaying_a_file_switches_the_source() {
                 .collect(),
         ],
         events: vec![],
+        ..Default::default()
     };
     leadline::store::write(&path, &rec, leadline::store::FileUnit::Millivolts).unwrap();
     let mut h = harness(app());

@@ -76,6 +76,7 @@ fn test_recording() -> Recording {
                 text: "laptop charger plugged in".into(),
             },
         ],
+        ..Default::default()
     }
 }
 

@@ -62,6 +62,7 @@ pub struct QualityMonitor {
     rail_count: usize,
     polarity: VecDeque<bool>,
     detector_snr: Option<f64>,
+    r_amps: VecDeque<f64>,
 }
 
 impl QualityMonitor {
@@ -75,6 +76,7 @@ impl QualityMonitor {
             rail_count: 0,
             polarity: VecDeque::with_capacity(8),
             detector_snr: None,
+            r_amps: VecDeque::with_capacity(R_AMPS_KEPT),
         }
     }
 
@@ -98,12 +100,37 @@ impl QualityMonitor {
         self.detector_snr = r;
     }
 
-    /// The sign of a detected beat's R value.
+    /// The sign of a detected beat's R value (and its size, for the scaling check).
     pub fn push_beat(&mut self, r_value: f64) {
         if self.polarity.len() == 8 {
             self.polarity.pop_front();
         }
         self.polarity.push_back(r_value < 0.0);
+        if self.r_amps.len() == R_AMPS_KEPT {
+            self.r_amps.pop_front();
+        }
+        self.r_amps.push_back(r_value.abs());
+    }
+
+    /// Median R amplitude of the recent beats, µV at the electrodes (None before 5 beats).
+    pub fn median_r_uv(&self) -> Option<f64> {
+        if self.r_amps.len() < 5 {
+            return None;
+        }
+        let mut v: Vec<f64> = self.r_amps.iter().copied().collect();
+        v.sort_by(f64::total_cmp);
+        Some(v[v.len() / 2])
+    }
+
+    /// Share of the window's samples that sat on an ADC rail.
+    pub fn rail_share(&self) -> f64 {
+        self.rail_count as f64 / self.values.len().max(1) as f64
+    }
+
+    /// "check the front-end scaling: …" when the median R amplitude is outside 0.1–5 mV (common
+    /// practice for surface ECG) or more than 5 % of the samples sit on a rail.
+    pub fn scale_check(&self) -> Option<String> {
+        scale_check(self.median_r_uv(), self.rail_share())
     }
 
     /// The verdict on the current window.
@@ -145,9 +172,52 @@ impl QualityMonitor {
     }
 }
 
+/// Beats whose R amplitude the scaling check keeps.
+const R_AMPS_KEPT: usize = 15;
+
+/// Plausible R amplitudes at the electrodes, µV: 0.1–5 mV (common practice for surface ECG;
+/// REFERENCE.md §3 gives 0.1–5 mV for ECG amplitudes).
+pub const PLAUSIBLE_R_UV: (f64, f64) = (100.0, 5000.0);
+
+/// The scaling check from its two figures (see [`QualityMonitor::scale_check`]).
+pub fn scale_check(median_r_uv: Option<f64>, rail_share: f64) -> Option<String> {
+    if rail_share > 0.05 {
+        return Some(format!(
+            "check the front-end scaling: {:.0} % of the samples sit at an ADC rail",
+            100.0 * rail_share
+        ));
+    }
+    let r = median_r_uv?;
+    (!(PLAUSIBLE_R_UV.0..=PLAUSIBLE_R_UV.1).contains(&r)).then(|| {
+        format!(
+            "check the front-end scaling: median R amplitude {} mV at the electrodes (expected 0.1–5 mV)",
+            crate::scale::sig3(r / 1e3)
+        )
+    })
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn scaling_check_names_the_figure() {
+        assert_eq!(scale_check(Some(1200.0), 0.0), None);
+        assert_eq!(scale_check(None, 0.0), None);
+        let big = scale_check(Some(8217.0), 0.0).unwrap();
+        assert!(big.contains("8.22 mV"), "{big}");
+        let small = scale_check(Some(40.0), 0.0).unwrap();
+        assert!(small.contains("0.0400 mV"), "{small}");
+        let rail = scale_check(Some(1000.0), 0.3).unwrap();
+        assert!(rail.contains("30 %"), "{rail}");
+        let mut q = QualityMonitor::new(500.0);
+        for r in [900.0, -1000.0, 1100.0, 950.0] {
+            q.push_beat(r);
+        }
+        assert_eq!(q.median_r_uv(), None);
+        q.push_beat(7000.0);
+        assert_eq!(q.median_r_uv(), Some(1000.0));
+    }
 
     #[test]
     fn flat_floating_clipping_and_clean() {

@@ -13,6 +13,8 @@ use crate::analysis::rate::{Hrv, RateMeter, hrv};
 struct Summary {
     input: String,
     channel: usize,
+    channel_name: String,
+    signals: Vec<super::SignalOut>,
     fs_hz: f64,
     duration_s: f64,
     beats: usize,
@@ -25,8 +27,7 @@ struct Summary {
 /// # Errors
 /// A bad or unreadable input, a rate outside 125–2000 Hz, an unwritable output.
 pub fn run(a: &BeatsArgs) -> Result<usize> {
-    let opts = a.src.read_options();
-    let (rec, ch) = super::load_channel(&a.src.input, &opts, a.channel)?;
+    let (rec, ch) = a.src.load(&a.channel)?;
     let x = &rec.channels[ch];
     let mut det = Detector::new(rec.fs_hz).map_err(|e| BadInput(e.to_string()))?;
     let mut beats = Vec::new();
@@ -55,7 +56,9 @@ pub fn run(a: &BeatsArgs) -> Result<usize> {
         let nn: Vec<f64> = meter.nn_intervals().collect();
         let doc = Summary {
             input: a.src.input.display().to_string(),
-            channel: a.channel,
+            channel: ch,
+            channel_name: rec.names.get(ch).cloned().unwrap_or_default(),
+            signals: super::signals_out(&rec),
             fs_hz: rec.fs_hz,
             duration_s: duration,
             beats: beats.len(),

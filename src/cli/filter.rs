@@ -8,21 +8,22 @@ use super::{BadInput, FilterArgs};
 use crate::dsp::chain;
 use crate::store::{self, StoreError};
 
-fn bad(e: StoreError) -> anyhow::Error {
-    match e {
-        StoreError::Io { .. } => anyhow::Error::new(e),
-        other => BadInput(other.to_string()).into(),
-    }
-}
 
 /// Runs the command. Returns the number of frames written.
 ///
 /// # Errors
 /// An unreadable or malformed input (bad input), a chain that cannot be built, a failed write.
 pub fn run(a: &FilterArgs) -> Result<usize> {
-    let opts = a.src.read_options();
-    let mut rec = store::read(&a.src.input, &opts).map_err(bad)?;
-    let sections = a.chain.design(rec.fs_hz)?;
+    let (mut rec, _) = a.src.load("0")?;
+    let setup = a.src.setup()?;
+    let no_stage = a.chain.highpass.is_none() && a.chain.notch.is_none() && a.chain.lowpass.is_none();
+    let settings = match (&setup, no_stage) {
+        (Some(s), true) => s.chain,
+        _ => a.chain.settings(),
+    };
+    let sections = settings
+        .design(rec.fs_hz)
+        .map_err(|e| BadInput(e.to_string()))?;
     let before = a.png.as_ref().and_then(|_| rec.channels.first().cloned());
     for ch in &mut rec.channels {
         if a.zero_phase {
@@ -32,7 +33,7 @@ pub fn run(a: &FilterArgs) -> Result<usize> {
             chain::filter_settled(&sections, ch);
         }
     }
-    store::write(&a.out, &rec, a.src.units.unit()).map_err(|e| match e {
+    store::write(&a.out, &rec, a.src.units.output_unit()).map_err(|e| match e {
         StoreError::UnknownType { .. } => BadInput(e.to_string()).into(),
         other => anyhow::Error::new(other),
     })?;
@@ -52,7 +53,7 @@ pub fn run(a: &FilterArgs) -> Result<usize> {
             "{}: {} — chain {}",
             a.src.input.display(),
             rec.names.first().map_or("ch1", String::as_str),
-            a.chain.settings().describe()
+            settings.describe()
         );
         trace_png(
             png,

@@ -174,6 +174,9 @@ pub struct RecordArgs {
     /// Sample rate, Hz, when the source does not say (else estimated from arrival).
     #[arg(long, value_name = "HZ")]
     pub fs: Option<f64>,
+    /// The board's front end (a serial source's counts are scaled by it).
+    #[command(flatten)]
+    pub scale: ScaleArgs,
 }
 
 /// The recording an offline command reads, and what the file may not say about itself.
@@ -189,9 +192,16 @@ pub struct InputArgs {
     /// Channels per frame of a raw input.
     #[arg(long, default_value_t = 1, value_name = "N")]
     pub channels: usize,
-    /// Unit of the input values (and of a filtered output).
+    /// Unit of the input values (and of a filtered output): V, mV, uV, or counts (ADC counts of
+    /// a CSV or raw file, scaled by the --adc-* options or the --config setup's front end).
     #[arg(long, value_enum, default_value_t = FileUnitArg::Millivolts)]
     pub units: FileUnitArg,
+    #[command(flatten)]
+    pub scale: ScaleArgs,
+    /// Take the front-end scaling (and, for `filter` without stage flags, the chain) from this
+    /// setup (TOML).
+    #[arg(long, value_name = "FILE")]
+    pub config: Option<PathBuf>,
 }
 
 impl InputArgs {
@@ -203,6 +213,205 @@ impl InputArgs {
             channels: self.channels,
         }
     }
+
+    /// The setup of `--config`, if given (its unknown keys are reported on stderr).
+    ///
+    /// # Errors
+    /// A setup that cannot be read or used is bad input.
+    pub fn setup(&self) -> anyhow::Result<Option<crate::setup::Setup>> {
+        load_setup(self.config.as_deref())
+    }
+
+    /// Reads the input and picks the signal `channel` names (index or name): a malformed file
+    /// or a missing signal is bad input (exit 2), an unreadable one an I/O failure (exit 1).
+    /// Counts are scaled to input-referred µV by the front end of the options or the setup.
+    /// Signals the reader left out are named on stderr.
+    ///
+    /// # Errors
+    /// As described.
+    pub fn load(&self, channel: &str) -> anyhow::Result<(crate::store::Recording, usize)> {
+        let setup = self.setup()?;
+        let (mut rec, ch) = load_channel(&self.input, &self.read_options(), channel)?;
+        if self.units == FileUnitArg::Counts {
+            if !matches!(
+                crate::store::extension_of(&self.input).as_str(),
+                "csv" | "txt" | "tsv" | "f32" | "f64"
+            ) {
+                return Err(BadInput(format!(
+                    "--units counts: {} carries physical units already; counts apply to CSV and raw files",
+                    self.input.display()
+                ))
+                .into());
+            }
+            let base = setup
+                .as_ref()
+                .map(|s| s.front_end.per_channel(s.scale));
+            let fes = self.scale.front_ends(base)?.ok_or_else(|| {
+                BadInput(
+                    "--units counts needs the board: --adc-bits N --adc-vref V --frontend-gain G [--adc-zero mid|bipolar|COUNTS], or --config FILE".into(),
+                )
+            })?;
+            for (k, c) in rec.channels.iter_mut().enumerate() {
+                if let Some(fe) = crate::scale::for_channel(&fes, k) {
+                    let fe = crate::scale::FrontEnd {
+                        values: crate::scale::ValueKind::Counts,
+                        ..*fe
+                    };
+                    for v in c.iter_mut() {
+                        *v = fe.to_uv(*v, false);
+                    }
+                }
+            }
+            eprintln!(
+                "counts scaled as {}",
+                crate::scale::for_channel(&fes, ch).map_or(String::new(), |f| crate::scale::FrontEnd {
+                    values: crate::scale::ValueKind::Counts,
+                    ..*f
+                }
+                .describe())
+            );
+        } else if self.scale.any() {
+            return Err(BadInput(
+                "--adc-* and --frontend-gain scale counts: add --units counts".into(),
+            )
+            .into());
+        }
+        for n in &rec.notes {
+            eprintln!("{}: {n}", self.input.display());
+        }
+        Ok((rec, ch))
+    }
+}
+
+/// Reads a setup for a command (unknown keys reported on stderr).
+///
+/// # Errors
+/// A setup that cannot be read or used is bad input.
+pub fn load_setup(path: Option<&std::path::Path>) -> anyhow::Result<Option<crate::setup::Setup>> {
+    let Some(path) = path else { return Ok(None) };
+    let loaded = crate::setup::Setup::load(path).map_err(|e| BadInput(e.to_string()))?;
+    for w in &loaded.warnings {
+        eprintln!("leadline: {}: {w}", path.display());
+    }
+    Ok(Some(loaded.setup))
+}
+
+/// The board's front end on the command line. Each option takes one value for every channel or
+/// a comma-separated value per channel (`--frontend-gain 1000,1`).
+#[derive(Debug, Clone, Args, Default)]
+pub struct ScaleArgs {
+    /// ADC resolution, bits (8–24).
+    #[arg(long, value_name = "N", value_delimiter = ',')]
+    pub adc_bits: Vec<u32>,
+    /// ADC reference, V: a unipolar converter spans 0…V, a bipolar one −V…+V.
+    #[arg(long, value_name = "V", value_delimiter = ',')]
+    pub adc_vref: Vec<f64>,
+    /// Count of a zero signal: mid (mid-scale, single-supply boards; the default), bipolar
+    /// (two's-complement counts; 0 means the same), or a count.
+    #[arg(long, value_name = "COUNTS|mid|bipolar", value_delimiter = ',')]
+    pub adc_zero: Vec<String>,
+    /// Total gain from the electrodes to the ADC pin, V/V (in-amp × later stages).
+    #[arg(long, value_name = "G", value_delimiter = ',')]
+    pub frontend_gain: Vec<f64>,
+}
+
+impl ScaleArgs {
+    /// True when any option was given.
+    pub fn any(&self) -> bool {
+        !(self.adc_bits.is_empty()
+            && self.adc_vref.is_empty()
+            && self.adc_zero.is_empty()
+            && self.frontend_gain.is_empty())
+    }
+
+    /// The front end per channel: `base` (from a setup) with these options on top. None when
+    /// neither gives one.
+    ///
+    /// # Errors
+    /// A missing option (with no setup to take it from), a bad zero, or an impossible converter.
+    pub fn front_ends(
+        &self,
+        base: Option<Vec<crate::scale::FrontEnd>>,
+    ) -> Result<Option<Vec<crate::scale::FrontEnd>>, BadInput> {
+        use crate::scale::{FrontEnd, InputScale, ValueKind};
+        if !self.any() {
+            return Ok(base);
+        }
+        let n = [
+            self.adc_bits.len(),
+            self.adc_vref.len(),
+            self.adc_zero.len(),
+            self.frontend_gain.len(),
+            base.as_ref().map_or(0, Vec::len),
+        ]
+        .into_iter()
+        .max()
+        .unwrap_or(1)
+        .max(1);
+        fn nth<T: Copy>(v: &[T], k: usize) -> Option<T> {
+            v.get(k).or_else(|| v.last()).copied()
+        }
+        let mut out = Vec::with_capacity(n);
+        for k in 0..n {
+            let from = base
+                .as_deref()
+                .and_then(|b| crate::scale::for_channel(b, k))
+                .copied();
+            let need = |what: &str| {
+                BadInput(format!(
+                    "{what} is missing: counts need --adc-bits, --adc-vref and --frontend-gain (or --config)"
+                ))
+            };
+            let bits = nth(&self.adc_bits, k)
+                .or(from.map(|f| f.adc.bits))
+                .ok_or_else(|| need("--adc-bits"))?;
+            let vref = nth(&self.adc_vref, k)
+                .or(from.map(|f| f.adc.vref_v))
+                .ok_or_else(|| need("--adc-vref"))?;
+            let gain = nth(&self.frontend_gain, k)
+                .or(from.map(|f| f.adc.gain))
+                .ok_or_else(|| need("--frontend-gain"))?;
+            let zero = self.adc_zero.get(k).or_else(|| self.adc_zero.last());
+            let mut adc = InputScale {
+                bits,
+                vref_v: vref,
+                offset_counts: 0.0,
+                gain,
+                bipolar: from.is_some_and(|f| f.adc.bipolar),
+            };
+            match zero.map(|z| z.trim().to_ascii_lowercase()) {
+                None => {
+                    adc.offset_counts = match from {
+                        Some(f) if f.adc.bits == bits => f.adc.offset_counts,
+                        _ => adc.default_zero(),
+                    }
+                }
+                Some(z) if z == "mid" => {
+                    adc.bipolar = false;
+                    adc.offset_counts = adc.default_zero();
+                }
+                Some(z) if z == "bipolar" || z == "0" => {
+                    adc.bipolar = true;
+                    adc.offset_counts = 0.0;
+                }
+                Some(z) => {
+                    adc.bipolar = false;
+                    adc.offset_counts = z.parse::<f64>().map_err(|_| {
+                        BadInput(format!(
+                            "--adc-zero {z}: expected mid, bipolar or a count"
+                        ))
+                    })?;
+                }
+            }
+            adc.validate()
+                .map_err(|e| BadInput(format!("front end of channel {}: {e}", k + 1)))?;
+            out.push(FrontEnd {
+                values: ValueKind::Counts,
+                adc,
+            });
+        }
+        Ok(Some(out))
+    }
 }
 
 /// Options of `leadline beats`.
@@ -210,9 +419,9 @@ impl InputArgs {
 pub struct BeatsArgs {
     #[command(flatten)]
     pub src: InputArgs,
-    /// Channel to analyse (0-based).
-    #[arg(long, default_value_t = 0, value_name = "K")]
-    pub channel: usize,
+    /// Signal to analyse: 0-based index or name (every signal of an EDF/BDF, whatever its rate).
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
     /// Beats: CSV with sample,time_s,r_uv,search_back.
     #[arg(long, value_name = "FILE")]
     pub out: PathBuf,
@@ -238,9 +447,9 @@ pub struct SpectrumArgs {
     /// Plot of the PSD with the mains lines (PNG).
     #[arg(long, value_name = "FILE")]
     pub png: Option<PathBuf>,
-    /// Channel to analyse (0-based).
-    #[arg(long, default_value_t = 0, value_name = "K")]
-    pub channel: usize,
+    /// Signal to analyse: 0-based index or name (every signal of an EDF/BDF, whatever its rate).
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
 }
 
 /// What `leadline bench` measures.
@@ -378,15 +587,26 @@ pub enum FileUnitArg {
     Millivolts,
     #[value(name = "uV")]
     Microvolts,
+    /// ADC counts (input only), scaled by the front end.
+    #[value(name = "counts")]
+    Counts,
 }
 
 impl FileUnitArg {
-    /// The store's unit.
+    /// The store's unit to read with (counts are read as plain numbers and scaled afterwards).
     pub fn unit(self) -> crate::store::FileUnit {
         match self {
             FileUnitArg::Volts => crate::store::FileUnit::Volts,
             FileUnitArg::Millivolts => crate::store::FileUnit::Millivolts,
-            FileUnitArg::Microvolts => crate::store::FileUnit::Microvolts,
+            FileUnitArg::Microvolts | FileUnitArg::Counts => crate::store::FileUnit::Microvolts,
+        }
+    }
+
+    /// The unit an output file is written in (scaled counts come out in mV).
+    pub fn output_unit(self) -> crate::store::FileUnit {
+        match self {
+            FileUnitArg::Counts => crate::store::FileUnit::Millivolts,
+            other => other.unit(),
         }
     }
 }
@@ -449,6 +669,10 @@ pub struct MonitorArgs {
     /// Window size in logical pixels, WIDTHxHEIGHT.
     #[arg(long, value_name = "WxH", default_value = "1280x800")]
     pub size: String,
+    /// The board's front end (a serial source's counts are scaled by it; also in the monitor's
+    /// Front end section).
+    #[command(flatten)]
+    pub scale: ScaleArgs,
 }
 
 /// The lower strip of the monitor.
@@ -574,20 +798,53 @@ pub struct SimulateArgs {
 pub fn load_channel(
     input: &std::path::Path,
     opts: &crate::store::ReadOptions,
-    channel: usize,
+    channel: &str,
 ) -> anyhow::Result<(crate::store::Recording, usize)> {
-    let rec = crate::store::read(input, opts).map_err(|e| match e {
-        crate::store::StoreError::Io { .. } => anyhow::Error::new(e),
-        other => BadInput(other.to_string()).into(),
-    })?;
-    if channel >= rec.channels.len() {
-        return Err(BadInput(format!(
-            "--channel {channel}: the file has {} channel(s) (0-based)",
-            rec.channels.len()
-        ))
-        .into());
+    let as_input = |e: crate::store::StoreError| -> anyhow::Error {
+        match e {
+            crate::store::StoreError::Io { .. } => anyhow::Error::new(e),
+            other => BadInput(other.to_string()).into(),
+        }
+    };
+    let rec = crate::store::read(input, opts).map_err(as_input)?;
+    let k = rec.find_signal(channel).map_err(BadInput)?;
+    let list = rec.signal_list();
+    if let Some(ch) = list[k].channel {
+        return Ok((rec, ch));
     }
-    Ok((rec, channel))
+    // A signal at another rate (or not a voltage): read its own group.
+    let rec = crate::store::edf::read_group(input, Some(k)).map_err(as_input)?;
+    let ch = rec.signal_list()[k].channel.ok_or_else(|| {
+        BadInput(format!("--channel {channel}: the signal could not be read"))
+    })?;
+    Ok((rec, ch))
+}
+
+/// One signal of the input as the summaries list it.
+#[derive(Debug, Clone, serde::Serialize)]
+pub struct SignalOut {
+    /// 0-based index for `--channel`.
+    pub index: usize,
+    pub name: String,
+    pub fs_hz: f64,
+    pub unit: String,
+    /// Read with the chosen channel (same rate and kind).
+    pub loaded: bool,
+}
+
+/// Every signal of a recording, for the JSON summaries.
+pub fn signals_out(rec: &crate::store::Recording) -> Vec<SignalOut> {
+    rec.signal_list()
+        .into_iter()
+        .enumerate()
+        .map(|(index, s)| SignalOut {
+            index,
+            name: s.name,
+            fs_hz: s.fs_hz,
+            unit: s.unit,
+            loaded: s.channel.is_some(),
+        })
+        .collect()
 }
 
 /// A bad argument or input detected after parsing (exit code 2, like clap's own errors).

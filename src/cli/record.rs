@@ -48,17 +48,14 @@ pub fn run(a: &RecordArgs) -> Result<()> {
         )
         .into());
     }
-    let setup = match &a.config {
-        Some(path) => {
-            let l = crate::setup::Setup::load(path).map_err(|e| BadInput(e.to_string()))?;
-            for w in &l.warnings {
-                eprintln!("leadline: {}: {w}", path.display());
-            }
-            Some(l.setup)
-        }
-        None => None,
-    };
-    let scale = setup.as_ref().map_or_else(InputScale::default, |s| s.scale);
+    let setup = super::load_setup(a.config.as_deref())?;
+    let front_ends = a
+        .scale
+        .front_ends(setup.as_ref().map(|s| s.front_end.per_channel(s.scale)))?;
+    let scale = front_ends
+        .as_ref()
+        .and_then(|f| f.first())
+        .map_or_else(InputScale::default, |f| f.adc);
     let spec = match (&a.source, &setup) {
         (Some(text), _) => SourceSpec::parse(text, a.fs, scale).map_err(|e| e.to_string()),
         (None, Some(s)) => s.source_spec(),
@@ -71,10 +68,16 @@ pub fn run(a: &RecordArgs) -> Result<()> {
         Some(s) if !flags_given => s.chain,
         _ => a.chain.settings(),
     };
+    // The board's front end applies to a board; the simulator models its own.
+    let front_end = front_ends.filter(|_| matches!(spec, SourceSpec::Serial(_)));
+    if a.scale.any() && front_end.is_none() {
+        eprintln!("leadline: the --adc-* and --frontend-gain options apply to a board's stream, not to {}", spec.label());
+    }
     let pipeline = Pipeline::start(
         PipelineConfig {
             source: spec,
             chain,
+            front_end,
             pacing: Pacing::RealTime,
             recorder: true,
             display_hz: 2.0,
@@ -120,15 +123,17 @@ pub fn run(a: &RecordArgs) -> Result<()> {
     }
     if status.frames == 0 {
         let why = serial.map(|s| s.message).unwrap_or_default();
-        eprintln!(
-            "no samples arrived from {} in {} s{}",
+        // Exit 1: a script must be able to tell. The (empty) file stays as written.
+        bail!(
+            "no samples arrived from {} in {} s{}; {} holds no data",
             a.source.as_deref().unwrap_or("the setup's source"),
             a.seconds,
             if why.is_empty() {
                 String::new()
             } else {
                 format!(" ({why})")
-            }
+            },
+            a.out.display()
         );
     } else {
         eprintln!("recorded {} frames: {}", status.frames, status.message);

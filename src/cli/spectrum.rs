@@ -14,6 +14,8 @@ use crate::export::plot_png;
 struct Report<'a> {
     input: String,
     channel: usize,
+    channel_name: String,
+    signals: Vec<super::SignalOut>,
     fs_hz: f64,
     segment: usize,
     segments: usize,
@@ -27,8 +29,7 @@ struct Report<'a> {
 /// # Errors
 /// A bad or unreadable input (exit 2 for bad input), or an output that cannot be written.
 pub fn run(a: &SpectrumArgs) -> Result<()> {
-    let opts = a.src.read_options();
-    let (rec, ch) = super::load_channel(&a.src.input, &opts, a.channel)?;
+    let (rec, ch) = a.src.load(&a.channel)?;
     let x = &rec.channels[ch];
     let segment = a.segment.unwrap_or_else(|| {
         segment_for(rec.fs_hz, 4.0)
@@ -53,7 +54,9 @@ pub fn run(a: &SpectrumArgs) -> Result<()> {
             .map_err(|e| BadInput(format!("no mains report: {e}")))?;
         let doc = Report {
             input: a.src.input.display().to_string(),
-            channel: a.channel,
+            channel: ch,
+            channel_name: rec.names.get(ch).cloned().unwrap_or_default(),
+            signals: super::signals_out(&rec),
             fs_hz: rec.fs_hz,
             segment,
             segments: psd.segments,
@@ -65,9 +68,9 @@ pub fn run(a: &SpectrumArgs) -> Result<()> {
     }
     if let Some(path) = &a.png {
         let title = format!(
-            "{} · channel {} · Welch, {} samples per segment",
+            "{} · {} · Welch, {} samples per segment",
             a.src.input.display(),
-            a.channel + 1,
+            rec.names.get(ch).map_or("ch1", String::as_str),
             segment
         );
         plot_png::psd_png(path, &psd, report.as_ref().ok(), &title)?;

@@ -244,7 +244,7 @@ mod tests {
 
     #[test]
     fn butterworth_section_qs_match_reference_table() {
-        // ../shared/REFERENCE.md §4 table of section Qs ([C] from Q_k = 1/(2 sin((2k−1)π/2N))).
+        // Reference table of section Qs ([C] from Q_k = 1/(2 sin((2k−1)π/2N))).
         let q4 = butterworth_qs(4);
         assert!((q4[0] - 0.541_196_1).abs() < 1e-6 && (q4[1] - 1.306_563).abs() < 1e-6);
         let q8 = butterworth_qs(8);

@@ -54,6 +54,7 @@ pub struct LeadlineApp {
     response: panels::response::ResponseCache,
     spectrum: panels::spectrum::SpectrumView,
     picker: panels::source::SourcePicker,
+    front_end: panels::front_end::FrontEndPanel,
     file_path: String,
     parts: panels::parts::PartsView,
     record: panels::record::RecordPanel,
@@ -83,6 +84,11 @@ fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, Pipel
             chain: settings.chain,
             window_s: settings.window_s,
             display_hz: settings.display_hz,
+            // The board's front end applies to a board; the simulator models its own.
+            front_end: settings
+                .serial
+                .is_some()
+                .then(|| settings.front_ends.clone()),
             pacing: Pacing::RealTime,
             limit_s: None,
             record: false,
@@ -135,6 +141,7 @@ impl LeadlineApp {
             response: Default::default(),
             spectrum: Default::default(),
             picker: Default::default(),
+            front_end: Default::default(),
             file_path,
             parts: Default::default(),
             record: Default::default(),
@@ -705,8 +712,11 @@ impl LeadlineApp {
                     }
                     ui.add_space(10.0);
                     ui.heading("Source");
-                    let serial_active = self.settings.serial.is_some();
-                    if let Some(req) = panels::source::show(ui, &mut self.picker, serial_active) {
+                    let active = self.settings.serial.as_ref().map(|s| s.path.clone());
+                    let first = self.settings.front_ends.first().copied().unwrap_or_default();
+                    if let Some(req) =
+                        panels::source::show(ui, &mut self.picker, active.as_deref(), first.adc)
+                    {
                         self.settings.serial = match req {
                             panels::source::SourceRequest::Simulator => None,
                             panels::source::SourceRequest::Serial(spec) => Some(spec),
@@ -737,6 +747,26 @@ impl LeadlineApp {
                             self.pipeline.replay(c);
                         }
                     }
+                    ui.add_space(6.0);
+                    egui::CollapsingHeader::new(egui::RichText::new("Front end").heading())
+                        .default_open(true)
+                        .show(ui, |ui| {
+                            let board = self.settings.serial.is_some();
+                            let n = self.view.snapshot.as_ref().map_or(1, |s| s.traces.len());
+                            let ch = panels::front_end::show(
+                                ui,
+                                &mut self.front_end,
+                                &mut self.settings.front_ends,
+                                &mut self.settings.my_board,
+                                n,
+                                board,
+                            );
+                            if ch.scaling && board {
+                                self.pending.push(Control::FrontEnd(Some(
+                                    self.settings.front_ends.clone(),
+                                )));
+                            }
+                        });
                     ui.add_space(10.0);
                     egui::CollapsingHeader::new(egui::RichText::new("Display").heading())
                         .default_open(false)

@@ -60,8 +60,16 @@ pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
             ),
         }
     }
+    if let Some(fes) = args
+        .scale
+        .front_ends(Some(settings.front_ends.clone()))?
+        .filter(|_| args.scale.any())
+    {
+        settings.front_ends = fes;
+    }
     if let Some(src) = &args.source {
-        let spec = crate::source::SourceSpec::parse(src, args.fs, settings.scale)
+        let first = settings.front_ends.first().copied().unwrap_or_default();
+        let spec = crate::source::SourceSpec::parse(src, args.fs, first.adc)
             .map_err(|e| BadInput(e.to_string()))?;
         settings.serial = None;
         settings.file = None;

@@ -4,7 +4,7 @@ use std::path::PathBuf;
 
 use crate::dsp::chain::ChainSettings;
 use crate::msg::Snapshot;
-use crate::scale::InputScale;
+use crate::scale::FrontEnd;
 use crate::setup::{Setup, SourceKind, SourceSetup, Theme, ViewSetup, WireChoice};
 use crate::source::SynthSettings;
 
@@ -84,8 +84,10 @@ pub struct Settings {
     pub serial: Option<crate::source::serial::SerialSpec>,
     /// A recording replayed instead of the simulator.
     pub file: Option<crate::source::replay::ReplaySpec>,
-    /// ADC and front-end scaling for count samples from a board.
-    pub scale: InputScale,
+    /// The board's front end per channel (entry k for channel k, the last for the rest).
+    pub front_ends: Vec<FrontEnd>,
+    /// The user's own board, saved with "save as my board".
+    pub my_board: Option<FrontEnd>,
     /// Colours.
     pub theme: Theme,
     /// Vertical scale of the traces: 0 = automatic, else ± this many µV around the centre.
@@ -109,7 +111,8 @@ impl Default for Settings {
             display_hz: 30.0,
             serial: None,
             file: None,
-            scale: InputScale::default(),
+            front_ends: vec![FrontEnd::default()],
+            my_board: None,
             theme: Theme::Dark,
             fixed_range_uv: 0.0,
             sweep: false,
@@ -144,7 +147,8 @@ impl Settings {
             display_hz: s.view.display_hz,
             serial,
             file,
-            scale: s.scale,
+            front_ends: s.front_end.per_channel(s.scale),
+            my_board: s.front_end.my_board.first().copied(),
             theme: s.view.theme,
             fixed_range_uv: s.view.fixed_range_uv,
             sweep: s.view.sweep,
@@ -173,9 +177,15 @@ impl Settings {
             source.fs_hz = f.read.fs_hz.unwrap_or(0.0);
             source.file_unit = f.read.unit.name().into();
         }
+        let first = self.front_ends.first().copied().unwrap_or_default();
         Setup {
             source,
-            scale: self.scale,
+            scale: first.adc,
+            front_end: crate::setup::FrontEndSetup {
+                values: first.values,
+                channels: self.front_ends.iter().skip(1).copied().collect(),
+                my_board: self.my_board.into_iter().collect(),
+            },
             chain: self.chain,
             synth: self.synth.clone(),
             view: ViewSetup {

@@ -5,7 +5,7 @@
 //! A point circles the unit limit cycle in the (x, y) plane at angular speed ω = 2π/RR(t); z is
 //! pushed by five Gaussian events (P, Q, R, S, T) placed at fixed angles and relaxes to zero between
 //! them. Parameters, heart-rate scaling and the RR spectrum follow the paper and its C code
-//! (../shared/REFERENCE.md §5). The mean of z is not forced to zero: the isoelectric line is z = 0
+//! (McSharry et al., IEEE TBME 50(3):289–294, 2003). The mean of z is not forced to zero: the isoelectric line is z = 0
 //! and the output is scaled so the R peak has the requested amplitude.
 
 use std::f64::consts::{PI, TAU};

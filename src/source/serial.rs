@@ -140,6 +140,46 @@ impl Decoding {
     }
 }
 
+/// The sample rate from arrival times: the least-squares slope of the running frame count
+/// against time, and its standard error (Hz). `arrivals` holds (time, frames that arrived then).
+///
+/// A read returns whatever the OS buffered, so single reads give wildly different rates (a
+/// 1 ms read of 4 frames "is" 4000 Hz); the slope over two seconds of reads does not care how the
+/// frames were grouped, and its standard error is small for a steady clock.
+pub fn estimate_rate(arrivals: &[(Instant, usize)]) -> (f64, f64) {
+    let Some(&(t0, _)) = arrivals.first() else {
+        return (0.0, f64::INFINITY);
+    };
+    // The count *after* each read, against the time of that read.
+    let mut total = 0.0;
+    let points: Vec<(f64, f64)> = arrivals
+        .iter()
+        .map(|&(t, n)| {
+            total += n as f64;
+            (t.duration_since(t0).as_secs_f64(), total)
+        })
+        .collect();
+    let n = points.len() as f64;
+    if points.len() < 3 {
+        let span = points.last().map_or(0.0, |p| p.0).max(1e-3);
+        return (total / span, f64::INFINITY);
+    }
+    let mt = points.iter().map(|p| p.0).sum::<f64>() / n;
+    let mc = points.iter().map(|p| p.1).sum::<f64>() / n;
+    let stt: f64 = points.iter().map(|p| (p.0 - mt).powi(2)).sum();
+    let stc: f64 = points.iter().map(|p| (p.0 - mt) * (p.1 - mc)).sum();
+    if stt <= 0.0 {
+        return (0.0, f64::INFINITY);
+    }
+    let slope = stc / stt;
+    let resid: f64 = points
+        .iter()
+        .map(|p| (p.1 - mc - slope * (p.0 - mt)).powi(2))
+        .sum();
+    let se = (resid / (n - 2.0) / stt).sqrt();
+    (slope, se)
+}
+
 /// Runs until `stop` is set or the receiver hangs up.
 pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: StatusHandle) {
     let mut decoding = match spec.format {
@@ -235,20 +275,7 @@ pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: S
                 let span = now.saturating_duration_since(t_start).as_secs_f64();
                 if span >= ESTIMATE_S && held.len() > 10 {
                     let first = arrivals.iter().position(|a| a.0 > t_start).unwrap_or(0);
-                    let counted: usize = arrivals[first + 1..].iter().map(|a| a.1).sum();
-                    let t0 = arrivals[first].0;
-                    let est = counted as f64 / now.duration_since(t0).as_secs_f64().max(1e-3);
-                    let rates: Vec<f64> = arrivals
-                        .windows(2)
-                        .filter_map(|w| {
-                            let dt = w[1].0.duration_since(w[0].0).as_secs_f64();
-                            (dt > 0.0).then(|| w[1].1 as f64 / dt)
-                        })
-                        .collect();
-                    let mean = rates.iter().sum::<f64>() / rates.len().max(1) as f64;
-                    let spread = (rates.iter().map(|r| (r - mean).powi(2)).sum::<f64>()
-                        / rates.len().max(1) as f64)
-                        .sqrt();
+                    let (est, spread) = estimate_rate(&arrivals[first..]);
                     fs = Some(est);
                     set_status(&status, |s| {
                         s.estimated = true;
@@ -275,12 +302,7 @@ pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: S
                 next_sample += frames[start].lost_before;
                 let mut data = Vec::with_capacity((end - start) * ch);
                 for f in &frames[start..end] {
-                    match kind {
-                        Values::Counts => data.extend_from_slice(&f.samples),
-                        Values::Physical => {
-                            data.extend(f.samples.iter().map(|v| v * spec.physical_to_uv))
-                        }
-                    }
+                    data.extend_from_slice(&f.samples);
                 }
                 let block = RawBlock {
                     seq,
@@ -289,7 +311,7 @@ pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: S
                     channels: ch,
                     unit: match kind {
                         Values::Counts => SampleUnit::Counts(spec.scale),
-                        Values::Physical => SampleUnit::Microvolts,
+                        Values::Physical => SampleUnit::Decimal(spec.physical_to_uv),
                     },
                     data,
                     made_at: now,

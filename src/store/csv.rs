@@ -253,6 +253,7 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
         time_s,
         channels: cols,
         events,
+        ..Default::default()
     })
 }
 

@@ -634,12 +634,24 @@ fn uv_per(dim: &str) -> Option<f64> {
 }
 
 /// Reads an EDF, EDF+ or BDF(+) file: its voltage signals (at the rate of the first one) as µV,
-/// and its annotations as events. A record count of −1 or one beyond the data is replaced by the
-/// number of whole records present; a partly written last record is left out.
+/// and its annotations as events. Every signal is listed in [`Recording::signals`]; the ones
+/// left out (another rate, not a voltage) are named in [`Recording::notes`] and can be read with
+/// [`read_group`]. A record count of −1 or one beyond the data is replaced by the number of whole
+/// records present; a partly written last record is left out.
 ///
 /// # Errors
 /// [`StoreError::Malformed`] naming the header field that is wrong.
 pub fn read(path: &Path) -> Result<Recording, StoreError> {
+    read_group(path, None)
+}
+
+/// Like [`read`], but the channels are the group of signal `pick` (0-based among the file's
+/// signals other than annotations): every signal at its rate and of its kind (voltage or not). A
+/// signal that is not a voltage is read in its own physical unit.
+///
+/// # Errors
+/// As [`read`]; also a `pick` beyond the file's signals.
+pub fn read_group(path: &Path, pick: Option<usize>) -> Result<Recording, StoreError> {
     let bytes = std::fs::read(path).map_err(|e| StoreError::io(path, e))?;
     let bad = |r: String| StoreError::malformed(path, r);
     if bytes.len() < 256 {
@@ -745,15 +757,31 @@ pub fn read(path: &Path) -> Result<Recording, StoreError> {
         return Err(bad(format!("record duration {duration} s is not positive")));
     }
     let is_ann = |s: &Signal| s.label == "EDF Annotations" || s.label == "BDF Annotations";
-    let Some(first) = signals
-        .iter()
-        .find(|s| !is_ann(s) && uv_per(&s.dimension).is_some())
-    else {
-        return Err(bad(
-            "no voltage signal (physical dimension uV, mV or V) in the file".into(),
-        ));
+    let data_signals: Vec<usize> = (0..signals.len())
+        .filter(|&i| !is_ann(&signals[i]))
+        .collect();
+    let chosen = match pick {
+        Some(k) => *data_signals.get(k).ok_or_else(|| {
+            bad(format!(
+                "signal {k} does not exist: the file has {} signal(s) besides annotations",
+                data_signals.len()
+            ))
+        })?,
+        None => match data_signals
+            .iter()
+            .copied()
+            .find(|&i| uv_per(&signals[i].dimension).is_some())
+        {
+            Some(i) => i,
+            None => *data_signals.first().ok_or_else(|| {
+                bad("no signal in the file besides annotations".to_string())
+            })?,
+        },
     };
-    let spr = first.spr;
+    let spr = signals[chosen].spr;
+    let voltage = uv_per(&signals[chosen].dimension).is_some();
+    let in_group =
+        |s: &Signal| !is_ann(s) && s.spr == spr && uv_per(&s.dimension).is_some() == voltage;
     let decode = |b: &[u8]| -> i32 {
         match kind {
             EdfKind::Edf => i32::from(i16::from_le_bytes([b[0], b[1]])),
@@ -763,18 +791,26 @@ pub fn read(path: &Path) -> Result<Recording, StoreError> {
     let mut names = Vec::new();
     let mut channels = Vec::new();
     let mut events = Vec::new();
+    let mut infos = Vec::new();
+    let mut notes = Vec::new();
     let mut sig_offset = 0;
     for s in &signals {
-        let chosen = !is_ann(s) && s.spr == spr && uv_per(&s.dimension).is_some();
-        if chosen {
+        let rate = s.spr as f64 / duration;
+        if in_group(s) {
             let k = uv_per(&s.dimension).unwrap_or(1.0);
-            let mut v = Vec::with_capacity(records * spr);
+            let mut v = Vec::with_capacity(records * s.spr);
             for r in 0..records {
                 let at = header_len + r * record_len + sig_offset;
                 for c in bytes[at..at + s.spr * width].chunks_exact(width) {
                     v.push(s.scaling.to_physical(decode(c)) * k);
                 }
             }
+            infos.push(crate::store::SignalInfo {
+                name: s.label.clone(),
+                fs_hz: rate,
+                unit: s.dimension.clone(),
+                channel: Some(channels.len()),
+            });
             names.push(s.label.clone());
             channels.push(v);
         } else if is_ann(s) {
@@ -782,6 +818,24 @@ pub fn read(path: &Path) -> Result<Recording, StoreError> {
                 let at = header_len + r * record_len + sig_offset;
                 parse_tals(&bytes[at..at + s.spr * width], &mut events);
             }
+        } else {
+            let why = if s.spr != spr {
+                format!("{} Hz, not {} Hz", rate, spr as f64 / duration)
+            } else {
+                format!("unit {:?}", s.dimension)
+            };
+            notes.push(format!(
+                "signal {} ({}) is not shown with the others ({why}): pick it with --channel {}",
+                infos.len(),
+                s.label,
+                infos.len()
+            ));
+            infos.push(crate::store::SignalInfo {
+                name: s.label.clone(),
+                fs_hz: rate,
+                unit: s.dimension.clone(),
+                channel: None,
+            });
         }
         sig_offset += s.spr * width;
     }
@@ -803,6 +857,8 @@ pub fn read(path: &Path) -> Result<Recording, StoreError> {
         time_s: None,
         channels,
         events,
+        signals: infos,
+        notes,
     })
 }
 
@@ -920,6 +976,7 @@ mod tests {
                     duration_s: None,
                     text: "charger plugged in".into(),
                 }],
+                ..Default::default()
             };
             let p = tmp(if kind == EdfKind::Edf {
                 "rt.edf"
@@ -959,6 +1016,7 @@ mod tests {
             time_s: None,
             channels: vec![(0..500).map(f64::from).collect()],
             events: vec![],
+            ..Default::default()
         };
         write(&p, &rec, EdfKind::Edf).unwrap();
         let mut b = std::fs::read(&p).unwrap();

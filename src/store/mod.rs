@@ -82,7 +82,7 @@ impl StoreError {
 }
 
 /// A recording in memory: channels of input-referred µV at one rate.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Default)]
 pub struct Recording {
     /// Sample rate, Hz.
     pub fs_hz: f64,
@@ -94,6 +94,24 @@ pub struct Recording {
     pub channels: Vec<Vec<f64>>,
     /// Markers and notes with their times (EDF+ annotations, CSV `# event` lines).
     pub events: Vec<Event>,
+    /// Every signal the file holds, loaded or not (EDF/BDF with mixed rates); empty when every
+    /// signal is in `channels` (see [`Recording::signal_list`]).
+    pub signals: Vec<SignalInfo>,
+    /// What the reader left out and why ("SpO2 (1 Hz) is at another rate: --channel SpO2").
+    pub notes: Vec<String>,
+}
+
+/// One signal of a file, as listed to the user.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SignalInfo {
+    /// Label in the file.
+    pub name: String,
+    /// Its sample rate, Hz.
+    pub fs_hz: f64,
+    /// Physical unit as the file says it.
+    pub unit: String,
+    /// Index in `channels` when it was loaded.
+    pub channel: Option<usize>,
 }
 
 /// A marker or note at a time in a recording.
@@ -116,6 +134,53 @@ impl Recording {
     /// True when there are no frames.
     pub fn is_empty(&self) -> bool {
         self.len() == 0
+    }
+
+    /// Every signal of the file with name, rate and unit (the loaded channels when the reader
+    /// had nothing more to say).
+    pub fn signal_list(&self) -> Vec<SignalInfo> {
+        if !self.signals.is_empty() {
+            return self.signals.clone();
+        }
+        self.names
+            .iter()
+            .enumerate()
+            .map(|(k, n)| SignalInfo {
+                name: n.clone(),
+                fs_hz: self.fs_hz,
+                unit: "uV".into(),
+                channel: Some(k),
+            })
+            .collect()
+    }
+
+    /// The signal `sel` names, as an index into [`Recording::signal_list`]: a 0-based index, or a
+    /// name (exact, then case-insensitive).
+    ///
+    /// # Errors
+    /// A one-line message listing what the file has.
+    pub fn find_signal(&self, sel: &str) -> Result<usize, String> {
+        let list = self.signal_list();
+        let found = match sel.trim().parse::<usize>() {
+            Ok(k) if k < list.len() => Some(k),
+            Ok(_) => None,
+            Err(_) => list
+                .iter()
+                .position(|s| s.name == sel)
+                .or_else(|| list.iter().position(|s| s.name.eq_ignore_ascii_case(sel))),
+        };
+        found.ok_or_else(|| {
+            let names: Vec<String> = list
+                .iter()
+                .enumerate()
+                .map(|(k, s)| format!("{k} {} ({} Hz, {})", s.name, s.fs_hz, s.unit))
+                .collect();
+            format!(
+                "--channel {sel}: the file has {} signal(s): {}",
+                list.len(),
+                names.join(", ")
+            )
+        })
     }
 
     /// Time of frame `i`, s: the file's own time base when it had one.
@@ -146,6 +211,11 @@ impl Default for ReadOptions {
             channels: 1,
         }
     }
+}
+
+/// The lower-case extension of a path ("" when none).
+pub fn extension_of(path: &Path) -> String {
+    extension(path)
 }
 
 fn extension(path: &Path) -> String {

@@ -67,6 +67,7 @@ pub fn read(path: &Path, kind: Sample, opts: &ReadOptions) -> Result<Recording, 
         time_s: None,
         channels,
         events: Vec::new(),
+        ..Default::default()
     })
 }
 

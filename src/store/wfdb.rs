@@ -165,5 +165,6 @@ pub fn read(path: &Path) -> Result<Recording, StoreError> {
         time_s: None,
         channels,
         events: Vec::new(),
+        ..Default::default()
     })
 }

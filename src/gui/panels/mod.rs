@@ -5,6 +5,7 @@ pub mod caution;
 pub mod chain;
 pub mod display;
 pub mod files;
+pub mod front_end;
 pub mod help;
 pub mod parts;
 pub mod record;

@@ -14,6 +14,27 @@ pub struct SourcePicker {
     baud: u32,
     format: Option<Format>,
     fs_hz: f64,
+    rate_set: bool,
+}
+
+/// The port list with the active port in it (first when the OS does not list it, as with a
+/// pseudo-terminal), and the path to keep selected: the one chosen, if the OS still lists it or
+/// it is the active port; else the active port; else the first listed.
+pub fn port_choices(listed: Vec<String>, chosen: &str, active: Option<&str>) -> (Vec<String>, String) {
+    let mut ports = listed;
+    if let Some(a) = active
+        && !ports.iter().any(|p| p == a)
+    {
+        ports.insert(0, a.to_string());
+    }
+    let keep = if !chosen.is_empty() && (ports.iter().any(|p| p == chosen) || Some(chosen) == active) {
+        chosen.to_string()
+    } else if let Some(a) = active {
+        a.to_string()
+    } else {
+        ports.first().cloned().unwrap_or_default()
+    };
+    (ports, keep)
 }
 
 impl Default for SourcePicker {
@@ -24,7 +45,8 @@ impl Default for SourcePicker {
             ports,
             baud: 115_200,
             format: None,
-            fs_hz: 0.0,
+            fs_hz: 250.0,
+            rate_set: false,
         }
     }
 }
@@ -38,8 +60,22 @@ pub enum SourceRequest {
     Serial(SerialSpec),
 }
 
-/// Draws the source controls. `serial_active` says whether a serial port is the current source.
-pub fn show(ui: &mut egui::Ui, p: &mut SourcePicker, serial_active: bool) -> Option<SourceRequest> {
+/// Draws the source controls. `active` is the serial port being read, if any; `scale` the board's
+/// ADC model for channel 1 (the DSP thread applies the whole front end live).
+pub fn show(
+    ui: &mut egui::Ui,
+    p: &mut SourcePicker,
+    active: Option<&str>,
+    scale: InputScale,
+) -> Option<SourceRequest> {
+    let serial_active = active.is_some();
+    if let Some(a) = active
+        && !p.ports.iter().any(|x| x == a)
+    {
+        let (ports, keep) = port_choices(std::mem::take(&mut p.ports), &p.path, active);
+        p.ports = ports;
+        p.path = keep;
+    }
     let mut req = None;
     ui.horizontal(|ui| {
         if ui
@@ -61,13 +97,20 @@ pub fn show(ui: &mut egui::Ui, p: &mut SourcePicker, serial_active: bool) -> Opt
             .selected_text(if p.path.is_empty() { "choose…".to_string() } else { p.path.clone() })
             .show_ui(ui, |ui| {
                 for name in &p.ports {
-                    ui.selectable_value(&mut p.path, name.clone(), name);
+                    let label = if Some(name.as_str()) == active {
+                        format!("{name} (active)")
+                    } else {
+                        name.clone()
+                    };
+                    ui.selectable_value(&mut p.path, name.clone(), label);
                 }
             })
             .response
             .on_hover_text("Serial ports the system lists. A pseudo-terminal from `leadline simulate --pty` can be typed below.");
-        if ui.button("Refresh").on_hover_text("List the serial ports again (after plugging a board in).").clicked() {
-            p.ports = list_ports();
+        if ui.button("Refresh").on_hover_text("List the serial ports again (after plugging a board in); the chosen port stays chosen.").clicked() {
+            let (ports, keep) = port_choices(list_ports(), &p.path, active);
+            p.ports = ports;
+            p.path = keep;
         }
     });
     ui.add(
@@ -103,15 +146,29 @@ pub fn show(ui: &mut egui::Ui, p: &mut SourcePicker, serial_active: bool) -> Opt
             .response
             .on_hover_text("Wire format; auto detects it from the first bytes.");
     });
-    ui.add(
-        egui::Slider::new(&mut p.fs_hz, 0.0..=4000.0)
-            .text("Sample rate")
-            .suffix(" Hz")
-            .max_decimals(0),
-    )
-    .on_hover_text(
-        "0: from the stream's `# fs=` line, else estimated from the arrival of the frames.",
-    );
+    ui.horizontal(|ui| {
+        ui.label("Sample rate");
+        egui::ComboBox::from_id_salt("serial-rate")
+            .selected_text(if p.rate_set {
+                "set to"
+            } else {
+                "from the stream, else estimated"
+            })
+            .show_ui(ui, |ui| {
+                ui.selectable_value(&mut p.rate_set, false, "from the stream, else estimated");
+                ui.selectable_value(&mut p.rate_set, true, "set to");
+            })
+            .response
+            .on_hover_text("From the stream's `# fs=` line when it sends one, else estimated from when the frames arrive; or the rate you set.");
+        if p.rate_set {
+            ui.add(
+                egui::DragValue::new(&mut p.fs_hz)
+                    .range(1.0..=100_000.0)
+                    .speed(1.0)
+                    .suffix(" Hz"),
+            );
+        }
+    });
     if ui
         .add_enabled(!p.path.is_empty(), egui::Button::new("Connect"))
         .on_hover_text("Read this port. If the device goes away the monitor keeps running and reopens it when it returns.")
@@ -121,10 +178,30 @@ pub fn show(ui: &mut egui::Ui, p: &mut SourcePicker, serial_active: bool) -> Opt
             path: p.path.clone(),
             baud: p.baud,
             format: p.format,
-            fs_hz: (p.fs_hz > 0.0).then_some(p.fs_hz),
-            scale: InputScale::default(),
+            fs_hz: p.rate_set.then_some(p.fs_hz),
+            scale,
             physical_to_uv: 1e3,
         }));
     }
     req
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_active_port_is_listed_and_kept() {
+        let listed = vec!["/dev/ttyS0".to_string(), "/dev/ttyUSB0".to_string()];
+        // A pseudo-terminal the OS does not list: shown first, and kept after a refresh.
+        let (ports, keep) = port_choices(listed.clone(), "/dev/pts/4", Some("/dev/pts/4"));
+        assert_eq!(ports[0], "/dev/pts/4");
+        assert_eq!(keep, "/dev/pts/4");
+        // A chosen port the OS still lists stays chosen.
+        let (_, keep) = port_choices(listed.clone(), "/dev/ttyUSB0", None);
+        assert_eq!(keep, "/dev/ttyUSB0");
+        // A chosen port that vanished gives way to the active one.
+        let (_, keep) = port_choices(listed, "/dev/ttyACM9", Some("/dev/ttyUSB0"));
+        assert_eq!(keep, "/dev/ttyUSB0");
+    }
 }

@@ -4,6 +4,15 @@ use eframe::egui;
 
 use crate::gui::state::View;
 
+/// A sample rate as people write it: "250 Hz", "249.9 Hz", "1000 Hz".
+pub fn rate_text(fs: f64) -> String {
+    if (fs - fs.round()).abs() < 0.05 {
+        format!("{:.0} Hz", fs)
+    } else {
+        format!("{fs:.1} Hz")
+    }
+}
+
 /// Draws the status line.
 pub fn show(
     ui: &mut egui::Ui,
@@ -17,7 +26,7 @@ pub fn show(
         match &view.snapshot {
             Some(s) => {
                 ui.separator();
-                ui.label(format!("{} Hz", s.fs_hz));
+                ui.label(rate_text(s.fs_hz));
                 ui.separator();
                 ui.label(format!("frames {}", s.stats.frames));
                 ui.separator();
@@ -36,8 +45,13 @@ pub fn show(
                 clip.on_hover_text("Samples at an ADC rail: the true signal may have been larger.");
                 if let Some(sc) = s.scale {
                     ui.separator();
-                    ui.label(format!("{:.3} µV/LSB", sc.uv_per_count()))
+                    ui.label(format!("{} µV/LSB", crate::scale::sig3(sc.uv_per_count())))
                         .on_hover_text("Input-referred resolution: ADC step divided by the front-end gain.");
+                }
+                if let Some(w) = &s.scale_check {
+                    ui.separator();
+                    ui.colored_label(ui.visuals().warn_fg_color, w)
+                        .on_hover_text("Set the board's ADC bits, reference, zero level and gain under Front end.");
                 }
                 if s.source_done {
                     ui.separator();
@@ -95,10 +109,15 @@ pub fn serial_line(ui: &mut egui::Ui, st: &crate::source::serial::SerialStatus) 
         if let Some(fs) = st.fs_hz {
             ui.separator();
             if st.estimated {
-                ui.label(format!("{fs:.1} Hz estimated (±{:.1} Hz)", st.spread_hz))
-                    .on_hover_text("No rate was given or sent: estimated from when the frames arrived.");
+                let spread = if st.spread_hz.is_finite() {
+                    format!(" ±{:.1} Hz", st.spread_hz)
+                } else {
+                    String::new()
+                };
+                ui.label(format!("{fs:.1} Hz estimated{spread}"))
+                    .on_hover_text("No rate was given or sent: estimated from when the frames arrived (least-squares slope of frames against time over 2 s; ± is its standard error).");
             } else {
-                ui.label(format!("{fs} Hz"));
+                ui.label(rate_text(fs));
             }
         }
         let w = st.wire;
