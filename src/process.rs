@@ -612,6 +612,24 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 latency_window_start = now;
             }
             spectrum.update(r);
+            // An automatic notch follows the measured mains of the followed channel.
+            if chain.notch.enabled
+                && chain.notch.auto
+                && let Some(next) = spectrum
+                    .frame
+                    .as_ref()
+                    .and_then(|f| f.mains_raw.as_ref())
+                    .and_then(|m| chain.notch.following(m))
+            {
+                let mut next_chain = chain;
+                next_chain.notch = next;
+                if let Some(run) = state.as_mut()
+                    && run.chain.retune(next_chain).is_ok()
+                {
+                    chain = next_chain;
+                }
+            }
+            let Some(r) = state.as_ref() else { continue };
             let newest_age_ms = newest_pending
                 .take()
                 .map_or(0.0, |t| now.duration_since(t).as_secs_f64() * 1e3);

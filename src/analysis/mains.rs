@@ -63,8 +63,55 @@ pub struct MainsReport {
     pub harmonics: Vec<Harmonic>,
     /// Band powers.
     pub band_power: BandPower,
-    /// ECG-band power over mains power, dB.
-    pub snr_db: f64,
+    /// ECG-band power over mains power, dB; None when either is nil (a flat or mains-free input
+    /// has no such ratio).
+    pub snr_db: Option<f64>,
+    /// How far the fundamental's PSD peak stands above the median PSD within ±3 Hz of it, dB.
+    pub prominence_db: f64,
+}
+
+impl MainsReport {
+    /// Mains is really there: a peak at least 10 dB above its neighbourhood and 0.5 µV rms or
+    /// more at the electrodes (common practice: below that, a notch has nothing to remove).
+    pub fn present(&self) -> bool {
+        self.prominence_db >= 10.0 && self.harmonics.first().is_some_and(|h| h.rms_uv >= 0.5)
+    }
+
+    /// Harmonics (order ≥ 2) standing out enough to be worth a notch of their own: at least
+    /// a tenth of the fundamental's amplitude.
+    pub fn strong_harmonics(&self) -> u32 {
+        let f = self.harmonics.first().map_or(0.0, |h| h.rms_uv);
+        let mut n = 0;
+        for h in self.harmonics.iter().skip(1) {
+            if h.rms_uv >= 0.1 * f {
+                n = h.order - 1;
+            }
+        }
+        n.min(4)
+    }
+
+    /// The notch this measurement asks for: the measured fundamental (held within ±1 Hz of the
+    /// 50 or 60 Hz region) and the strong harmonics. None when no mains is present.
+    pub fn notch_hz(&self) -> Option<(f64, u32)> {
+        self.present().then(|| {
+            (
+                self.mains_hz
+                    .clamp(self.nominal_hz - 1.0, self.nominal_hz + 1.0),
+                self.strong_harmonics(),
+            )
+        })
+    }
+
+    /// "mains measured at 60.0 Hz, notch at 50 Hz" when the notch sits in the other region.
+    pub fn disagrees_with(&self, notch_hz: f64) -> Option<String> {
+        (self.present() && (notch_hz - self.nominal_hz).abs() > 5.0).then(|| {
+            format!(
+                "mains measured at {:.1} Hz, notch at {} Hz",
+                self.mains_hz,
+                crate::scale::sig3(notch_hz)
+            )
+        })
+    }
 }
 
 /// Magnitude of the DFT of `xw` (already windowed) at `f`, by a rotating phasor.
@@ -178,12 +225,35 @@ pub fn analyse(x_uv: &[f64], fs: f64, psd: &Psd) -> Result<MainsReport, MainsErr
         muscle_uv2: psd.band_power(40.0, fs / 2.0 + psd.bin_hz, near_mains),
         mains_uv2: harmonics.iter().map(|h| h.rms_uv * h.rms_uv).sum(),
     };
-    let snr_db = 10.0 * (band_power.ecg_uv2.max(1e-300) / band_power.mains_uv2.max(1e-300)).log10();
+    // Below 1e-6 µV² (1 nV rms) a band is empty: no ratio is given.
+    let snr_db = (band_power.ecg_uv2 > 1e-6 && band_power.mains_uv2 > 1e-6)
+        .then(|| 10.0 * (band_power.ecg_uv2 / band_power.mains_uv2).log10());
+    let mut around: Vec<f64> = psd
+        .freqs_hz
+        .iter()
+        .zip(&psd.density)
+        .filter(|(f, _)| {
+            let d = (**f - f_peak).abs();
+            d <= SEARCH_HZ && d > MAINS_GUARD_HZ.max(2.0 * psd.bin_hz)
+        })
+        .map(|(_, d)| *d)
+        .collect();
+    around.sort_by(f64::total_cmp);
+    let floor = around.get(around.len() / 2).copied().unwrap_or(0.0);
+    let peak = psd.density[peak_bin];
+    let prominence_db = if peak > 0.0 && floor > 0.0 {
+        10.0 * (peak / floor).log10()
+    } else if peak > 0.0 {
+        f64::INFINITY.min(300.0)
+    } else {
+        0.0
+    };
     Ok(MainsReport {
         nominal_hz: nominal,
         mains_hz: f0,
         harmonics,
         band_power,
         snr_db,
+        prominence_db,
     })
 }

@@ -24,6 +24,7 @@ pub fn bench_chain() -> ChainSettings {
             mains_hz: 60.0,
             q: 30.0,
             harmonics: 0,
+            auto: false,
         },
         lowpass: LowPass {
             enabled: true,

@@ -9,6 +9,57 @@ use crate::dsp::chain;
 use crate::store::{self, StoreError};
 
 
+/// The notch `--notch auto` chooses: the mains measured in the first channel's spectrum (the
+/// region, the frequency within ±1 Hz of it, the strong harmonics), printed on stderr. With no
+/// mains in the input the notch is left out.
+///
+/// # Errors
+/// A recording too short or too slow for a mains measurement.
+fn auto_notch(rec: &store::Recording, notch: crate::dsp::Notch) -> Result<crate::dsp::Notch> {
+    use crate::analysis::mains;
+    use crate::dsp::spectrum::{Welch, segment_for};
+    let x = rec.channels.first().map(Vec::as_slice).unwrap_or_default();
+    let segment = segment_for(rec.fs_hz, 4.0)
+        .min(x.len().next_power_of_two() / 2)
+        .max(256);
+    let psd = Welch::new(segment)
+        .and_then(|mut w| w.compute(x, rec.fs_hz))
+        .map_err(|e| BadInput(format!("--notch auto: {e}")))?;
+    let report = mains::analyse(x, rec.fs_hz, &psd)
+        .map_err(|e| BadInput(format!("--notch auto: {e}")))?;
+    match report.notch_hz() {
+        Some((hz, harmonics)) => {
+            eprintln!(
+                "--notch auto: mains measured at {:.2} Hz ({:.1} µV rms, {} strong harmonic(s)) → notch {:.2} Hz{}",
+                report.mains_hz,
+                report.harmonics[0].rms_uv,
+                harmonics,
+                hz,
+                if harmonics > 0 {
+                    format!(" and harmonics 2–{}", harmonics + 1)
+                } else {
+                    String::new()
+                }
+            );
+            Ok(crate::dsp::Notch {
+                mains_hz: hz,
+                harmonics,
+                ..notch
+            })
+        }
+        None => {
+            eprintln!(
+                "--notch auto: no mains line stands out in the input (largest near {:.0} Hz: {:.2} µV rms); no notch",
+                report.nominal_hz, report.harmonics[0].rms_uv
+            );
+            Ok(crate::dsp::Notch {
+                enabled: false,
+                ..notch
+            })
+        }
+    }
+}
+
 /// Runs the command. Returns the number of frames written.
 ///
 /// # Errors
@@ -16,11 +67,14 @@ use crate::store::{self, StoreError};
 pub fn run(a: &FilterArgs) -> Result<usize> {
     let (mut rec, _) = a.src.load("0")?;
     let setup = a.src.setup()?;
-    let no_stage = a.chain.highpass.is_none() && a.chain.notch.is_none() && a.chain.lowpass.is_none();
-    let settings = match (&setup, no_stage) {
-        (Some(s), true) => s.chain,
+    a.chain.check_notch(true)?;
+    let mut settings = match (&setup, a.chain.any_stage()) {
+        (Some(s), false) => s.chain,
         _ => a.chain.settings(),
     };
+    if settings.notch.enabled && settings.notch.auto {
+        settings.notch = auto_notch(&rec, settings.notch)?;
+    }
     let sections = settings
         .design(rec.fs_hz)
         .map_err(|e| BadInput(e.to_string()))?;

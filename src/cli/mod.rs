@@ -488,9 +488,10 @@ pub struct ChainArgs {
     /// High-pass Butterworth order (1–8).
     #[arg(long, default_value_t = 2, value_name = "N")]
     pub highpass_order: u32,
-    /// Mains notch frequency, Hz.
-    #[arg(long, value_name = "HZ")]
-    pub notch: Option<f64>,
+    /// Mains notch frequency, Hz, or `auto` (filter only): the frequency and harmonics measured
+    /// in the input's own spectrum, printed on stderr.
+    #[arg(long, value_name = "HZ|auto")]
+    pub notch: Option<String>,
     /// Notch Q (−3 dB bandwidth = frequency / Q).
     #[arg(long, default_value_t = 30.0, value_name = "Q")]
     pub notch_q: f64,
@@ -509,7 +510,44 @@ pub struct ChainArgs {
 }
 
 impl ChainArgs {
-    /// The chain these flags describe.
+    /// The notch frequency given, or None for none or `auto`.
+    fn notch_hz(&self) -> Option<f64> {
+        self.notch.as_deref().and_then(|t| t.trim().parse::<f64>().ok())
+    }
+
+    /// True when `--notch auto` was given.
+    pub fn notch_auto(&self) -> bool {
+        self.notch
+            .as_deref()
+            .is_some_and(|t| t.trim().eq_ignore_ascii_case("auto"))
+    }
+
+    /// True when any stage's flag was given.
+    pub fn any_stage(&self) -> bool {
+        self.highpass.is_some() || self.notch.is_some() || self.lowpass.is_some()
+    }
+
+    /// Checks `--notch`: a number, or `auto` where the command has an input to measure.
+    ///
+    /// # Errors
+    /// [`BadInput`] naming the value.
+    pub fn check_notch(&self, auto_allowed: bool) -> Result<(), BadInput> {
+        match self.notch.as_deref() {
+            None => Ok(()),
+            Some(_) if self.notch_auto() && auto_allowed => Ok(()),
+            Some(_) if self.notch_auto() => Err(BadInput(
+                "--notch auto measures the input's mains: it works with `filter`; give a frequency here".into(),
+            )),
+            Some(t) => match t.trim().parse::<f64>() {
+                Ok(f) if f.is_finite() && f > 0.0 => Ok(()),
+                _ => Err(BadInput(format!(
+                    "--notch {t}: expected a frequency in Hz or auto"
+                ))),
+            },
+        }
+    }
+
+    /// The chain these flags describe (an automatic notch starts at 50 Hz until measured).
     pub fn settings(&self) -> crate::dsp::ChainSettings {
         use crate::dsp::{ChainSettings, HighPass, LowPass, Notch};
         ChainSettings {
@@ -520,9 +558,10 @@ impl ChainArgs {
             },
             notch: Notch {
                 enabled: self.notch.is_some(),
-                mains_hz: self.notch.unwrap_or(50.0),
+                mains_hz: self.notch_hz().unwrap_or(50.0),
                 q: self.notch_q,
                 harmonics: self.notch_harmonics,
+                auto: self.notch_auto(),
             },
             lowpass: LowPass {
                 enabled: self.lowpass.is_some(),
@@ -538,6 +577,7 @@ impl ChainArgs {
     /// # Errors
     /// [`BadInput`] with the design error's message.
     pub fn design(&self, fs: f64) -> Result<Vec<crate::dsp::Section>, BadInput> {
+        self.check_notch(false)?;
         self.settings()
             .design(fs)
             .map_err(|e| BadInput(e.to_string()))

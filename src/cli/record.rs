@@ -62,8 +62,8 @@ pub fn run(a: &RecordArgs) -> Result<()> {
         (None, None) => SourceSpec::parse("synth", a.fs, scale).map_err(|e| e.to_string()),
     }
     .map_err(BadInput)?;
-    let flags_given =
-        a.chain.highpass.is_some() || a.chain.notch.is_some() || a.chain.lowpass.is_some();
+    a.chain.check_notch(true)?;
+    let flags_given = a.chain.any_stage();
     let chain = match &setup {
         Some(s) if !flags_given => s.chain,
         _ => a.chain.settings(),

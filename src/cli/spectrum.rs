@@ -76,9 +76,16 @@ pub fn run(a: &SpectrumArgs) -> Result<()> {
         plot_png::psd_png(path, &psd, report.as_ref().ok(), &title)?;
     }
     match &report {
+        Ok(r) if !r.present() => eprintln!(
+            "no mains line stands out (largest near {:.0} Hz: {:.2} µV rms)",
+            r.nominal_hz, r.harmonics[0].rms_uv
+        ),
         Ok(r) => eprintln!(
-            "mains {:.3} Hz, fundamental {:.2} µV rms, signal/mains {:.1} dB",
-            r.mains_hz, r.harmonics[0].rms_uv, r.snr_db
+            "mains {:.3} Hz, fundamental {:.2} µV rms{}",
+            r.mains_hz,
+            r.harmonics[0].rms_uv,
+            r.snr_db
+                .map_or(String::new(), |d| format!(", signal/mains {d:.1} dB"))
         ),
         Err(e) => eprintln!("no mains report: {e}"),
     }

@@ -67,6 +67,9 @@ pub struct Notch {
     pub q: f64,
     /// Extra notches at harmonics 2… (0–4), where below Nyquist.
     pub harmonics: u32,
+    /// Follow the measured mains: the 50/60 Hz region, the exact frequency within ±1 Hz of it and
+    /// the strong harmonics (the monitor retunes from each spectrum estimate).
+    pub auto: bool,
 }
 
 impl Default for Notch {
@@ -76,7 +79,21 @@ impl Default for Notch {
             mains_hz: 50.0,
             q: 30.0,
             harmonics: 0,
+            auto: false,
         }
+    }
+}
+
+impl Notch {
+    /// This notch moved to what a mains measurement asks for, if it asks for a change bigger
+    /// than 0.05 Hz or other harmonics.
+    pub fn following(&self, report: &crate::analysis::mains::MainsReport) -> Option<Notch> {
+        let (hz, harmonics) = report.notch_hz()?;
+        ((hz - self.mains_hz).abs() > 0.05 || harmonics != self.harmonics).then_some(Notch {
+            mains_hz: hz,
+            harmonics,
+            ..*self
+        })
     }
 }
 

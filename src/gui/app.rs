@@ -179,6 +179,11 @@ impl LeadlineApp {
             if let Some(b) = &mut self.bench {
                 b.on_snapshot(s.latency_ms);
             }
+            // An automatic notch is moved by the DSP thread: show where it is now.
+            if self.settings.chain.notch.auto && s.chain.notch.auto {
+                self.settings.chain.notch.mains_hz = s.chain.notch.mains_hz;
+                self.settings.chain.notch.harmonics = s.chain.notch.harmonics;
+            }
             self.view.snapshot = Some(s);
             self.view.snapshots_seen += 1;
             return true;
@@ -701,6 +706,29 @@ impl LeadlineApp {
                 }
                     if panels::chain::show(ui, &mut self.settings.chain, fs) {
                         self.pending.push(Control::Chain(self.settings.chain));
+                    }
+                    let mains = self
+                        .view
+                        .snapshot
+                        .as_ref()
+                        .and_then(|s| s.spectrum.as_ref())
+                        .and_then(|f| f.mains_raw.clone());
+                    if let Some(m) = mains.as_ref()
+                        && self.settings.chain.notch.enabled
+                        && !self.settings.chain.notch.auto
+                        && let Some(msg) = m.disagrees_with(self.settings.chain.notch.mains_hz)
+                    {
+                        ui.horizontal_wrapped(|ui| {
+                            ui.colored_label(ui.visuals().warn_fg_color, msg);
+                            if ui
+                                .button(format!("Notch at {:.0} Hz", m.nominal_hz))
+                                .on_hover_text("Move the notch to the measured mains region.")
+                                .clicked()
+                            {
+                                self.settings.chain.notch.mains_hz = m.nominal_hz;
+                                self.pending.push(Control::Chain(self.settings.chain));
+                            }
+                        });
                     }
                     if let Some(e) = self
                         .view

@@ -50,9 +50,27 @@ pub fn show(ui: &mut egui::Ui, chain: &mut ChainSettings, fs_hz: f64) -> bool {
         .on_hover_text("Second-order notch at the mains frequency (−3 dB bandwidth = f0/Q).");
     ui.add_enabled_ui(chain.notch.enabled, |ui| {
         ui.horizontal(|ui| {
-            ui.selectable_value(&mut chain.notch.mains_hz, 50.0, "50 Hz");
-            ui.selectable_value(&mut chain.notch.mains_hz, 60.0, "60 Hz");
+            ui.add_enabled_ui(!chain.notch.auto, |ui| {
+                ui.selectable_value(&mut chain.notch.mains_hz, 50.0, "50 Hz");
+                ui.selectable_value(&mut chain.notch.mains_hz, 60.0, "60 Hz");
+            });
+            ui.checkbox(&mut chain.notch.auto, "auto")
+                .on_hover_text("Follow the measured mains: its region (50/60 Hz), its exact frequency within ±1 Hz, and the harmonics that stand out. Retuned about once a second from the spectrum.");
         });
+        if chain.notch.auto {
+            ui.label(
+                egui::RichText::new(format!(
+                    "following the mains: {:.2} Hz{}",
+                    chain.notch.mains_hz,
+                    if chain.notch.harmonics > 0 {
+                        format!(" + {} harmonic(s)", chain.notch.harmonics)
+                    } else {
+                        String::new()
+                    }
+                ))
+                .small(),
+            );
+        }
         ui.add(
             egui::Slider::new(&mut chain.notch.q, 1.0..=100.0)
                 .logarithmic(true)

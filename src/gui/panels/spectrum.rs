@@ -105,14 +105,16 @@ pub fn report_text(r: &MainsReport) -> String {
             }
         })
         .collect();
+    let snr = r
+        .snr_db
+        .map_or(String::new(), |d| format!(" · signal/mains {d:.1} dB"));
     format!(
-        "mains {:.2} Hz: {} · ECG band {:.0} µV rms · wander {:.0} µV · muscle {:.1} µV · signal/mains {:.1} dB",
+        "mains {:.2} Hz: {} · ECG band {:.0} µV rms · wander {:.0} µV · muscle {:.1} µV{snr}",
         r.mains_hz,
         lines.join(", "),
         r.band_power.ecg_uv2.sqrt(),
         r.band_power.wander_uv2.sqrt(),
         r.band_power.muscle_uv2.sqrt(),
-        r.snr_db
     )
 }
 
