@@ -30,7 +30,16 @@ fn main() -> ExitCode {
     match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(e) => {
-            eprintln!("leadline: {e:#}");
+            // The causes, each once: an error whose text already holds its source's text (a
+            // file error says "PATH: No such file…") does not repeat it.
+            let mut text = e.to_string();
+            for cause in e.chain().skip(1) {
+                let c = cause.to_string();
+                if !text.contains(&c) {
+                    text = format!("{text}: {c}");
+                }
+            }
+            eprintln!("leadline: {text}");
             if e.downcast_ref::<leadline::cli::BadInput>().is_some()
                 || e.downcast_ref::<leadline::source::SynthError>().is_some()
             {

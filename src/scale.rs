@@ -458,10 +458,10 @@ mod tests {
     #[test]
     fn twenty_four_bit_bipolar_by_hand() {
         // Hand computation: ±2.4 V over 2^24 counts = 0.286102 µV per count at the pin; gain 6
-        // → 0.0476837158 µV per count. Count 20972 → 1000.0076 µV.
+        // → 0.0476837158 µV per count. Count 20972 → 20972 × 0.0476837158 = 1000.0229 µV.
         let s = InputScale::bipolar(24, 2.4, 6.0).unwrap();
         assert!((s.uv_per_count() - 0.047_683_715_820_312_5).abs() < 1e-15);
-        assert!((s.counts_to_uv(20_972.0) - 1000.007_629_394_531_2).abs() < 1e-9);
+        assert!((s.counts_to_uv(20_972.0) - 1000.022_888_183_593_6).abs() < 1e-9);
         assert_eq!(s.max_count(), 8_388_607.0);
         // ±400 mV input-referred full scale (2.4 V / 6).
         assert!((s.full_scale_mv() - 399.999_952_316).abs() < 1e-6);

@@ -78,9 +78,9 @@ fn binary_garbage_bad_crc_and_sequence_gaps_are_counted() {
     let (good, _) = binary_stream(10, 2, binary::FORMAT_I16, 0);
     let flen = good.len() / 10;
     // Garbage before, between and inside (a truncated frame) frames.
-    let mut bytes = vec![0x00, 0xA5, 0x13, 0xFF];
+    let mut bytes = vec![0x00, binary::SYNC[0], 0x13, 0xFF];
     bytes.extend_from_slice(&good[..flen]);
-    bytes.extend_from_slice(&[0xA5, 0x5A, 0x01]);
+    bytes.extend_from_slice(&[binary::SYNC[0], binary::SYNC[1], binary::VERSION]);
     bytes.extend_from_slice(&good[flen..3 * flen]);
     let (frames, d) = decode_binary(&bytes, &[]);
     assert_eq!(frames.len(), 3);
@@ -191,7 +191,7 @@ fn a_chunk_ending_in_a_lone_sync_byte_is_kept_for_later() {
     let (good, _) = binary_stream(2, 1, binary::FORMAT_I16, 0);
     let mut d = binary::Decoder::new();
     let mut out = Vec::new();
-    // A whole frame then one byte 0xA5 (the start of the next sync word), then the rest.
+    // A whole frame then one byte (the first of the next sync word), then the rest.
     let flen = good.len() / 2;
     d.push(&good[..flen], &mut out);
     d.push(&good[flen..flen + 1], &mut out);
@@ -199,6 +199,31 @@ fn a_chunk_ending_in_a_lone_sync_byte_is_kept_for_later() {
     d.push(&good[flen + 1..], &mut out);
     assert_eq!(out.len(), 2);
     assert_eq!(d.stats().garbage_bytes, 0);
+}
+
+#[test]
+fn frame_layout_and_version() {
+    // Our own layout: sync 0xD7 0x1E, version 1, seq, channels, format, samples, CRC over all
+    // after the sync word (CRC-16/CCITT-FALSE, check value "123456789" → 0x29B1).
+    assert_eq!(binary::crc16(b"123456789"), 0x29B1);
+    let mut f = Vec::new();
+    binary::encode(0x0102, &[1000, -2], binary::FORMAT_I16, &mut f);
+    assert_eq!(&f[..7], &[0xD7, 0x1E, 1, 0x02, 0x01, 2, 1]);
+    assert_eq!(&f[7..11], &[0xE8, 0x03, 0xFE, 0xFF]);
+    let crc = binary::crc16(&f[2..11]);
+    assert_eq!(&f[11..], &crc.to_le_bytes());
+    // The same frame marked as another version is not decoded.
+    let mut other = f.clone();
+    other[2] = 2;
+    let tail = binary::crc16(&other[2..11]).to_le_bytes();
+    other[11..].copy_from_slice(&tail);
+    let mut d = binary::Decoder::new();
+    let mut out = Vec::new();
+    d.push(&other, &mut out);
+    assert!(out.is_empty());
+    d.push(&f, &mut out);
+    assert_eq!(out.len(), 1);
+    assert_eq!(out[0].samples, vec![1000.0, -2.0]);
 }
 
 #[test]

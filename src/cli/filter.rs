@@ -8,7 +8,6 @@ use super::{BadInput, FilterArgs};
 use crate::dsp::chain;
 use crate::store::{self, StoreError};
 
-
 /// The notch `--notch auto` chooses: the mains measured in the first channel's spectrum (the
 /// region, the frequency within ±1 Hz of it, the strong harmonics), printed on stderr. With no
 /// mains in the input the notch is left out.
@@ -25,8 +24,8 @@ fn auto_notch(rec: &store::Recording, notch: crate::dsp::Notch) -> Result<crate:
     let psd = Welch::new(segment)
         .and_then(|mut w| w.compute(x, rec.fs_hz))
         .map_err(|e| BadInput(format!("--notch auto: {e}")))?;
-    let report = mains::analyse(x, rec.fs_hz, &psd)
-        .map_err(|e| BadInput(format!("--notch auto: {e}")))?;
+    let report =
+        mains::analyse(x, rec.fs_hz, &psd).map_err(|e| BadInput(format!("--notch auto: {e}")))?;
     match report.notch_hz() {
         Some((hz, harmonics)) => {
             eprintln!(

@@ -25,19 +25,24 @@ use clap::{Args, Parser, Subcommand, ValueEnum};
     version,
     about,
     long_about = None,
-    after_help = "Not a medical device; not for diagnosis. With electrodes on a person use only battery-powered or properly isolated equipment (IEC 60601-1, local regulations)."
+    after_help = CAUTION_HELP
 )]
 pub struct Cli {
     #[command(subcommand)]
     pub command: Option<Command>,
 }
 
+/// The caution every command that touches a person's signal prints in its help.
+pub const CAUTION_HELP: &str = "Not a medical device; not for diagnosis. With electrodes on a person use only battery-powered or properly isolated equipment, and follow IEC 60601-1, local regulations and licensed practice.";
+
 /// The commands. With none, the monitor opens on the simulator.
 #[derive(Debug, Subcommand)]
 pub enum Command {
     /// Open the live monitor window (the default).
+    #[command(after_help = CAUTION_HELP)]
     Monitor(MonitorArgs),
     /// Generate a synthetic ECG stream as the modelled board would send it.
+    #[command(after_help = CAUTION_HELP)]
     Simulate(SimulateArgs),
     /// Print the chain's second-order sections as JSON ([b0,b1,b2,a0,a1,a2] rows, scipy's sos layout).
     Sos(SosArgs),
@@ -54,6 +59,7 @@ pub enum Command {
     /// List the serial ports the system offers.
     Ports,
     /// Record a source headless to a file for a fixed time.
+    #[command(after_help = CAUTION_HELP)]
     Record(RecordArgs),
     /// Measure throughput on this machine (run a release build); the last line is JSON.
     Bench(BenchArgs),
@@ -243,9 +249,7 @@ impl InputArgs {
                 ))
                 .into());
             }
-            let base = setup
-                .as_ref()
-                .map(|s| s.front_end.per_channel(s.scale));
+            let base = setup.as_ref().map(|s| s.front_end.per_channel(s.scale));
             let fes = self.scale.front_ends(base)?.ok_or_else(|| {
                 BadInput(
                     "--units counts needs the board: --adc-bits N --adc-vref V --frontend-gain G [--adc-zero mid|bipolar|COUNTS], or --config FILE".into(),
@@ -264,11 +268,13 @@ impl InputArgs {
             }
             eprintln!(
                 "counts scaled as {}",
-                crate::scale::for_channel(&fes, ch).map_or(String::new(), |f| crate::scale::FrontEnd {
-                    values: crate::scale::ValueKind::Counts,
-                    ..*f
-                }
-                .describe())
+                crate::scale::for_channel(&fes, ch).map_or(String::new(), |f| {
+                    crate::scale::FrontEnd {
+                        values: crate::scale::ValueKind::Counts,
+                        ..*f
+                    }
+                    .describe()
+                })
             );
         } else if self.scale.any() {
             return Err(BadInput(
@@ -397,9 +403,7 @@ impl ScaleArgs {
                 Some(z) => {
                     adc.bipolar = false;
                     adc.offset_counts = z.parse::<f64>().map_err(|_| {
-                        BadInput(format!(
-                            "--adc-zero {z}: expected mid, bipolar or a count"
-                        ))
+                        BadInput(format!("--adc-zero {z}: expected mid, bipolar or a count"))
                     })?;
                 }
             }
@@ -512,7 +516,9 @@ pub struct ChainArgs {
 impl ChainArgs {
     /// The notch frequency given, or None for none or `auto`.
     fn notch_hz(&self) -> Option<f64> {
-        self.notch.as_deref().and_then(|t| t.trim().parse::<f64>().ok())
+        self.notch
+            .as_deref()
+            .and_then(|t| t.trim().parse::<f64>().ok())
     }
 
     /// True when `--notch auto` was given.
@@ -854,9 +860,9 @@ pub fn load_channel(
     }
     // A signal at another rate (or not a voltage): read its own group.
     let rec = crate::store::edf::read_group(input, Some(k)).map_err(as_input)?;
-    let ch = rec.signal_list()[k].channel.ok_or_else(|| {
-        BadInput(format!("--channel {channel}: the signal could not be read"))
-    })?;
+    let ch = rec.signal_list()[k]
+        .channel
+        .ok_or_else(|| BadInput(format!("--channel {channel}: the signal could not be read")))?;
     Ok((rec, ch))
 }
 

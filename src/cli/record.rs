@@ -71,7 +71,10 @@ pub fn run(a: &RecordArgs) -> Result<()> {
     // The board's front end applies to a board; the simulator models its own.
     let front_end = front_ends.filter(|_| matches!(spec, SourceSpec::Serial(_)));
     if a.scale.any() && front_end.is_none() {
-        eprintln!("leadline: the --adc-* and --frontend-gain options apply to a board's stream, not to {}", spec.label());
+        eprintln!(
+            "leadline: the --adc-* and --frontend-gain options apply to a board's stream, not to {}",
+            spec.label()
+        );
     }
     let pipeline = Pipeline::start(
         PipelineConfig {

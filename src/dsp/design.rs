@@ -58,7 +58,7 @@ pub enum DesignError {
     #[error("sample rate {0} Hz must be a positive number")]
     SampleRate(f64),
     /// A corner at or above Nyquist (fs/2), or not above 0 Hz.
-    #[error("{what} {hz} Hz must lie between 0 Hz and Nyquist ({nyquist} Hz at fs = {fs} Hz)")]
+    #[error("{what} {}: it must lie between 0 Hz and Nyquist ({} at fs = {})", hz_text(*hz), hz_text(*nyquist), hz_text(*fs))]
     Corner {
         what: &'static str,
         hz: f64,
@@ -77,6 +77,16 @@ pub enum DesignError {
     /// The gain must be finite.
     #[error("gain {0} must be a finite number")]
     Gain(f64),
+}
+
+/// A frequency as a person writes it: "125 Hz", "124.99 Hz", "not a number".
+fn hz_text(hz: f64) -> String {
+    if hz.is_nan() {
+        return "is not a number".into();
+    }
+    let t = format!("{hz:.2}");
+    let t = t.trim_end_matches('0').trim_end_matches('.');
+    format!("{t} Hz")
 }
 
 fn check_fs(fs: f64) -> Result<(), DesignError> {
@@ -302,6 +312,15 @@ mod tests {
         let e = butterworth_lowpass(2, 250.0, 500.0).unwrap_err();
         assert!(matches!(e, DesignError::Corner { .. }));
         assert!(e.to_string().contains("Nyquist (250 Hz"), "{e}");
+        // An estimated rate is not printed with fourteen decimals; a NaN is named as such.
+        let e =
+            crate::dsp::design::check_corner("high-pass corner", f64::NAN, 249.997_948_516_834_47)
+                .unwrap_err()
+                .to_string();
+        assert_eq!(
+            e,
+            "high-pass corner is not a number: it must lie between 0 Hz and Nyquist (125 Hz at fs = 250 Hz)"
+        );
         assert_eq!(notch(50.0, 0.0, 500.0), Err(DesignError::Q(0.0)));
         assert!(matches!(
             butterworth_highpass(9, 1.0, 500.0),

@@ -157,6 +157,15 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
                 start = Some((i, k));
                 break;
             }
+            // A row of numbers followed by a row as wide that is not all numbers: a bad value
+            // in the data, not more preamble.
+            let (next_no, next) = content[i + 1];
+            if split(next).len() == k {
+                return Err(StoreError::malformed(
+                    path,
+                    format!("line {next_no}: not a row of {k} numbers: {next:.60}"),
+                ));
+            }
         }
         interval = interval.or(preamble_interval(content[i].1));
     }

@@ -773,9 +773,9 @@ pub fn read_group(path: &Path, pick: Option<usize>) -> Result<Recording, StoreEr
             .find(|&i| uv_per(&signals[i].dimension).is_some())
         {
             Some(i) => i,
-            None => *data_signals.first().ok_or_else(|| {
-                bad("no signal in the file besides annotations".to_string())
-            })?,
+            None => *data_signals
+                .first()
+                .ok_or_else(|| bad("no signal in the file besides annotations".to_string()))?,
         },
     };
     let spr = signals[chosen].spr;

@@ -1,14 +1,20 @@
 //! Binary frames, little-endian:
-//! `0xA5 0x5A | seq: u16 | channels: u8 (1–8) | format: u8 (1 = i16, 2 = i24) | samples | crc: u16`,
-//! samples channel by channel, CRC-16/CCITT-FALSE (poly 0x1021, init 0xFFFF, no reflection, no
-//! final xor) over everything after the sync word. A bad CRC or a malformed header costs one byte:
+//! `0xD7 0x1E | version: u8 (1) | seq: u16 | channels: u8 (1–8) | format: u8 (1 = i16, 2 = i24) |
+//! samples | crc: u16`, samples channel by channel, CRC-16/CCITT-FALSE (poly 0x1021, init 0xFFFF,
+//! no reflection, no final xor) over everything after the sync word. The sync bytes are our own;
+//! a frame of another version is not decoded (counted as garbage) so a later layout can never be
+//! misread as this one. A bad CRC or a malformed header costs one byte:
 //! the decoder looks for the next sync word from the byte after the one it tried. A jump in `seq`
 //! of k counts k − 1 lost frames (the counter wraps at 65536).
 
 use super::{Frame, Values, WireStats};
 
-/// Sync word.
-pub const SYNC: [u8; 2] = [0xA5, 0x5A];
+/// Sync word (leadline's own).
+pub const SYNC: [u8; 2] = [0xD7, 0x1E];
+/// Version of the frame layout after the sync word.
+pub const VERSION: u8 = 1;
+/// Bytes before the samples: sync, version, seq, channels, format.
+const HEADER: usize = 2 + 1 + 2 + 1 + 1;
 /// Sample formats.
 pub const FORMAT_I16: u8 = 1;
 pub const FORMAT_I24: u8 = 2;
@@ -37,13 +43,14 @@ fn frame_len(channels: u8, format: u8) -> Option<usize> {
     };
     (1..=8)
         .contains(&channels)
-        .then(|| 2 + 2 + 1 + 1 + channels as usize * width + 2)
+        .then(|| HEADER + channels as usize * width + 2)
 }
 
 /// Encodes one frame.
 pub fn encode(seq: u16, samples: &[i32], format: u8, out: &mut Vec<u8>) {
     let start = out.len();
     out.extend_from_slice(&SYNC);
+    out.push(VERSION);
     out.extend_from_slice(&seq.to_le_bytes());
     out.push(samples.len() as u8);
     out.push(format);
@@ -65,10 +72,13 @@ enum Parse {
 }
 
 fn parse_at(b: &[u8]) -> Parse {
-    if b.len() < 6 {
+    if b.len() < HEADER {
         return Parse::NeedMore;
     }
-    let Some(len) = frame_len(b[4], b[5]) else {
+    if b[2] != VERSION {
+        return Parse::BadHeader;
+    }
+    let Some(len) = frame_len(b[5], b[6]) else {
         return Parse::BadHeader;
     };
     if b.len() < len {
@@ -78,10 +88,10 @@ fn parse_at(b: &[u8]) -> Parse {
     if crc16(&b[2..len - 2]) != crc {
         return Parse::BadCrc;
     }
-    let seq = u16::from_le_bytes([b[2], b[3]]);
-    let n = b[4] as usize;
-    let body = &b[6..len - 2];
-    let samples = match b[5] {
+    let seq = u16::from_le_bytes([b[3], b[4]]);
+    let n = b[5] as usize;
+    let body = &b[HEADER..len - 2];
+    let samples = match b[6] {
         FORMAT_I24 => body
             .chunks_exact(3)
             .map(|c| {
@@ -94,7 +104,7 @@ fn parse_at(b: &[u8]) -> Parse {
             .map(|c| i16::from_le_bytes([c[0], c[1]]) as f64)
             .collect(),
     };
-    debug_assert_eq!(n, body.len() / if b[5] == FORMAT_I24 { 3 } else { 2 });
+    debug_assert_eq!(n, body.len() / if b[6] == FORMAT_I24 { 3 } else { 2 });
     Parse::Frame(len, seq, samples)
 }
 
@@ -131,7 +141,7 @@ impl Decoder {
         loop {
             // Find the next sync word.
             let Some(off) = self.buf[i..].windows(2).position(|w| w == SYNC) else {
-                // Keep a trailing 0xA5: it may be the first half of a sync word.
+                // Keep a trailing first sync byte: it may be the first half of a sync word.
                 let keep = usize::from(i < self.buf.len() && self.buf.last() == Some(&SYNC[0]));
                 self.stats.garbage_bytes += (self.buf.len() - i - keep) as u64;
                 i = self.buf.len() - keep;

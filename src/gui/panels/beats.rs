@@ -2,6 +2,10 @@
 //! heart-rate variability, and the RR tachogram.
 
 use eframe::egui;
+
+/// The heart-rate readout's own colour: a light steel blue of the project's palette (amber and
+/// red keep their usual meaning for the warning states).
+pub const RATE_COLOUR: egui::Color32 = egui::Color32::from_rgb(60, 140, 210);
 use egui_plot::{Legend, Line, Plot, PlotPoints};
 
 use super::trace::{FILTERED_COLOUR, RAW_COLOUR};
@@ -22,9 +26,7 @@ pub fn rate_readout(ui: &mut egui::Ui, view: Option<&BeatView>) {
                 None => format!("quality {:.0} %", 100.0 * q.index),
             };
             match b.rate {
-                crate::analysis::rate::RateState::Rate(_) => {
-                    (b.rate.text(), egui::Color32::from_rgb(90, 200, 120), detail)
-                }
+                crate::analysis::rate::RateState::Rate(_) => (b.rate.text(), RATE_COLOUR, detail),
                 _ => (b.rate.text(), egui::Color32::from_rgb(230, 170, 70), detail),
             }
         }

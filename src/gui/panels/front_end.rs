@@ -57,7 +57,9 @@ pub fn show(
                     }
                 })
                 .response
-                .on_hover_text("A stimulus channel and a front-end channel can have different scaling.");
+                .on_hover_text(
+                    "A stimulus channel and a front-end channel can have different scaling.",
+                );
         });
     } else {
         p.editing = None;
@@ -85,7 +87,9 @@ pub fn show(
             .on_hover_text("Starting points by converter class; set the gain to your front end's.");
         if ui
             .button("Save as my board")
-            .on_hover_text("Keep these values in the setup, offered as \"my board\" in the presets.")
+            .on_hover_text(
+                "Keep these values in the setup, offered as \"my board\" in the presets.",
+            )
             .clicked()
         {
             *my_board = Some(fe);

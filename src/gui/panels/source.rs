@@ -20,20 +20,25 @@ pub struct SourcePicker {
 /// The port list with the active port in it (first when the OS does not list it, as with a
 /// pseudo-terminal), and the path to keep selected: the one chosen, if the OS still lists it or
 /// it is the active port; else the active port; else the first listed.
-pub fn port_choices(listed: Vec<String>, chosen: &str, active: Option<&str>) -> (Vec<String>, String) {
+pub fn port_choices(
+    listed: Vec<String>,
+    chosen: &str,
+    active: Option<&str>,
+) -> (Vec<String>, String) {
     let mut ports = listed;
     if let Some(a) = active
         && !ports.iter().any(|p| p == a)
     {
         ports.insert(0, a.to_string());
     }
-    let keep = if !chosen.is_empty() && (ports.iter().any(|p| p == chosen) || Some(chosen) == active) {
-        chosen.to_string()
-    } else if let Some(a) = active {
-        a.to_string()
-    } else {
-        ports.first().cloned().unwrap_or_default()
-    };
+    let keep =
+        if !chosen.is_empty() && (ports.iter().any(|p| p == chosen) || Some(chosen) == active) {
+            chosen.to_string()
+        } else if let Some(a) = active {
+            a.to_string()
+        } else {
+            ports.first().cloned().unwrap_or_default()
+        };
     (ports, keep)
 }
 
