@@ -50,6 +50,7 @@ fn chain_with(sections: usize) -> ChainSettings {
                 mains_hz: 60.0,
                 q: 30.0,
                 harmonics: 1,
+                auto: false,
             },
             lowpass: LowPass {
                 enabled: true,

@@ -52,6 +52,7 @@ fn settings() -> ChainSettings {
             mains_hz: 50.0,
             q: 30.0,
             harmonics: 0,
+            auto: false,
         },
         lowpass: LowPass {
             enabled: true,

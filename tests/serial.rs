@@ -202,3 +202,79 @@ fn device_closed_and_reopened_mid_stream_leaves_a_gap_mark() {
     p.shutdown();
     drop(s2);
 }
+
+#[test]
+fn a_jittery_ten_bit_text_stream_at_250_hz_is_timed_and_scaled() {
+    // The first contact: a 10-bit, 5 V board printing one integer per line with `\r\n`, no rate
+    // line, about 250 Hz with loop-timing jitter, behind a gain of 1000.
+    let (master, slave) = TTYPort::pair().unwrap();
+    let path = slave.name().unwrap();
+    let fs = 250.0;
+    let board = leadline::scale::FrontEnd::counts(InputScale::new(10, 5.0, 1000.0).unwrap());
+    let mut p = Pipeline::start(
+        PipelineConfig {
+            source: SourceSpec::Serial(SerialSpec {
+                path: path.clone(),
+                baud: 115_200,
+                format: None,
+                fs_hz: None,
+                scale: InputScale::default(),
+                physical_to_uv: 1e3,
+            }),
+            front_end: Some(vec![board]),
+            pacing: Pacing::RealTime,
+            record: true,
+            display_hz: 5.0,
+            ..PipelineConfig::default()
+        },
+        Arc::new(|| {}),
+    )
+    .unwrap();
+    let rx = p.take_records().unwrap();
+    let seconds = 6.0;
+    let frames = (seconds * fs) as usize;
+    let mut port = master;
+    let writer = std::thread::Builder::new()
+        .name("test-jittery-board".into())
+        .spawn(move || {
+            port.set_timeout(Duration::from_millis(200)).unwrap();
+            let start = Instant::now();
+            // Fixed-seed jitter: each line is due at k/fs plus 0–3 ms, as a loop with uneven
+            // work between analogRead calls would send it.
+            let mut seed = 12_345u64;
+            for k in 0..frames {
+                seed = seed.wrapping_mul(6_364_136_223_846_793_005).wrapping_add(1);
+                let jitter = (seed >> 33) as f64 / (1u64 << 31) as f64 * 3e-3;
+                let due = start + Duration::from_secs_f64(k as f64 / fs + jitter);
+                if let Some(w) = due.checked_duration_since(Instant::now()) {
+                    std::thread::sleep(w);
+                }
+                // 717 counts = 1000.977 µV at the electrodes (by hand: 205 × 4.8828125 µV).
+                let v = if k % 2 == 0 { 717 } else { 512 };
+                port.write_all(format!("{v}\r\n").as_bytes()).unwrap();
+            }
+            port.flush().unwrap();
+            port
+        })
+        .unwrap();
+    let mut uv = Vec::new();
+    let deadline = Instant::now() + Duration::from_secs_f64(seconds + 10.0);
+    while Instant::now() < deadline && !writer.is_finished() {
+        if let Ok(b) = rx.recv_timeout(Duration::from_millis(100)) {
+            uv.extend_from_slice(&b.raw_uv);
+        }
+    }
+    let _master = writer.join().unwrap();
+    let st = p.serial_status().unwrap();
+    assert!(st.estimated, "the rate was estimated");
+    let est = st.fs_hz.unwrap();
+    println!("estimated {est:.3} Hz ± {:.3} Hz", st.spread_hz);
+    assert!((est - fs).abs() <= 0.5, "estimated {est} Hz");
+    assert!(st.spread_hz <= 1.0, "spread ±{} Hz", st.spread_hz);
+    // Scaled by the board's front end, not the demo board's.
+    assert!(uv.len() > 500, "{} samples", uv.len());
+    let high = uv.iter().copied().fold(f64::MIN, f64::max);
+    assert!((high - 1000.976_562_5).abs() < 1e-6, "{high} µV");
+    assert!(uv.iter().all(|v| *v == 0.0 || (*v - high).abs() < 1e-9));
+    drop(slave);
+}

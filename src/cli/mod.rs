@@ -283,7 +283,10 @@ impl InputArgs {
             .into());
         }
         for n in &rec.notes {
-            eprintln!("{}: {n}", self.input.display());
+            eprintln!(
+                "{}: {n}; --channel with its index or name reads it",
+                self.input.display()
+            );
         }
         Ok((rec, ch))
     }

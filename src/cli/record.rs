@@ -128,7 +128,7 @@ pub fn run(a: &RecordArgs) -> Result<()> {
         let why = serial.map(|s| s.message).unwrap_or_default();
         // Exit 1: a script must be able to tell. The (empty) file stays as written.
         bail!(
-            "no samples arrived from {} in {} s{}; {} holds no data",
+            "no samples arrived from {} in {} s{}; nothing was written to {}",
             a.source.as_deref().unwrap_or("the setup's source"),
             a.seconds,
             if why.is_empty() {

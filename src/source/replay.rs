@@ -34,6 +34,9 @@ pub enum ReplayCommand {
     Seek(f64),
     /// Start again at the end.
     Loop(bool),
+    /// Replay the group of this signal instead (0-based among the file's signals): the signals
+    /// at its rate, for files with mixed rates.
+    Signal(usize),
 }
 
 /// Where the replay is, for the GUI.
@@ -53,6 +56,10 @@ pub struct ReplayStatus {
     pub ended: bool,
     /// Why the file could not be read, if it could not.
     pub error: Option<String>,
+    /// Every signal of the file (name, rate, unit; `channel` set for the ones replayed).
+    pub signals: Vec<crate::store::SignalInfo>,
+    /// Signals not replayed with the others, and why.
+    pub notes: Vec<String>,
 }
 
 /// Shared status handle.
@@ -66,25 +73,31 @@ pub fn run(
     stop: &AtomicBool,
     status: ReplayHandle,
 ) {
-    let rec = match store::read(&spec.path, &spec.read) {
-        Ok(r) if !r.is_empty() => r,
-        Ok(_) => {
-            if let Ok(mut s) = status.lock() {
-                s.error = Some(format!("{}: no samples", spec.path.display()));
-            }
-            return;
+    let load = |group: Option<usize>| -> Result<store::Recording, String> {
+        let r = match group {
+            None => store::read(&spec.path, &spec.read),
+            Some(k) => store::edf::read_group(&spec.path, Some(k)),
         }
+        .map_err(|e| e.to_string())?;
+        if r.is_empty() {
+            return Err(format!("{}: no samples", spec.path.display()));
+        }
+        Ok(r)
+    };
+    let mut rec = match load(None) {
+        Ok(r) => r,
         Err(e) => {
             if let Ok(mut s) = status.lock() {
-                s.error = Some(e.to_string());
+                s.error = Some(e);
             }
             return;
         }
     };
-    let fs = rec.fs_hz;
-    let n = rec.len();
-    let ch = rec.channels.len();
-    let block = ((fs / 100.0).round() as usize).max(1);
+    let mut fs = rec.fs_hz;
+    let mut n = rec.len();
+    let mut ch = rec.channels.len();
+    let mut block = ((fs / 100.0).round() as usize).max(1);
+    let mut signals = rec.signal_list();
     let (mut speed, mut paused, mut looping) = (1.0f64, false, false);
     let mut pos = 0usize;
     let mut stream = 0u64;
@@ -106,6 +119,23 @@ pub fn run(
                     pos = ((t.max(0.0) * fs) as usize).min(n.saturating_sub(1));
                     gap = true;
                 }
+                ReplayCommand::Signal(k) => match load(Some(k)) {
+                    Ok(r) => {
+                        rec = r;
+                        fs = rec.fs_hz;
+                        n = rec.len();
+                        ch = rec.channels.len();
+                        block = ((fs / 100.0).round() as usize).max(1);
+                        signals = rec.signal_list();
+                        pos = 0;
+                        gap = true;
+                    }
+                    Err(e) => {
+                        if let Ok(mut s) = status.lock() {
+                            s.error = Some(e);
+                        }
+                    }
+                },
             }
         }
         let now = Instant::now();
@@ -122,6 +152,8 @@ pub fn run(
                 looping,
                 ended: pos >= n && !looping,
                 error: None,
+                signals: signals.clone(),
+                notes: rec.notes.clone(),
             };
         }
         if pos >= n {

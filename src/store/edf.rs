@@ -825,10 +825,9 @@ pub fn read_group(path: &Path, pick: Option<usize>) -> Result<Recording, StoreEr
                 format!("unit {:?}", s.dimension)
             };
             notes.push(format!(
-                "signal {} ({}) is not shown with the others ({why}): pick it with --channel {}",
+                "signal {} ({}) is not read with the others ({why})",
                 infos.len(),
-                s.label,
-                infos.len()
+                s.label
             ));
             infos.push(crate::store::SignalInfo {
                 name: s.label.clone(),

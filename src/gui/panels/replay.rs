@@ -58,5 +58,35 @@ pub fn show(ui: &mut egui::Ui, st: &ReplayStatus) -> Vec<ReplayCommand> {
             ui.label("end of file");
         }
     });
+    signal_list(ui, st, &mut out);
     out
+}
+
+/// Every signal of the file with its rate and unit; those at another rate (or not voltages)
+/// are named and can be replayed instead of the others.
+fn signal_list(ui: &mut egui::Ui, st: &ReplayStatus, out: &mut Vec<ReplayCommand>) {
+    if st.signals.len() < 2 && st.notes.is_empty() {
+        return;
+    }
+    egui::CollapsingHeader::new(format!("Signals in the file ({})", st.signals.len()))
+        .default_open(!st.notes.is_empty())
+        .show(ui, |ui| {
+            for (k, s) in st.signals.iter().enumerate() {
+                ui.horizontal(|ui| {
+                    let text = format!("{} · {} Hz · {}", s.name, crate::scale::sig3(s.fs_hz), s.unit);
+                    if s.channel.is_some() {
+                        ui.label(format!("{text} (shown)"));
+                    } else if ui
+                        .button(format!("Show {text}"))
+                        .on_hover_text("Replay the signals at this one's rate instead.")
+                        .clicked()
+                    {
+                        out.push(ReplayCommand::Signal(k));
+                    }
+                });
+            }
+            for n in &st.notes {
+                ui.label(egui::RichText::new(n).small());
+            }
+        });
 }
