@@ -8,10 +8,9 @@ use std::time::{Duration, Instant};
 
 use crossbeam_channel::{Receiver, RecvTimeoutError, Sender, TrySendError};
 
-use crate::analysis::beats::{Beat, Detector};
+use crate::analysis::beats::Beat;
 use crate::analysis::mains;
-use crate::analysis::quality::QualityMonitor;
-use crate::analysis::rate::RateMeter;
+use crate::analysis::readout::{RateSample, Readout};
 use crate::analysis::template::TemplateBuilder;
 use crate::dsp::chain::{Chain, ChainSettings};
 use crate::dsp::spectrum::{Psd, Welch, segment_for};
@@ -256,17 +255,17 @@ impl SpectrumState {
     }
 }
 
-/// Beat detection, heart rate, quality and template for the followed channel.
+/// The heart-rate readout (detector, meter, quality) and the template of the followed channel.
 struct BeatState {
     channel: usize,
-    detector: Detector,
-    meter: RateMeter,
-    quality: QualityMonitor,
+    readout: Readout,
     template: TemplateBuilder,
     beats: VecDeque<u64>,
     waiting: VecDeque<u64>,
     found: Vec<Beat>,
+    evals: Vec<RateSample>,
     values: Vec<f64>,
+    rails: Vec<bool>,
     template_frame: Option<Arc<crate::analysis::template::Template>>,
     keep: u64,
 }
@@ -275,14 +274,14 @@ impl BeatState {
     fn new(fs: f64, channel: usize) -> Option<Self> {
         Some(Self {
             channel,
-            detector: Detector::new(fs).ok()?,
-            meter: RateMeter::new(fs),
-            quality: QualityMonitor::new(fs),
+            readout: Readout::new(fs).ok()?,
             template: TemplateBuilder::new(fs),
             beats: VecDeque::new(),
             waiting: VecDeque::new(),
             found: Vec::new(),
+            evals: Vec::new(),
             values: Vec::new(),
+            rails: Vec::new(),
             template_frame: None,
             keep: (120.0 * fs) as u64,
         })
@@ -293,22 +292,18 @@ impl BeatState {
         self.values.clear();
         self.values
             .extend(uv.iter().skip(self.channel).step_by(channels));
-        for (v, &rail) in self
-            .values
-            .iter()
-            .zip(rails.iter().skip(self.channel).step_by(channels))
-        {
-            self.quality.push(*v, rail);
-        }
+        self.rails.clear();
+        self.rails
+            .extend(rails.iter().skip(self.channel).step_by(channels));
         self.found.clear();
-        self.detector.process(&self.values, &mut self.found);
+        self.evals.clear();
+        self.readout
+            .process(&self.values, &self.rails, &mut self.found, &mut self.evals);
         for b in &self.found {
-            self.meter.on_beat(b.sample);
-            self.quality.push_beat(b.r_value);
             self.beats.push_back(b.sample);
             self.waiting.push_back(b.sample);
         }
-        let now = self.detector.samples();
+        let now = self.readout.samples();
         while self.beats.front().is_some_and(|&b| b + self.keep < now) {
             self.beats.pop_front();
         }
@@ -335,17 +330,15 @@ impl BeatState {
         if added {
             self.template_frame = self.template.template().map(Arc::new);
         }
-        self.quality.set_detector_snr(self.detector.snr());
-        self.meter.set_unreliable(!self.quality.quality().usable());
     }
 
     fn view(&self) -> BeatView {
         BeatView {
             channel: self.channel,
             beats: self.beats.iter().copied().collect(),
-            rate: self.meter.state(self.detector.samples()),
-            hrv: self.meter.hrv(),
-            quality: self.quality.quality(),
+            rate: self.readout.shown(),
+            hrv: self.readout.meter().hrv(),
+            quality: self.readout.quality().quality(),
             template: self.template_frame.clone(),
         }
     }
@@ -635,7 +628,9 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 .map_or(0.0, |t| now.duration_since(t).as_secs_f64() * 1e3);
             let snap = Snapshot {
                 beats: beat_state.as_ref().map(BeatState::view),
-                scale_check: beat_state.as_ref().and_then(|b| b.quality.scale_check()),
+                scale_check: beat_state
+                    .as_ref()
+                    .and_then(|b| b.readout.quality().scale_check()),
                 inverted: invert,
                 latency_ms: newest_age_ms,
                 ..snapshot(

@@ -437,7 +437,7 @@ mod tests {
         assert_eq!(s.offset_counts, 512.0);
         assert_eq!((s.min_count(), s.max_count()), (0.0, 1023.0));
         assert!((s.uv_per_count() - 4.882_812_5).abs() < 1e-12);
-        assert!((s.counts_to_uv(717.0) - 1000.976_562_5).abs() < 1e-9);
+        assert!((s.counts_to_uv(717.0) - 1_000.976_562_5).abs() < 1e-9);
         // Input-referred full scale ±2.5 mV (−512 and +511 counts: the smaller side, 2.495 mV).
         assert!((s.full_scale_mv() - 2.495_117_187_5).abs() < 1e-9);
     }
@@ -448,7 +448,7 @@ mod tests {
         // → 0.762939453 µV. Count −1311 → −1000.213623 µV. Rails at −32768 and +32767.
         let s = InputScale::bipolar(16, 2.5, 100.0).unwrap();
         assert!((s.uv_per_count() - 0.762_939_453_125).abs() < 1e-12);
-        assert!((s.counts_to_uv(-1311.0) + 1000.213_623_046_875).abs() < 1e-9);
+        assert!((s.counts_to_uv(-1311.0) + 1_000.213_623_046_875).abs() < 1e-9);
         assert_eq!((s.min_count(), s.max_count()), (-32768.0, 32767.0));
         assert!(s.is_rail(-32768.0) && s.is_rail(32767.0) && !s.is_rail(0.0));
         assert_eq!(s.adc_v_to_counts(-9.0), (-32768, true));
@@ -461,7 +461,7 @@ mod tests {
         // → 0.0476837158 µV per count. Count 20972 → 20972 × 0.0476837158 = 1000.0229 µV.
         let s = InputScale::bipolar(24, 2.4, 6.0).unwrap();
         assert!((s.uv_per_count() - 0.047_683_715_820_312_5).abs() < 1e-15);
-        assert!((s.counts_to_uv(20_972.0) - 1000.022_888_183_593_6).abs() < 1e-9);
+        assert!((s.counts_to_uv(20_972.0) - 1_000.022_888_183_593_6).abs() < 1e-9);
         assert_eq!(s.max_count(), 8_388_607.0);
         // ±400 mV input-referred full scale (2.4 V / 6).
         assert!((s.full_scale_mv() - 399.999_952_316).abs() < 1e-6);
@@ -470,7 +470,7 @@ mod tests {
     #[test]
     fn front_end_kinds() {
         let fe = FrontEnd::counts(InputScale::new(10, 5.0, 1000.0).unwrap());
-        assert!((fe.to_uv(717.0, false) - 1000.976_562_5).abs() < 1e-9);
+        assert!((fe.to_uv(717.0, false) - 1_000.976_562_5).abs() < 1e-9);
         // A decimal in a counts stream is mV (the wire format's convention).
         assert_eq!(fe.to_uv(1.25, true), 1250.0);
         let mv = FrontEnd {

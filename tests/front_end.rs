@@ -196,7 +196,10 @@ fn notch_auto_finds_60_hz_and_takes_30_db_off_the_line() {
     let drop_db = 10.0 * (before / after).log10();
     println!("60 Hz line: {before:.4} → {after:.6} µV²/Hz, {drop_db:.1} dB");
     // The requirement: 30 dB or more.
-    assert!(drop_db >= 30.0, "60 Hz line {before} → {after} µV²/Hz: {drop_db:.1} dB");
+    assert!(
+        drop_db >= 30.0,
+        "60 Hz line {before} → {after} µV²/Hz: {drop_db:.1} dB"
+    );
 }
 
 #[test]
@@ -293,7 +296,11 @@ fn first_contact_messages_are_one_clear_line() {
     assert_eq!(e.matches("No such file or directory").count(), 1, "{e}");
     // A non-number on line 3 of a CSV with a time column.
     let csv = tmp("bad-line.csv");
-    std::fs::write(&csv, "time_s,ch1\n0.000,1.0\n0.002,abc\n0.004,1.2\n0.006,1.1\n").unwrap();
+    std::fs::write(
+        &csv,
+        "time_s,ch1\n0.000,1.0\n0.002,abc\n0.004,1.2\n0.006,1.1\n",
+    )
+    .unwrap();
     let o = leadline(&[
         "spectrum",
         "--input",
@@ -307,7 +314,10 @@ fn first_contact_messages_are_one_clear_line() {
     let o = leadline(&["sos", "--fs", "249.99794851683447", "--highpass", "NaN"]);
     assert_eq!(o.status.code(), Some(2));
     let e = stderr(&o);
-    assert!(e.contains("is not a number") && e.contains("(125 Hz at fs = 250 Hz)"), "{e}");
+    assert!(
+        e.contains("is not a number") && e.contains("(125 Hz at fs = 250 Hz)"),
+        "{e}"
+    );
     // A flat input: no signal/mains ratio of −320 dB.
     let flat = tmp("flat.csv");
     std::fs::write(
@@ -344,7 +354,10 @@ fn record_exits_1_when_nothing_arrived() {
     ]);
     assert_eq!(o.status.code(), Some(1), "{}", stderr(&o));
     let e = stderr(&o);
-    assert!(e.contains("no samples arrived") && e.contains("nothing was written"), "{e}");
+    assert!(
+        e.contains("no samples arrived") && e.contains("nothing was written"),
+        "{e}"
+    );
     assert_eq!(e.lines().count(), 1, "{e}");
 }
 

@@ -358,3 +358,90 @@ fn display_settings_and_the_trace_png_button() {
     let bytes = std::fs::read(&png).unwrap();
     assert_eq!(&bytes[1..4], b"PNG");
 }
+
+#[test]
+fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
+    use serialport::{SerialPort, TTYPort};
+    use std::io::Write;
+    // A board on a pseudo-terminal sending count 717 then 512, 250 lines a second.
+    let (mut master, slave) = TTYPort::pair().unwrap();
+    let path = slave.name().unwrap();
+    let stop = Arc::new(std::sync::atomic::AtomicBool::new(false));
+    let writer_stop = Arc::clone(&stop);
+    let writer = std::thread::Builder::new()
+        .name("test-board".into())
+        .spawn(move || {
+            master.set_timeout(Duration::from_millis(200)).unwrap();
+            let start = Instant::now();
+            let mut k = 0u64;
+            while !writer_stop.load(std::sync::atomic::Ordering::Relaxed) {
+                let due = start + Duration::from_secs_f64(k as f64 / 250.0);
+                if let Some(w) = due.checked_duration_since(Instant::now()) {
+                    std::thread::sleep(w);
+                }
+                let v = if k.is_multiple_of(2) { 717 } else { 512 };
+                if master.write_all(format!("{v}\n").as_bytes()).is_err() {
+                    break;
+                }
+                k += 1;
+            }
+        })
+        .unwrap();
+    let settings = Settings {
+        serial: Some(leadline::source::serial::SerialSpec {
+            path: path.clone(),
+            baud: 115_200,
+            format: None,
+            fs_hz: Some(250.0),
+            scale: leadline::scale::InputScale::default(),
+            physical_to_uv: 1e3,
+        }),
+        ..Settings::default()
+    };
+    let app = LeadlineApp::new(
+        settings,
+        Arc::new(|| {}),
+        AppOptions::default(),
+        Arc::new(Mutex::new(Ok(()))),
+    )
+    .unwrap();
+    // Tall enough that the whole control column (filters, source, front end) is on screen.
+    let mut h = harness_sized(app, [1280.0, 1800.0]);
+    let wait_for = |h: &mut Harness<'static, LeadlineApp>, bits: u32| {
+        let deadline = Instant::now() + Duration::from_secs(15);
+        loop {
+            h.run_steps(1);
+            let s = h.state().view().snapshot.as_ref();
+            if let Some(s) = s
+                && s.scale.map(|x| x.bits) == Some(bits)
+            {
+                return (s.stats.frames, s.stats.gaps);
+            }
+            assert!(Instant::now() < deadline, "scale never became {bits}-bit");
+            std::thread::sleep(Duration::from_millis(30));
+        }
+    };
+    // At first: the demo board's scaling (12-bit, 3.3 V, gain 500).
+    let (frames_before, _) = wait_for(&mut h, 12);
+    h.get_by_value("Preset…").click();
+    h.run_steps(2);
+    h.get_by_label("10-bit 5 V, mid-scale").click();
+    h.run_steps(2);
+    let fe = h.state().settings().front_ends[0];
+    assert_eq!((fe.adc.bits, fe.adc.vref_v, fe.adc.gain), (10, 5.0, 1000.0));
+    let (frames_after, gaps) = wait_for(&mut h, 10);
+    // The same stream went on: no reconnect, no gap, the frame count kept growing.
+    assert!(
+        frames_after > frames_before,
+        "{frames_before} → {frames_after}"
+    );
+    assert_eq!(gaps, 0);
+    // The trace is in µV of the new board: 717 counts = 1000.977 µV (by hand, 10-bit 5 V ×1000).
+    let s = h.state().view().snapshot.clone().unwrap();
+    let top = s.traces[0].raw.max.iter().copied().fold(f32::MIN, f32::max);
+    assert!((f64::from(top) - 1_000.976_562_5).abs() < 0.01, "{top} µV");
+    stop.store(true, std::sync::atomic::Ordering::Relaxed);
+    drop(h);
+    writer.join().unwrap();
+    drop(slave);
+}

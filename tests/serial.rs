@@ -250,7 +250,7 @@ fn a_jittery_ten_bit_text_stream_at_250_hz_is_timed_and_scaled() {
                     std::thread::sleep(w);
                 }
                 // 717 counts = 1000.977 µV at the electrodes (by hand: 205 × 4.8828125 µV).
-                let v = if k % 2 == 0 { 717 } else { 512 };
+                let v = if k.is_multiple_of(2) { 717 } else { 512 };
                 port.write_all(format!("{v}\r\n").as_bytes()).unwrap();
             }
             port.flush().unwrap();
@@ -274,7 +274,7 @@ fn a_jittery_ten_bit_text_stream_at_250_hz_is_timed_and_scaled() {
     // Scaled by the board's front end, not the demo board's.
     assert!(uv.len() > 500, "{} samples", uv.len());
     let high = uv.iter().copied().fold(f64::MIN, f64::max);
-    assert!((high - 1000.976_562_5).abs() < 1e-6, "{high} µV");
+    assert!((high - 1_000.976_562_5).abs() < 1e-6, "{high} µV");
     assert!(uv.iter().all(|v| *v == 0.0 || (*v - high).abs() < 1e-9));
     drop(slave);
 }

@@ -37,6 +37,9 @@ pub struct Beat {
     pub r_value: f64,
     /// Found by search-back (a weaker beat the main threshold missed).
     pub search_back: bool,
+    /// Index of the sample whose arrival decided the beat: `decided − sample` is the live
+    /// latency from the R peak to the readout.
+    pub decided: u64,
 }
 
 /// Why a detector cannot be built.
@@ -482,6 +485,7 @@ impl Detector {
             sample: r,
             r_value: rv,
             search_back,
+            decided: self.n.saturating_sub(1),
         });
     }
 }

@@ -1,7 +1,10 @@
-//! What is in the signal: mains interference and band powers ([`mains`]).
+//! What is in the signal: beats ([`beats`]), the heart-rate readout ([`readout`]: detector,
+//! [`rate`] meter and [`quality`] check), the averaged beat ([`template`]), mains interference
+//! and band powers ([`mains`]).
 
 pub mod beats;
 pub mod mains;
 pub mod quality;
 pub mod rate;
+pub mod readout;
 pub mod template;

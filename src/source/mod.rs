@@ -1,10 +1,12 @@
 //! Where samples come from. Each source is a thread body that pushes [`crate::msg::RawBlock`]s.
 //!
-//! - [`synth`]: the built-in simulator (default), with [`ecg_model`] for the waveform.
-//! - serial and file replay sources arrive with their own modules.
+//! - [`synth`]: the built-in simulator (default), with [`ecg_model`] for the sinus waveform and
+//!   [`rhythm`] for the standards' irregular-rhythm cases.
+//! - [`serial`]: a board on a serial port; [`replay`]: a recording streamed as a device.
 
 pub mod ecg_model;
 pub mod replay;
+pub mod rhythm;
 pub mod run;
 pub mod serial;
 pub mod synth;

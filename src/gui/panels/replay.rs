@@ -73,7 +73,12 @@ fn signal_list(ui: &mut egui::Ui, st: &ReplayStatus, out: &mut Vec<ReplayCommand
         .show(ui, |ui| {
             for (k, s) in st.signals.iter().enumerate() {
                 ui.horizontal(|ui| {
-                    let text = format!("{} · {} Hz · {}", s.name, crate::scale::sig3(s.fs_hz), s.unit);
+                    let text = format!(
+                        "{} · {} Hz · {}",
+                        s.name,
+                        crate::scale::sig3(s.fs_hz),
+                        s.unit
+                    );
                     if s.channel.is_some() {
                         ui.label(format!("{text} (shown)"));
                     } else if ui

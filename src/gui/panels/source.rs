@@ -77,9 +77,10 @@ pub fn show(
     if let Some(a) = active
         && !p.ports.iter().any(|x| x == a)
     {
-        let (ports, keep) = port_choices(std::mem::take(&mut p.ports), &p.path, active);
+        // The port being read is always in the list, and chosen when it first appears.
+        let (ports, _) = port_choices(std::mem::take(&mut p.ports), &p.path, active);
         p.ports = ports;
-        p.path = keep;
+        p.path = a.to_string();
     }
     let mut req = None;
     ui.horizontal(|ui| {

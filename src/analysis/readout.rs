@@ -1,0 +1,147 @@
+//! The heart-rate readout as one piece: QRS detector → rate meter, judged by the quality check,
+//! evaluated once a second of stream time. The monitor's DSP thread and `leadline beats
+//! --rate-out` both run this, so the number on the screen and the number in rate.csv are the
+//! same number at the same instant.
+
+use serde::Serialize;
+
+use super::beats::{Beat, Detector, DetectorError};
+use super::quality::QualityMonitor;
+use super::rate::{RateMeter, RateState};
+
+/// One evaluation of the readout.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct RateSample {
+    /// Stream time of the evaluation, s (a whole number of seconds from the first sample).
+    pub time_s: f64,
+    /// What the readout showed.
+    pub state: RateState,
+}
+
+/// Detector, meter and quality check of one channel.
+#[derive(Debug, Clone)]
+pub struct Readout {
+    fs: f64,
+    detector: Detector,
+    meter: RateMeter,
+    quality: QualityMonitor,
+    /// Sample index of the next evaluation.
+    next_eval: u64,
+    /// Step between evaluations, samples (one second, rounded).
+    eval_every: u64,
+    shown: RateState,
+    found: Vec<Beat>,
+}
+
+impl Readout {
+    /// A readout at `fs`.
+    ///
+    /// # Errors
+    /// [`DetectorError`] outside 125–2000 Hz.
+    pub fn new(fs: f64) -> Result<Self, DetectorError> {
+        let eval_every = fs.round().max(1.0) as u64;
+        Ok(Self {
+            fs,
+            detector: Detector::new(fs)?,
+            meter: RateMeter::new(fs),
+            quality: QualityMonitor::new(fs),
+            next_eval: eval_every,
+            eval_every,
+            shown: RateState::Settling,
+            found: Vec::new(),
+        })
+    }
+
+    /// Sample rate, Hz.
+    pub fn fs_hz(&self) -> f64 {
+        self.fs
+    }
+
+    /// Samples consumed.
+    pub fn samples(&self) -> u64 {
+        self.detector.samples()
+    }
+
+    /// The readout as last evaluated.
+    pub fn shown(&self) -> RateState {
+        self.shown
+    }
+
+    /// The meter (HRV, intervals).
+    pub fn meter(&self) -> &RateMeter {
+        &self.meter
+    }
+
+    /// The quality check.
+    pub fn quality(&self) -> &QualityMonitor {
+        &self.quality
+    }
+
+    /// One block of the channel (µV) and, per sample, whether it sat on an ADC rail (`rails`
+    /// may be empty: none did). Decided beats are appended to `beats`, evaluations to `evals`.
+    /// Any split of the same samples into blocks gives the same beats and evaluations.
+    pub fn process(
+        &mut self,
+        uv: &[f64],
+        rails: &[bool],
+        beats: &mut Vec<Beat>,
+        evals: &mut Vec<RateSample>,
+    ) {
+        let mut start = 0;
+        while start < uv.len() {
+            let now = self.detector.samples();
+            let until = (self.next_eval - now) as usize;
+            let end = (start + until).min(uv.len());
+            for (i, &v) in uv[start..end].iter().enumerate() {
+                self.quality
+                    .push(v, rails.get(start + i).copied().unwrap_or(false));
+            }
+            self.found.clear();
+            self.detector.process(&uv[start..end], &mut self.found);
+            for b in &self.found {
+                self.meter.on_beat(b.sample);
+                self.quality.push_beat(b.r_value);
+            }
+            beats.extend_from_slice(&self.found);
+            self.quality.set_detector_snr(self.detector.snr());
+            if self.detector.samples() == self.next_eval {
+                self.meter.set_unreliable(!self.quality.quality().usable());
+                self.shown = self.meter.state(self.next_eval);
+                evals.push(RateSample {
+                    time_s: self.next_eval as f64 / self.fs,
+                    state: self.shown,
+                });
+                self.next_eval += self.eval_every;
+            }
+            start = end;
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn any_block_split_gives_the_same_readout() {
+        let fs = 360.0;
+        let mut heart = crate::source::rhythm::ScheduledHeart::new(
+            fs,
+            crate::source::rhythm::Rhythm::VentricularBigeminy.pattern(1.0),
+        );
+        let x = heart.render_uv(30.0);
+        let run = |block: usize| {
+            let mut r = Readout::new(fs).unwrap();
+            let (mut b, mut e) = (Vec::new(), Vec::new());
+            for c in x.chunks(block) {
+                r.process(c, &[], &mut b, &mut e);
+            }
+            (b, e)
+        };
+        let whole = run(x.len());
+        assert_eq!(whole.1.len(), 30);
+        for block in [1, 7, 64, 1000] {
+            assert_eq!(run(block), whole, "blocks of {block}");
+        }
+    }
+}
