@@ -144,8 +144,10 @@ pub struct BeatView {
     pub channel: usize,
     /// R-peak sample indices of the last two minutes.
     pub beats: Vec<u64>,
-    /// The heart-rate readout.
+    /// The heart-rate readout, as evaluated at `rate_at_s`.
     pub rate: RateState,
+    /// Stream time of that evaluation, s (the readout is evaluated once a second).
+    pub rate_at_s: f64,
     /// Variability over the accepted intervals.
     pub hrv: Option<Hrv>,
     /// Signal quality.

@@ -337,6 +337,7 @@ impl BeatState {
             channel: self.channel,
             beats: self.beats.iter().copied().collect(),
             rate: self.readout.shown(),
+            rate_at_s: self.readout.shown_at_s(),
             hrv: self.readout.meter().hrv(),
             quality: self.readout.quality().quality(),
             template: self.template_frame.clone(),

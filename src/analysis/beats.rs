@@ -128,6 +128,10 @@ pub struct Detector {
     polarity: f64,
     /// When the signal level was last halved by the lock-out guard.
     last_decay: u64,
+    /// Peaks of the integrated signal above THR1, at least 100 ms apart, of the last 3 s: how
+    /// often QRS-like energy arrives, whatever the candidate window lets through.
+    events: VecDeque<u64>,
+    prev_mwi: [f64; 2],
 }
 
 fn band_chain(fs: f64) -> ChainSettings {
@@ -204,6 +208,8 @@ impl Detector {
             since_qrs: Vec::new(),
             polarity: 0.0,
             last_decay: 0,
+            events: VecDeque::new(),
+            prev_mwi: [0.0; 2],
         })
     }
 
@@ -228,6 +234,12 @@ impl Detector {
     /// Signal level over noise level of the integrated signal (SPKI / NPKI), once initialised.
     pub fn snr(&self) -> Option<f64> {
         (self.initialised && self.npki > 0.0).then(|| self.spki / self.npki)
+    }
+
+    /// QRS-like events per minute over the last 3 s: peaks of the integrated signal above THR1
+    /// at least 100 ms apart. Above 250 per minute no heart is beating that fast: an artefact.
+    pub fn events_per_min(&self) -> f64 {
+        self.events.len() as f64 * 20.0
     }
 
     /// RR average over the recent regular beats, s (RR AVERAGE2 of the paper).
@@ -322,7 +334,21 @@ impl Detector {
         }
         if self.initialised {
             self.search_back(i, out);
+            // A local maximum of the integrated signal one sample ago.
+            let [m1, m2] = self.prev_mwi;
+            if m1 > m2 && m1 >= mwi && m1 > self.thr1() {
+                let at = i - 1;
+                let gap = (0.1 * self.fs) as u64;
+                if self.events.back().is_none_or(|&e| at >= e + gap) {
+                    self.events.push_back(at);
+                }
+            }
+            let span = (3.0 * self.fs) as u64;
+            while self.events.front().is_some_and(|&e| e + span < i) {
+                self.events.pop_front();
+            }
         }
+        self.prev_mwi = [mwi, self.prev_mwi[0]];
     }
 
     /// Steepest slope in the integration window that ends at the candidate.

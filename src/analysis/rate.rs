@@ -12,9 +12,10 @@
 //! - The readout is re-evaluated once a second of stream time (the monitor and
 //!   `leadline beats --rate-out` evaluate the same meter at the same instants).
 //! - Instead of a number: *settling* (fewer than 4 intervals), *no beat* (nothing for
-//!   max(3 s, 2 × the mean interval)), *unreliable* (the quality check failed, or beats closer
-//!   than 240 ms — faster than 250 bpm — twice in the last 5 s: artefact, not a heart). Rates
-//!   outside 30–250 bpm are not shown.
+//!   max(3 s, 2 × the mean interval)), *unreliable* (the quality check failed, or two beats
+//!   closer than 240 ms — faster than 250 bpm — in the last 5 s: an artefact, not a heart; the
+//!   window then starts again after it). Rates outside 30–250 bpm are not shown. Beats whose R
+//!   deflection is under 0.1 mV are not counted.
 //!
 //! HRV uses only normal-to-normal intervals: within 70–130 % of the median of the last 8 such.
 
@@ -157,6 +158,9 @@ pub struct RateMeter {
     accepted: VecDeque<f64>,
     nn: VecDeque<f64>,
     unreliable: bool,
+    too_fast: bool,
+    /// Intervals that began before this sample are not averaged (an artefact ended here).
+    cut: u64,
 }
 
 fn median(v: &VecDeque<f64>) -> f64 {
@@ -180,12 +184,24 @@ impl RateMeter {
             accepted: VecDeque::with_capacity(8),
             nn: VecDeque::new(),
             unreliable: false,
+            too_fast: false,
+            cut: 0,
         }
     }
 
     /// Marks the signal as (un)reliable (from the quality check).
     pub fn set_unreliable(&mut self, u: bool) {
         self.unreliable = u;
+    }
+
+    /// QRS-like events are arriving faster than a heart beats (from the detector) at sample
+    /// `now`: an artefact burst, whatever the beats accepted look like. The readout's window
+    /// starts again after it.
+    pub fn set_too_fast(&mut self, f: bool, now: u64) {
+        self.too_fast = f;
+        if f {
+            self.cut = now;
+        }
     }
 
     /// A beat at sample `s`.
@@ -224,13 +240,20 @@ impl RateMeter {
         self.nn.push_back(rr);
     }
 
-    /// The intervals the readout averages (see the module doc), newest last.
-    fn window(&self) -> Vec<f64> {
+    /// The intervals the readout averages (see the module doc), newest last, and whether the
+    /// run of usable intervals was cut short by one too short for a heart.
+    fn window(&self) -> (Vec<f64>, bool) {
         let mut w = Vec::with_capacity(WINDOW_MAX);
         let mut span = 0.0;
-        for &(_, rr) in self.recent.iter().rev() {
+        let mut cut_by_short = false;
+        for &(end, rr) in self.recent.iter().rev() {
             if !(MIN_RR_S..=MAX_RR_S).contains(&rr) {
                 // A pause or an artefact ends the run of usable intervals.
+                cut_by_short = rr < MIN_RR_S;
+                break;
+            }
+            if (end as f64) - rr * self.fs < self.cut as f64 {
+                cut_by_short = true;
                 break;
             }
             if w.len() == WINDOW_MAX || span + rr > WINDOW_S {
@@ -243,12 +266,12 @@ impl RateMeter {
             w.pop();
         }
         w.reverse();
-        w
+        (w, cut_by_short)
     }
 
     /// The averaged rate over the window, bpm, and how many intervals it used.
     pub fn averaged_bpm(&self) -> Option<(f64, usize)> {
-        let mut w = self.window();
+        let (mut w, _) = self.window();
         if w.len() < WINDOW_MIN {
             return None;
         }
@@ -282,12 +305,14 @@ impl RateMeter {
             .take_while(|(end, _)| now.saturating_sub(*end) as f64 <= 5.0 * self.fs)
             .filter(|(_, rr)| *rr < MIN_RR_S)
             .count();
-        if recent_fast >= 2 {
+        if recent_fast >= 1 || self.too_fast {
             return RateState::Unreliable(Unreliable::TooFast);
         }
         match avg {
             Some((bpm, _)) if (30.0..=250.0).contains(&bpm) => RateState::Rate(bpm),
             Some(_) => RateState::Unreliable(Unreliable::OutOfRange),
+            // Refilling after an artefact is not the settling of a new stream.
+            None if self.window().1 => RateState::Unreliable(Unreliable::TooFast),
             None => RateState::Settling,
         }
     }

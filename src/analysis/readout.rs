@@ -9,6 +9,13 @@ use super::beats::{Beat, Detector, DetectorError};
 use super::quality::QualityMonitor;
 use super::rate::{RateMeter, RateState};
 
+/// QRS-like events faster than this per minute are an artefact (no heart beats at 260 bpm;
+/// the standards' paediatric range ends at 250 bpm, recalled from memory).
+pub const MAX_EVENTS_PER_MIN: f64 = 260.0;
+
+/// Smallest R deflection counted as a beat, µV.
+pub const MIN_R_UV: f64 = 100.0;
+
 /// One evaluation of the readout.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct RateSample {
@@ -67,6 +74,11 @@ impl Readout {
         self.shown
     }
 
+    /// Stream time of the last evaluation, s (0 before the first).
+    pub fn shown_at_s(&self) -> f64 {
+        (self.next_eval - self.eval_every) as f64 / self.fs
+    }
+
     /// The meter (HRV, intervals).
     pub fn meter(&self) -> &RateMeter {
         &self.meter
@@ -98,6 +110,9 @@ impl Readout {
             }
             self.found.clear();
             self.detector.process(&uv[start..end], &mut self.found);
+            // Deflections under 0.1 mV are noise, not beats (common practice; the monitor
+            // standards' noise-rejection amplitude, recalled from memory, is 0.15 mV).
+            self.found.retain(|b| b.r_value.abs() >= MIN_R_UV);
             for b in &self.found {
                 self.meter.on_beat(b.sample);
                 self.quality.push_beat(b.r_value);
@@ -105,7 +120,14 @@ impl Readout {
             beats.extend_from_slice(&self.found);
             self.quality.set_detector_snr(self.detector.snr());
             if self.detector.samples() == self.next_eval {
-                self.meter.set_unreliable(!self.quality.quality().usable());
+                // A flat line is "no beat", not an unreliable signal: there is nothing to count.
+                let q = self.quality.quality();
+                let flat = q.problem == Some(super::quality::Problem::Flat);
+                self.meter.set_unreliable(!q.usable() && !flat);
+                self.meter.set_too_fast(
+                    self.detector.events_per_min() > MAX_EVENTS_PER_MIN,
+                    self.next_eval,
+                );
                 self.shown = self.meter.state(self.next_eval);
                 evals.push(RateSample {
                     time_s: self.next_eval as f64 / self.fs,

@@ -6,8 +6,8 @@ use anyhow::{Context, Result};
 use serde::Serialize;
 
 use super::{BadInput, BeatsArgs};
-use crate::analysis::beats::Detector;
-use crate::analysis::rate::{Hrv, RateMeter, hrv};
+use crate::analysis::rate::{Hrv, hrv};
+use crate::analysis::readout::Readout;
 
 #[derive(Serialize)]
 struct Summary {
@@ -29,21 +29,41 @@ struct Summary {
 pub fn run(a: &BeatsArgs) -> Result<usize> {
     let (rec, ch) = a.src.load(&a.channel)?;
     let x = &rec.channels[ch];
-    let mut det = Detector::new(rec.fs_hz).map_err(|e| BadInput(e.to_string()))?;
+    // The monitor's readout, fed as the monitor feeds it (10 ms blocks; any split gives the
+    // same result).
+    let mut readout = Readout::new(rec.fs_hz).map_err(|e| BadInput(e.to_string()))?;
     let mut beats = Vec::new();
-    det.process(x, &mut beats);
-    let mut csv = String::from("sample,time_s,r_uv,search_back\n");
-    let mut meter = RateMeter::new(rec.fs_hz);
+    let mut evals = Vec::new();
+    let block = ((rec.fs_hz / 100.0).round() as usize).max(1);
+    for chunk in x.chunks(block) {
+        readout.process(chunk, &[], &mut beats, &mut evals);
+    }
+    let mut csv = String::from("sample,time_s,r_uv,search_back,decided_s\n");
     for b in &beats {
         let _ = writeln!(
             csv,
-            "{},{:.6},{:.3},{}",
+            "{},{:.6},{:.3},{},{:.6}",
             b.sample,
             b.sample as f64 / rec.fs_hz,
             b.r_value,
-            u8::from(b.search_back)
+            u8::from(b.search_back),
+            b.decided as f64 / rec.fs_hz
         );
-        meter.on_beat(b.sample);
+    }
+    let meter = readout.meter();
+    if let Some(path) = &a.rate_out {
+        let mut rate = String::from("time_s,bpm,state,reason\n");
+        for e in &evals {
+            let _ = writeln!(
+                rate,
+                "{},{},{},{}",
+                e.time_s,
+                e.state.bpm().map_or(String::new(), |b| format!("{b:.1}")),
+                e.state.name(),
+                e.state.reason()
+            );
+        }
+        std::fs::write(path, rate).with_context(|| format!("cannot write {}", path.display()))?;
     }
     std::fs::write(&a.out, csv).with_context(|| format!("cannot write {}", a.out.display()))?;
     let rr: Vec<f64> = beats

@@ -429,12 +429,17 @@ pub struct BeatsArgs {
     /// Signal to analyse: 0-based index or name (every signal of an EDF/BDF, whatever its rate).
     #[arg(long, default_value = "0", value_name = "K|NAME")]
     pub channel: String,
-    /// Beats: CSV with sample,time_s,r_uv,search_back.
+    /// Beats: CSV with sample,time_s,r_uv,search_back,decided_s.
     #[arg(long, value_name = "FILE")]
     pub out: PathBuf,
     /// Summary (JSON): beat count, mean heart rate, HRV (mean RR, SDNN, RMSSD, pNN50).
     #[arg(long, value_name = "FILE")]
     pub summary: Option<PathBuf>,
+    /// The heart-rate readout once a second, as the monitor shows it: CSV with
+    /// time_s,bpm,state,reason (state: settling, ok, no_beat, unreliable; bpm empty when no
+    /// number is shown).
+    #[arg(long, value_name = "FILE")]
+    pub rate_out: Option<PathBuf>,
 }
 
 /// Options of `leadline spectrum`.
@@ -744,6 +749,30 @@ pub enum StartView {
     Heavy,
 }
 
+/// The simulator's rhythm on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum RhythmArg {
+    Sinus,
+    VentricularBigeminy,
+    SlowAlternatingBigeminy,
+    RapidAlternatingBigeminy,
+    BidirectionalSystoles,
+}
+
+impl RhythmArg {
+    /// The simulator's rhythm.
+    pub fn rhythm(self) -> crate::source::rhythm::Rhythm {
+        use crate::source::rhythm::Rhythm;
+        match self {
+            RhythmArg::Sinus => Rhythm::Sinus,
+            RhythmArg::VentricularBigeminy => Rhythm::VentricularBigeminy,
+            RhythmArg::SlowAlternatingBigeminy => Rhythm::SlowAlternatingBigeminy,
+            RhythmArg::RapidAlternatingBigeminy => Rhythm::RapidAlternatingBigeminy,
+            RhythmArg::BidirectionalSystoles => Rhythm::BidirectionalSystoles,
+        }
+    }
+}
+
 /// Output format of `leadline simulate`.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
 pub enum SimFormat {
@@ -822,6 +851,11 @@ pub struct SimulateArgs {
     /// An electrode is off: the input floats to the rails.
     #[arg(long)]
     pub lead_off: bool,
+    /// The heart's rhythm: sinus (the model, at --hr), or a standard irregular-rhythm case
+    /// (expected readings: ventricular-bigeminy 80, slow-alternating-bigeminy 60,
+    /// rapid-alternating-bigeminy 120, bidirectional-systoles 90 bpm).
+    #[arg(long, value_enum, default_value_t = RhythmArg::Sinus)]
+    pub rhythm: RhythmArg,
     /// Output format.
     #[arg(long, value_enum, default_value_t = SimFormat::Csv)]
     pub format: SimFormat,

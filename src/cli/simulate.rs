@@ -28,6 +28,7 @@ pub fn settings(a: &SimulateArgs) -> SynthSettings {
         charger: a.charger,
         inverted: a.inverted,
         lead_off: a.lead_off,
+        rhythm: a.rhythm.rhythm(),
         ..SynthSettings::default()
     }
 }

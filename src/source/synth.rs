@@ -18,6 +18,7 @@ use serde::{Deserialize, Serialize};
 use super::ecg_model::EcgModel;
 use crate::rng::Rng;
 use crate::scale::InputScale;
+use crate::source::rhythm::{Rhythm, ScheduledHeart};
 
 /// How much stronger mains coupling is with a mains charger on the laptop that reads the board
 /// (its switch-mode supply floats the laptop's ground a few tens of volts off earth through its
@@ -148,6 +149,8 @@ pub struct SynthSettings {
     pub lead_off: bool,
     /// The modelled front end and ADC.
     pub front_end: FrontEnd,
+    /// The heart's rhythm: the sinus model, or one of the standards' irregular-rhythm cases.
+    pub rhythm: Rhythm,
 }
 
 impl Default for SynthSettings {
@@ -172,6 +175,32 @@ impl Default for SynthSettings {
             inverted: false,
             lead_off: false,
             front_end: FrontEnd::default(),
+            rhythm: Rhythm::Sinus,
+        }
+    }
+}
+
+/// The heart of the simulator: the ECGSYN model, or beats on a schedule.
+#[derive(Debug, Clone)]
+enum Heart {
+    Model(EcgModel),
+    Scheduled(ScheduledHeart),
+}
+
+impl Heart {
+    fn new(s: &SynthSettings, rng: &mut Rng) -> Self {
+        match s.rhythm {
+            Rhythm::Sinus => Heart::Model(EcgModel::new(
+                s.fs_hz, s.hr_bpm, s.hrv_bpm, s.lf_hf, s.r_mv, rng,
+            )),
+            r => Heart::Scheduled(ScheduledHeart::new(s.fs_hz, r.pattern(s.r_mv))),
+        }
+    }
+
+    fn next_sample(&mut self) -> (f64, bool) {
+        match self {
+            Heart::Model(m) => m.next_sample(),
+            Heart::Scheduled(h) => h.next_sample(),
         }
     }
 }
@@ -252,7 +281,7 @@ struct ChannelState {
 pub struct Synth {
     settings: SynthSettings,
     scale: InputScale,
-    ecg: EcgModel,
+    ecg: Heart,
     channels: Vec<ChannelState>,
     mains_phase: f64,
     harmonic_phase: [f64; 4],
@@ -274,14 +303,7 @@ impl Synth {
     pub fn new(settings: SynthSettings) -> Result<Self, SynthError> {
         let scale = settings.validate()?;
         let mut rng = Rng::new(settings.seed);
-        let ecg = EcgModel::new(
-            settings.fs_hz,
-            settings.hr_bpm,
-            settings.hrv_bpm,
-            settings.lf_hf,
-            settings.r_mv,
-            &mut rng.fork(1),
-        );
+        let ecg = Heart::new(&settings, &mut rng.fork(1));
         let mut phase_rng = rng.fork(2);
         let harmonic_phase = [0; 4].map(|_| TAU * phase_rng.uniform());
         let mut channels = Vec::with_capacity(settings.channels);
@@ -332,8 +354,16 @@ impl Synth {
     pub fn update(&mut self, new: SynthSettings) -> Result<(), SynthError> {
         let scale = new.validate()?;
         let s = &self.settings;
-        if new.hr_bpm != s.hr_bpm || new.hrv_bpm != s.hrv_bpm || new.r_mv != s.r_mv {
-            self.ecg.set_rate(new.hr_bpm, new.hrv_bpm, new.r_mv);
+        if new.rhythm != s.rhythm {
+            self.ecg = Heart::new(&new, &mut Rng::new(new.seed).fork(1));
+        } else if let Heart::Model(m) = &mut self.ecg
+            && (new.hr_bpm != s.hr_bpm || new.hrv_bpm != s.hrv_bpm || new.r_mv != s.r_mv)
+        {
+            m.set_rate(new.hr_bpm, new.hrv_bpm, new.r_mv);
+        } else if let Heart::Scheduled(_) = &self.ecg
+            && new.r_mv != s.r_mv
+        {
+            self.ecg = Heart::new(&new, &mut Rng::new(new.seed).fork(1));
         }
         for (k, ch) in self.channels.iter_mut().enumerate() {
             ch.offset_v = new.offset_mv * 1e-3 * (1.0 + 0.15 * k as f64);

@@ -81,6 +81,19 @@ pub fn show(ui: &mut egui::Ui, s: &mut SynthSettings) -> Changed {
         .on_hover_text("Left and right electrodes exchanged: the ECG comes out upside down.");
     ui.checkbox(&mut s.lead_off, "Electrode off")
         .on_hover_text("One electrode has come off: the input floats, picks up mains and drives the amplifier to its rails.");
+    egui::ComboBox::from_label("Rhythm")
+        .selected_text(s.rhythm.name())
+        .show_ui(ui, |ui| {
+            for r in crate::source::rhythm::Rhythm::ALL {
+                let label = match r.expected_bpm() {
+                    Some(b) => format!("{} (reads {b:.0} bpm)", r.name()),
+                    None => format!("{} (the set rate)", r.name()),
+                };
+                ui.selectable_value(&mut s.rhythm, r, label);
+            }
+        })
+        .response
+        .on_hover_text("The monitor standards' irregular-rhythm cases, made by the simulator: the readout should show the rate in brackets (±10 % or ±5 bpm).");
     ui.separator();
     let mut restart = false;
     egui::ComboBox::from_label("Sample rate")
