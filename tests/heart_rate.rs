@@ -227,3 +227,141 @@ fn an_artefact_burst_at_300_bpm_is_never_shown_as_a_rate() {
         "{unreliable} evaluations marked unreliable"
     );
 }
+
+/// The monitor's readout (the DSP thread, through the pipeline) at every snapshot, as
+/// (evaluation time, state).
+fn monitor_readouts(settings: SynthSettings, seconds: f64) -> Vec<(f64, RateState)> {
+    use leadline::pipeline::{Pipeline, PipelineConfig};
+    use leadline::source::{Pacing, SourceSpec};
+    let p = Pipeline::start(
+        PipelineConfig {
+            source: SourceSpec::Synth(settings),
+            pacing: Pacing::Unpaced,
+            limit_s: Some(seconds),
+            display_hz: 1000.0,
+            ..PipelineConfig::default()
+        },
+        std::sync::Arc::new(|| {}),
+    )
+    .unwrap();
+    let mut seen = Vec::new();
+    while let Ok(s) = p
+        .snapshots()
+        .recv_timeout(std::time::Duration::from_secs(10))
+    {
+        if let Some(b) = &s.beats
+            && b.rate_at_s > 0.0
+        {
+            seen.push((b.rate_at_s, b.rate));
+        }
+        if s.source_done {
+            break;
+        }
+    }
+    seen
+}
+
+#[test]
+fn rate_csv_is_what_the_monitor_shows() {
+    // The simulator's ventricular bigeminy, once through the monitor's DSP thread and once
+    // written as counts and read back by `leadline beats --rate-out` with the same front end.
+    let seconds = 40.0;
+    let settings = SynthSettings {
+        fs_hz: 500.0,
+        rhythm: Rhythm::VentricularBigeminy,
+        seed: 3,
+        ..SynthSettings::default()
+    };
+    let shown = monitor_readouts(settings, seconds);
+    assert!(shown.len() >= 5, "{} evaluations seen", shown.len());
+    let dir = std::env::temp_dir().join(format!("leadline-hr-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let csv = dir.join("bigeminy-counts.csv");
+    let run = |args: &[&str]| {
+        let o = std::process::Command::new(env!("CARGO_BIN_EXE_leadline"))
+            .args(args)
+            .output()
+            .unwrap();
+        assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    };
+    run(&[
+        "simulate",
+        "--fs",
+        "500",
+        "--seconds",
+        "40",
+        "--seed",
+        "3",
+        "--rhythm",
+        "ventricular-bigeminy",
+        "--units",
+        "counts",
+        "--out",
+        csv.to_str().unwrap(),
+    ]);
+    let rate = dir.join("rate.csv");
+    let beats = dir.join("beats.csv");
+    run(&[
+        "beats",
+        "--input",
+        csv.to_str().unwrap(),
+        "--units",
+        "counts",
+        "--adc-bits",
+        "12",
+        "--adc-vref",
+        "3.3",
+        "--frontend-gain",
+        "500",
+        "--out",
+        beats.to_str().unwrap(),
+        "--rate-out",
+        rate.to_str().unwrap(),
+    ]);
+    let text = std::fs::read_to_string(&rate).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(lines.next(), Some("time_s,bpm,state,reason"));
+    let rows: Vec<(f64, Option<f64>, String)> = lines
+        .map(|l| {
+            let f: Vec<&str> = l.split(',').collect();
+            (
+                f[0].parse().unwrap(),
+                (!f[1].is_empty()).then(|| f[1].parse().unwrap()),
+                f[2].to_string(),
+            )
+        })
+        .collect();
+    assert_eq!(rows.len(), 40, "one row a second");
+    // Every state the monitor showed is the row of rate.csv at the same second.
+    for (t, state) in &shown {
+        let row = rows
+            .iter()
+            .find(|r| (r.0 - t).abs() < 1e-9)
+            .unwrap_or_else(|| panic!("no row at {t} s"));
+        assert_eq!(row.2, state.name(), "at {t} s");
+        if let Some(b) = state.bpm() {
+            assert!((row.1.unwrap() - b).abs() <= 0.05, "at {t} s: {row:?} vs {b}");
+        }
+    }
+    // And from 20 s on it reads the standard's 80 bpm.
+    for r in rows.iter().filter(|r| r.0 >= 20.0) {
+        assert!(within_tolerance(r.1.unwrap(), 80.0), "{r:?}");
+    }
+    // beats.csv: decided_s is at or after the R peak, by at most half a second once the
+    // detector's 2 s learning phase is over (the learning phase's beats wait for its end).
+    let b = std::fs::read_to_string(&beats).unwrap();
+    let mut bl = b.lines();
+    assert_eq!(bl.next(), Some("sample,time_s,r_uv,search_back,decided_s"));
+    let lat: Vec<f64> = bl
+        .map(|l| l.split(',').map(|v| v.parse().unwrap()).collect::<Vec<f64>>())
+        .filter(|f| f[1] > 2.5)
+        .map(|f| f[4] - f[1])
+        .collect();
+    println!(
+        "R to decision: {:.0}–{:.0} ms",
+        1e3 * lat.iter().copied().fold(f64::MAX, f64::min),
+        1e3 * lat.iter().copied().fold(f64::MIN, f64::max)
+    );
+    assert!(lat.len() > 40);
+    assert!(lat.iter().all(|&d| (0.0..=0.5).contains(&d)), "{lat:?}");
+}
