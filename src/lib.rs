@@ -32,6 +32,7 @@
 pub mod analog;
 pub mod analysis;
 pub mod cli;
+pub mod conform;
 pub mod dsp;
 pub mod export;
 pub mod gui;

@@ -26,6 +26,7 @@ fn main() -> ExitCode {
         Some(Command::Record(a)) => leadline::cli::record::run(&a),
         Some(Command::Bench(a)) => leadline::cli::bench::run(&a),
         Some(Command::ExportC(a)) => leadline::cli::export_c::run(&a),
+        Some(Command::Conform(a)) => leadline::cli::conform::run(&a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

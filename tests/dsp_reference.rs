@@ -258,3 +258,74 @@ fn reference_md_check_values() {
     let lp = design::butterworth_lowpass(4, 40.0, 500.0).unwrap();
     assert!((20.0 * response::magnitude(&lp, 40.0, 500.0).log10() + 3.0103).abs() < 1e-4);
 }
+
+#[test]
+fn conform_matches_scipy_on_the_impulse_test_and_the_067_hz_gain() {
+    // tests/reference/conform.json: the same pulse through scipy.signal.sosfilt / sosfiltfilt
+    // with scipy.signal.butter / iirnotch designs, judged with the same definitions, and the
+    // gain from scipy.signal.sosfreqz (make_conform.py).
+    use leadline::conform::{Mode, check};
+    use leadline::dsp::{ChainSettings, HighPass, LowPass, Notch};
+    let path =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/conform.json");
+    let doc: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(path).unwrap()).unwrap();
+    for case in doc["cases"].as_array().unwrap() {
+        let stage = |k: &str| {
+            case.get(k)
+                .and_then(|v| v.as_array())
+                .map(|a| (a[0].as_f64().unwrap(), a[1].as_f64().unwrap()))
+        };
+        let settings = ChainSettings {
+            highpass: match stage("highpass") {
+                Some((f, n)) => HighPass {
+                    enabled: true,
+                    corner_hz: f,
+                    order: n as u32,
+                },
+                None => HighPass {
+                    enabled: false,
+                    ..HighPass::default()
+                },
+            },
+            notch: match stage("notch") {
+                Some((f, q)) => Notch {
+                    enabled: true,
+                    mains_hz: f,
+                    q,
+                    ..Notch::default()
+                },
+                None => Notch {
+                    enabled: false,
+                    ..Notch::default()
+                },
+            },
+            lowpass: match stage("lowpass") {
+                Some((f, n)) => LowPass {
+                    enabled: true,
+                    corner_hz: f,
+                    order: n as u32,
+                },
+                None => LowPass {
+                    enabled: false,
+                    ..LowPass::default()
+                },
+            },
+            gain: 1.0,
+        };
+        let fs = case["fs"].as_f64().unwrap();
+        let zero_phase = case["zero_phase"].as_bool().unwrap();
+        let c = check(&settings, fs, Mode::Monitoring, zero_phase).unwrap();
+        let name = case["name"].as_str().unwrap();
+        let close = |ours: f64, key: &str, tol: f64| {
+            let want = case[key].as_f64().unwrap();
+            assert!(
+                (ours - want).abs() <= tol * want.abs().max(1.0),
+                "{name}: {key} {ours} vs scipy {want}"
+            );
+        };
+        close(c.impulse_undershoot_uv, "impulse_undershoot_uv", 1e-6);
+        close(c.impulse_slope_uv_per_s, "impulse_slope_uv_per_s", 1e-6);
+        close(c.gain_db_at_0_67_hz, "gain_db_at_0_67_hz", 1e-6);
+    }
+}

@@ -340,7 +340,10 @@ fn rate_csv_is_what_the_monitor_shows() {
             .unwrap_or_else(|| panic!("no row at {t} s"));
         assert_eq!(row.2, state.name(), "at {t} s");
         if let Some(b) = state.bpm() {
-            assert!((row.1.unwrap() - b).abs() <= 0.05, "at {t} s: {row:?} vs {b}");
+            assert!(
+                (row.1.unwrap() - b).abs() <= 0.05,
+                "at {t} s: {row:?} vs {b}"
+            );
         }
     }
     // And from 20 s on it reads the standard's 80 bpm.
@@ -353,7 +356,11 @@ fn rate_csv_is_what_the_monitor_shows() {
     let mut bl = b.lines();
     assert_eq!(bl.next(), Some("sample,time_s,r_uv,search_back,decided_s"));
     let lat: Vec<f64> = bl
-        .map(|l| l.split(',').map(|v| v.parse().unwrap()).collect::<Vec<f64>>())
+        .map(|l| {
+            l.split(',')
+                .map(|v| v.parse().unwrap())
+                .collect::<Vec<f64>>()
+        })
         .filter(|f| f[1] > 2.5)
         .map(|f| f[4] - f[1])
         .collect();

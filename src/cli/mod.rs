@@ -2,6 +2,7 @@
 
 pub mod beats;
 pub mod bench;
+pub mod conform;
 pub mod export_c;
 pub mod filter;
 pub mod parts;
@@ -63,9 +64,36 @@ pub enum Command {
     Record(RecordArgs),
     /// Measure throughput on this machine (run a release build); the last line is JSON.
     Bench(BenchArgs),
+    /// Check the chain against the ECG standards' impulse test, 0.67 Hz gain, upper corner and
+    /// ST shift; writes a JSON report with pass/fail and advice.
+    Conform(ConformArgs),
     /// Write the chain as a self-contained C99 header (float32, Q15 or Q31) for firmware.
     #[command(name = "export-c")]
     ExportC(ExportCArgs),
+}
+
+/// Options of `leadline conform`.
+#[derive(Debug, Clone, Args)]
+pub struct ConformArgs {
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Sample rate the chain runs at, Hz.
+    #[arg(long, value_name = "HZ")]
+    pub fs: f64,
+    /// Judge for diagnostic recording (0.67 Hz at −0.9 dB, 150 Hz) instead of monitoring
+    /// (−3 dB, 40 Hz).
+    #[arg(long)]
+    pub diagnostic: bool,
+    /// The chain runs forward and backward (recordings, `filter --zero-phase`).
+    #[arg(long)]
+    pub zero_phase: bool,
+    /// Take the chain from this setup (TOML) when no stage flag is given.
+    #[arg(long, value_name = "FILE")]
+    pub config: Option<PathBuf>,
+    /// The report: impulse_undershoot_uv, impulse_slope_uv_per_s, gain_db_at_0_67_hz,
+    /// upper_corner_hz, st_shift_uv, pass {item: bool}, advice.
+    #[arg(long, value_name = "FILE")]
+    pub report: PathBuf,
 }
 
 /// Options of `leadline export-c`.

@@ -17,6 +17,8 @@ pub struct ResponseCache {
     points: Vec<Point>,
     summary: Option<Summary>,
     error: Option<String>,
+    /// The standards' checks for monitoring and for diagnostic use.
+    conform: Option<[crate::conform::Conformance; 2]>,
 }
 
 impl ResponseCache {
@@ -32,10 +34,16 @@ impl ResponseCache {
                 self.points = response::evaluate(&sections, &freqs, fs);
                 self.summary = Some(response::summary(&sections, fs));
                 self.error = None;
+                use crate::conform::{Mode, check};
+                self.conform = check(chain, fs, Mode::Monitoring, false)
+                    .ok()
+                    .zip(check(chain, fs, Mode::Diagnostic, false).ok())
+                    .map(|(m, d)| [m, d]);
             }
             Err(e) => {
                 self.points.clear();
                 self.summary = None;
+                self.conform = None;
                 self.error = Some(e.to_string());
             }
         }
@@ -146,7 +154,72 @@ fn freq_plot(id: &str, y_label: &str, height: f32, width: f32, span: (f64, f64))
         .label_formatter(|pos| Some(hover_text(pos, true, "")))
 }
 
-/// Draws the three plots side by side and the summary line.
+/// The standards' checks in a line, failures in the warning colour, with the advice.
+fn conform_lines(
+    ui: &mut egui::Ui,
+    m: &crate::conform::Conformance,
+    d: &crate::conform::Conformance,
+) {
+    let mark = |ok: bool| if ok { "pass:" } else { "FAIL:" };
+    let warn = ui.visuals().warn_fg_color;
+    let line = |ui: &mut egui::Ui, ok: bool, text: String| {
+        if ok {
+            ui.label(text);
+        } else {
+            ui.colored_label(warn, text);
+        }
+    };
+    ui.horizontal_wrapped(|ui| {
+        let imp = m.pass.impulse_undershoot && m.pass.impulse_slope;
+        line(
+            ui,
+            imp,
+            format!(
+                "{} impulse test: undershoot {:.0} µV (≤ 100), slope {:.0} µV/s (≤ 300)",
+                mark(imp),
+                m.impulse_undershoot_uv,
+                m.impulse_slope_uv_per_s
+            ),
+        );
+        ui.separator();
+        line(
+            ui,
+            m.pass.st_shift,
+            format!("{} ST shift {:.0} µV", mark(m.pass.st_shift), m.st_shift_uv),
+        );
+        ui.separator();
+        let upper = m
+            .upper_corner_hz
+            .map_or("no upper corner".to_string(), |f| {
+                format!("upper corner {f:.1} Hz")
+            });
+        line(
+            ui,
+            m.pass.gain_at_0_67_hz && m.pass.upper_corner,
+            format!(
+                "{} monitoring: {:.2} dB at 0.67 Hz (≥ −3), {upper} (≥ 40)",
+                mark(m.pass.gain_at_0_67_hz && m.pass.upper_corner),
+                m.gain_db_at_0_67_hz
+            ),
+        );
+        ui.separator();
+        line(
+            ui,
+            d.pass.gain_at_0_67_hz && d.pass.upper_corner,
+            format!(
+                "{} diagnostic: ≥ −0.9 dB at 0.67 Hz, ≥ 150 Hz",
+                mark(d.pass.gain_at_0_67_hz && d.pass.upper_corner)
+            ),
+        );
+    })
+    .response
+    .on_hover_text(format!(
+        "The ECG standards' checks of this chain (leadline conform): {}",
+        m.advice.first().map_or("all pass.", String::as_str)
+    ));
+}
+
+/// Draws the summary line, the standards' checks and the three plots side by side.
 pub fn show(
     ui: &mut egui::Ui,
     cache: &ResponseCache,
@@ -155,6 +228,9 @@ pub fn show(
     built: Option<&[crate::analog::parts::Stage]>,
 ) {
     ui.label(cache.summary_text());
+    if let Some([m, d]) = &cache.conform {
+        conform_lines(ui, m, d);
+    }
     let pts = &cache.points;
     if pts.is_empty() {
         return;
