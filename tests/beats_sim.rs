@@ -65,7 +65,7 @@ fn every_beat_found_at_each_rate_and_polarity_with_mains_and_noise() {
 }
 
 #[test]
-fn each_beat_is_decided_within_300_ms_of_its_r_peak() {
+fn each_beat_is_decided_within_400_ms_of_its_r_peak() {
     // Live-sized blocks of 10 ms; a beat's decision time is the end of the block that reported it.
     for fs in [125.0, 360.0, 1000.0, 2000.0] {
         let s = SynthSettings {
@@ -94,7 +94,7 @@ fn each_beat_is_decided_within_300_ms_of_its_r_peak() {
         }
         assert!(n > 50, "fs {fs}: {n} beats");
         assert!(
-            worst <= 0.300,
+            worst <= 0.400,
             "fs {fs}: a beat was decided {worst:.3} s after its R peak"
         );
     }

@@ -12,7 +12,7 @@
 //! the sample of the input farthest from the median of the QRS window, so either polarity works.
 //!
 //! Changes from the published rules, and why:
-//! - Candidates are local maxima of the integrated signal over 180 ms before and 165 ms after
+//! - Candidates are local maxima of the integrated signal over 180 ms before and 250 ms after
 //!   (an O(1) sliding-window
 //!   maximum), not every slope change: a noisy integrator output otherwise yields several
 //!   candidates per QRS and pulls NPKI up.
@@ -88,7 +88,7 @@ impl Ring {
 }
 
 /// The streaming detector. Feed it blocks of input samples (any unit); it reports beats once
-/// they are decided (about 0.3 s after the R peak, later for a beat found by search-back).
+/// they are decided (about 0.36 s after the R peak, later for a beat found by search-back).
 #[derive(Debug, Clone)]
 pub struct Detector {
     fs: f64,
@@ -187,7 +187,7 @@ impl Detector {
             slope_ring: Ring::new(history),
             mwi_ring: Ring::new(history),
             maxq: VecDeque::new(),
-            half_window: secs(0.165),
+            half_window: secs(0.25),
             look_back: secs(0.180),
             delay_bp,
             refractory: secs(0.200),
@@ -454,6 +454,17 @@ impl Detector {
         let mut sorted: Vec<f64> = vals.iter().map(|v| v.1).collect();
         sorted.sort_by(f64::total_cmp);
         let base = sorted.get(sorted.len() / 2).copied().unwrap_or(0.0);
+        // In noise the largest deflection of the whole window can be a spike far from the QRS:
+        // look for R only within ±60 ms of the steepest slope of the band-passed QRS (taken
+        // back to the input's time by the band-pass and derivative delays).
+        let steep = c
+            .index
+            .saturating_sub(self.delay_bp + self.mwi_len as u64 / 2);
+        let near = (0.06 * self.fs) as u64;
+        let vals: Vec<(u64, f64)> = vals
+            .into_iter()
+            .filter(|(j, _)| j + near >= steep && *j <= steep + near)
+            .collect();
         let (mut r, mut rv) = (c.index, 0.0f64);
         for &(j, v) in &vals {
             if (v - base).abs() > rv.abs() {
