@@ -27,6 +27,9 @@ use std::collections::VecDeque;
 
 use crate::dsp::chain::{Chain, ChainSettings, HighPass, LowPass, Notch};
 
+/// The span over which QRS-like events are counted, s.
+pub const EVENTS_S: f64 = 5.0;
+
 /// A detected beat.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Beat {
@@ -128,8 +131,9 @@ pub struct Detector {
     polarity: f64,
     /// When the signal level was last halved by the lock-out guard.
     last_decay: u64,
-    /// Peaks of the integrated signal above THR1, at least 100 ms apart, of the last 3 s: how
-    /// often QRS-like energy arrives, whatever the candidate window lets through.
+    /// Peaks of the integrated signal above half the signal level (SPKI), at least 200 ms
+    /// apart, of the last 5 s: how often QRS-like energy arrives, whatever the candidate window
+    /// lets through.
     events: VecDeque<u64>,
     prev_mwi: [f64; 2],
 }
@@ -236,10 +240,15 @@ impl Detector {
         (self.initialised && self.npki > 0.0).then(|| self.spki / self.npki)
     }
 
-    /// QRS-like events per minute over the last 3 s: peaks of the integrated signal above THR1
-    /// at least 100 ms apart. Above 250 per minute no heart is beating that fast: an artefact.
-    pub fn events_per_min(&self) -> f64 {
-        self.events.len() as f64 * 20.0
+    /// QRS-like events over the last 5 s: peaks of the integrated signal above half the signal
+    /// level, at least 200 ms apart. More of them than beats is noise between the beats; more than about 21
+    /// (250 per minute) is faster than any heart: an artefact.
+    pub fn recent_events(&self) -> usize {
+        let span = (EVENTS_S * self.fs) as u64;
+        self.events
+            .iter()
+            .filter(|&&e| e + span >= self.n)
+            .count()
     }
 
     /// RR average over the recent regular beats, s (RR AVERAGE2 of the paper).
@@ -336,16 +345,16 @@ impl Detector {
             self.search_back(i, out);
             // A local maximum of the integrated signal one sample ago.
             let [m1, m2] = self.prev_mwi;
-            if m1 > m2 && m1 >= mwi && m1 > self.thr1() {
+            if m1 > m2 && m1 >= mwi && m1 > 0.5 * self.spki {
                 let at = i - 1;
-                let gap = (0.1 * self.fs) as u64;
+                let gap = self.refractory;
                 if self.events.back().is_none_or(|&e| at >= e + gap) {
+                    let span = (EVENTS_S * self.fs) as u64;
+                    while self.events.front().is_some_and(|&e| e + span < at) {
+                        self.events.pop_front();
+                    }
                     self.events.push_back(at);
                 }
-            }
-            let span = (3.0 * self.fs) as u64;
-            while self.events.front().is_some_and(|&e| e + span < i) {
-                self.events.pop_front();
             }
         }
         self.prev_mwi = [mwi, self.prev_mwi[0]];

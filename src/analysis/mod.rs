@@ -7,4 +7,5 @@ pub mod mains;
 pub mod quality;
 pub mod rate;
 pub mod readout;
+pub mod shape;
 pub mod template;

@@ -30,6 +30,8 @@ pub enum Unreliable {
     Quality,
     /// Beats closer than a heart can beat: an artefact burst.
     TooFast,
+    /// QRS-like energy arrives between the beats: noise that can hide or imitate beats.
+    Noise,
     /// The averaged rate is outside 30–250 bpm.
     OutOfRange,
 }
@@ -40,6 +42,7 @@ impl Unreliable {
         match self {
             Unreliable::Quality => "signal quality",
             Unreliable::TooFast => "beats too close (artefact)",
+            Unreliable::Noise => "QRS-like noise between beats",
             Unreliable::OutOfRange => "rate outside 30–250 bpm",
         }
     }
@@ -157,7 +160,7 @@ pub struct RateMeter {
     recent: VecDeque<(u64, f64)>,
     accepted: VecDeque<f64>,
     nn: VecDeque<f64>,
-    unreliable: bool,
+    unreliable: Option<Unreliable>,
     too_fast: bool,
     /// Intervals that began before this sample are not averaged (an artefact ended here).
     cut: u64,
@@ -183,14 +186,14 @@ impl RateMeter {
             recent: VecDeque::with_capacity(64),
             accepted: VecDeque::with_capacity(8),
             nn: VecDeque::new(),
-            unreliable: false,
+            unreliable: None,
             too_fast: false,
             cut: 0,
         }
     }
 
-    /// Marks the signal as (un)reliable (from the quality check).
-    pub fn set_unreliable(&mut self, u: bool) {
+    /// Marks the signal as (un)reliable (from the quality check), and why.
+    pub fn set_unreliable(&mut self, u: Option<Unreliable>) {
         self.unreliable = u;
     }
 
@@ -269,6 +272,24 @@ impl RateMeter {
         (w, cut_by_short)
     }
 
+    /// How many of the window's intervals repeat neither the interval before nor the one two
+    /// before within 20 % of the window's median (and how many were judged). A regular rhythm,
+    /// or one alternating two intervals (bigeminy), repeats; a beat invented or lost in noise
+    /// leaves intervals that do not.
+    pub fn unrepeated(&self) -> (usize, usize) {
+        let (w, _) = self.window();
+        if w.len() < 4 {
+            return (0, 0);
+        }
+        let mut sorted = w.clone();
+        sorted.sort_by(f64::total_cmp);
+        let med = sorted[sorted.len() / 2];
+        let odd = (2..w.len())
+            .filter(|&k| (w[k] - w[k - 1]).abs() > 0.2 * med && (w[k] - w[k - 2]).abs() > 0.2 * med)
+            .count();
+        (odd, w.len() - 2)
+    }
+
     /// The averaged rate over the window, bpm, and how many intervals it used.
     pub fn averaged_bpm(&self) -> Option<(f64, usize)> {
         let (mut w, _) = self.window();
@@ -286,8 +307,8 @@ impl RateMeter {
 
     /// The readout at sample `now`.
     pub fn state(&self, now: u64) -> RateState {
-        if self.unreliable {
-            return RateState::Unreliable(Unreliable::Quality);
+        if let Some(why) = self.unreliable {
+            return RateState::Unreliable(why);
         }
         let since = match self.last_beat {
             Some(b) => now.saturating_sub(b) as f64 / self.fs,
@@ -379,7 +400,7 @@ mod tests {
         assert!(reached.is_some_and(|k| k <= 12), "{reached:?}");
         assert_eq!(m.state(t), RateState::Rate(120.0));
         assert!(matches!(m.state(t + 3100), RateState::NoBeat(s) if s > 3.0));
-        m.set_unreliable(true);
+        m.set_unreliable(Some(Unreliable::Quality));
         assert_eq!(m.state(t), RateState::Unreliable(Unreliable::Quality));
     }
 

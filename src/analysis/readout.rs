@@ -5,9 +5,10 @@
 
 use serde::Serialize;
 
-use super::beats::{Beat, Detector, DetectorError};
+use super::beats::{Beat, Detector, DetectorError, EVENTS_S};
 use super::quality::QualityMonitor;
-use super::rate::{RateMeter, RateState};
+use super::rate::{RateMeter, RateState, Unreliable};
+use super::shape::ShapeCheck;
 
 /// QRS-like events faster than this per minute are an artefact (no heart beats at 260 bpm;
 /// the standards' paediatric range ends at 250 bpm, recalled from memory).
@@ -38,6 +39,11 @@ pub struct Readout {
     eval_every: u64,
     shown: RateState,
     found: Vec<Beat>,
+    /// Decision samples of the beats of the last 5 s.
+    recent_beats: std::collections::VecDeque<u64>,
+    /// The input of the last second, for the beats' shapes.
+    input: std::collections::VecDeque<f64>,
+    shape: ShapeCheck,
 }
 
 impl Readout {
@@ -56,6 +62,9 @@ impl Readout {
             eval_every,
             shown: RateState::Settling,
             found: Vec::new(),
+            recent_beats: std::collections::VecDeque::new(),
+            input: std::collections::VecDeque::with_capacity(fs as usize + 1),
+            shape: ShapeCheck::new(fs),
         })
     }
 
@@ -104,18 +113,37 @@ impl Readout {
             let now = self.detector.samples();
             let until = (self.next_eval - now) as usize;
             let end = (start + until).min(uv.len());
+            let keep = self.fs as usize;
             for (i, &v) in uv[start..end].iter().enumerate() {
                 self.quality
                     .push(v, rails.get(start + i).copied().unwrap_or(false));
+                if self.input.len() == keep {
+                    self.input.pop_front();
+                }
+                self.input.push_back(v);
             }
             self.found.clear();
             self.detector.process(&uv[start..end], &mut self.found);
             // Deflections under 0.1 mV are noise, not beats (common practice; the monitor
             // standards' noise-rejection amplitude, recalled from memory, is 0.15 mV).
             self.found.retain(|b| b.r_value.abs() >= MIN_R_UV);
+            // Samples consumed so far, and the index of the oldest kept.
+            let consumed = self.detector.samples();
+            let oldest = consumed - self.input.len() as u64;
+            let h = self.shape.half() as u64;
             for b in &self.found {
                 self.meter.on_beat(b.sample);
                 self.quality.push_beat(b.r_value);
+                self.recent_beats.push_back(b.decided);
+                if b.sample >= oldest + h && b.sample + h < consumed {
+                    let from = (b.sample - h - oldest) as usize;
+                    let window: Vec<f64> = self
+                        .input
+                        .range(from..from + 2 * h as usize + 1)
+                        .copied()
+                        .collect();
+                    self.shape.judge(&window);
+                }
             }
             beats.extend_from_slice(&self.found);
             self.quality.set_detector_snr(self.detector.snr());
@@ -123,9 +151,33 @@ impl Readout {
                 // A flat line is "no beat", not an unreliable signal: there is nothing to count.
                 let q = self.quality.quality();
                 let flat = q.problem == Some(super::quality::Problem::Flat);
-                self.meter.set_unreliable(!q.usable() && !flat);
+                let span = (EVENTS_S * self.fs) as u64;
+                while self
+                    .recent_beats
+                    .front()
+                    .is_some_and(|&b| b + span < self.next_eval)
+                {
+                    self.recent_beats.pop_front();
+                }
+                let events = self.detector.recent_events();
+                let beats = self.recent_beats.len();
+                // Noise that can hide or imitate beats: QRS-like energy between the beats (at
+                // least 2 more events than beats in 5 s, and a quarter more), or two of the last
+                // eight beats shaped like neither family of beats.
+                let (odd, judged) = self.shape.unmatched();
+                let (unrep, rep_judged) = self.meter.unrepeated();
+                let noisy = (beats > 0 && events >= beats + 2 && 4 * events >= 5 * beats)
+                    || (judged >= 6 && odd >= 2)
+                    || (rep_judged >= 4 && unrep >= 2);
+                self.meter.set_unreliable(if !q.usable() && !flat {
+                    Some(Unreliable::Quality)
+                } else if noisy {
+                    Some(Unreliable::Noise)
+                } else {
+                    None
+                });
                 self.meter.set_too_fast(
-                    self.detector.events_per_min() > MAX_EVENTS_PER_MIN,
+                    events as f64 * 60.0 / EVENTS_S > MAX_EVENTS_PER_MIN,
                     self.next_eval,
                 );
                 self.shown = self.meter.state(self.next_eval);
