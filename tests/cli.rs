@@ -381,3 +381,62 @@ fn monitor_refuses_a_bad_setup_file_naming_the_line_and_key() {
     assert_eq!(o.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&o.stderr).contains("missing.toml"));
 }
+
+#[test]
+fn conform_reports_the_standards_checks_with_pass_and_advice() {
+    // Limits: Maji & Burke, IEEE TIM 69(3), 2020 (impulse test); 0.67 Hz gain and upper corner
+    // from the ECG standards (REFERENCE.md §3; figures recalled from memory).
+    let report = tmp("conform.json");
+    let o = leadline(&[
+        "conform",
+        "--highpass",
+        "0.5",
+        "--notch",
+        "50",
+        "--lowpass",
+        "40",
+        "--fs",
+        "500",
+        "--report",
+        report.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
+    for key in [
+        "impulse_undershoot_uv",
+        "impulse_slope_uv_per_s",
+        "gain_db_at_0_67_hz",
+        "upper_corner_hz",
+        "st_shift_uv",
+    ] {
+        assert!(r[key].is_number(), "{key}: {}", r[key]);
+    }
+    assert_eq!(r["pass"]["impulse_undershoot"], false);
+    assert_eq!(r["pass"]["gain_at_0_67_hz"], true);
+    assert!(r["advice"][0].as_str().unwrap().contains("zero phase"));
+    // The chain of a setup file: a first-order 0.05 Hz high-pass passes the impulse test.
+    let setup = tmp("conform.toml");
+    std::fs::write(
+        &setup,
+        "[chain.highpass]\nenabled = true\ncorner_hz = 0.05\norder = 1\n[chain.notch]\nenabled = false\n[chain.lowpass]\nenabled = true\ncorner_hz = 150.0\norder = 2\n",
+    )
+    .unwrap();
+    let o = leadline(&[
+        "conform",
+        "--config",
+        setup.to_str().unwrap(),
+        "--fs",
+        "1000",
+        "--diagnostic",
+        "--report",
+        report.to_str().unwrap(),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&report).unwrap()).unwrap();
+    assert_eq!(r["pass"]["impulse_undershoot"], true, "{r}");
+    assert_eq!(r["pass"]["impulse_slope"], true, "{r}");
+    assert_eq!(r["pass"]["gain_at_0_67_hz"], true, "{r}");
+    assert_eq!(r["mode"], "diagnostic");
+}

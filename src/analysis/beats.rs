@@ -245,10 +245,7 @@ impl Detector {
     /// (250 per minute) is faster than any heart: an artefact.
     pub fn recent_events(&self) -> usize {
         let span = (EVENTS_S * self.fs) as u64;
-        self.events
-            .iter()
-            .filter(|&&e| e + span >= self.n)
-            .count()
+        self.events.iter().filter(|&&e| e + span >= self.n).count()
     }
 
     /// RR average over the recent regular beats, s (RR AVERAGE2 of the paper).
