@@ -5,6 +5,7 @@
 //! - [`serial`]: a board on a serial port; [`replay`]: a recording streamed as a device.
 
 pub mod ecg_model;
+pub mod framing;
 pub mod replay;
 pub mod rhythm;
 pub mod run;

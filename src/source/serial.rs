@@ -14,17 +14,16 @@ use std::time::{Duration, Instant};
 
 use crossbeam_channel::Sender;
 
+use super::framing::{Blocker, Decoding};
 use super::run::send_blocking;
-use crate::msg::{RawBlock, SampleUnit};
+use crate::msg::RawBlock;
 use crate::scale::InputScale;
-use crate::wire::{self, Format, Frame, Values, WireStats, ascii, binary};
+use crate::wire::{Format, Frame, WireStats};
 
 /// Read timeout: how long a read waits before the thread looks at the stop flag.
 const READ_TIMEOUT: Duration = Duration::from_millis(50);
 /// Retry period while the device is gone.
 const REOPEN_EVERY: Duration = Duration::from_millis(500);
-/// Arrival time used to estimate an unknown sample rate.
-const ESTIMATE_S: f64 = 2.0;
 
 /// What to open.
 #[derive(Debug, Clone, PartialEq)]
@@ -67,7 +66,7 @@ pub struct SerialStatus {
 /// Shared status handle.
 pub type StatusHandle = Arc<Mutex<SerialStatus>>;
 
-fn set_status(status: &StatusHandle, f: impl FnOnce(&mut SerialStatus)) {
+pub(crate) fn set_status(status: &StatusHandle, f: impl FnOnce(&mut SerialStatus)) {
     if let Ok(mut s) = status.lock() {
         f(&mut s);
     }
@@ -92,115 +91,13 @@ pub fn list_ports() -> Vec<String> {
         .unwrap_or_default()
 }
 
-enum Decoding {
-    Unknown(Vec<u8>),
-    Text(ascii::Decoder),
-    Binary(binary::Decoder),
-}
-
-impl Decoding {
-    fn push(&mut self, bytes: &[u8], out: &mut Vec<Frame>) -> Option<Format> {
-        match self {
-            Decoding::Unknown(buf) => {
-                buf.extend_from_slice(bytes);
-                let fmt =
-                    wire::detect(buf).or_else(|| (buf.len() > 4096).then_some(Format::Text))?;
-                let pending = std::mem::take(buf);
-                *self = match fmt {
-                    Format::Text => Decoding::Text(ascii::Decoder::new()),
-                    Format::Binary => Decoding::Binary(binary::Decoder::new()),
-                };
-                self.push(&pending, out);
-                Some(fmt)
-            }
-            Decoding::Text(d) => {
-                d.push(bytes, out);
-                Some(Format::Text)
-            }
-            Decoding::Binary(d) => {
-                d.push(bytes, out);
-                Some(Format::Binary)
-            }
-        }
-    }
-
-    fn stats(&self) -> WireStats {
-        match self {
-            Decoding::Unknown(_) => WireStats::default(),
-            Decoding::Text(d) => d.stats(),
-            Decoding::Binary(d) => d.stats(),
-        }
-    }
-
-    fn fs_hz(&self) -> Option<f64> {
-        match self {
-            Decoding::Text(d) => d.fs_hz(),
-            _ => None,
-        }
-    }
-}
-
-/// The sample rate from arrival times: the least-squares slope of the running frame count
-/// against time, and its standard error (Hz). `arrivals` holds (time, frames that arrived then).
-///
-/// A read returns whatever the OS buffered, so single reads give wildly different rates (a
-/// 1 ms read of 4 frames "is" 4000 Hz); the slope over two seconds of reads does not care how the
-/// frames were grouped, and its standard error is small for a steady clock.
-pub fn estimate_rate(arrivals: &[(Instant, usize)]) -> (f64, f64) {
-    let Some(&(t0, _)) = arrivals.first() else {
-        return (0.0, f64::INFINITY);
-    };
-    // The count *after* each read, against the time of that read.
-    let mut total = 0.0;
-    let points: Vec<(f64, f64)> = arrivals
-        .iter()
-        .map(|&(t, n)| {
-            total += n as f64;
-            (t.duration_since(t0).as_secs_f64(), total)
-        })
-        .collect();
-    let n = points.len() as f64;
-    if points.len() < 3 {
-        let span = points.last().map_or(0.0, |p| p.0).max(1e-3);
-        return (total / span, f64::INFINITY);
-    }
-    let mt = points.iter().map(|p| p.0).sum::<f64>() / n;
-    let mc = points.iter().map(|p| p.1).sum::<f64>() / n;
-    let stt: f64 = points.iter().map(|p| (p.0 - mt).powi(2)).sum();
-    let stc: f64 = points.iter().map(|p| (p.0 - mt) * (p.1 - mc)).sum();
-    if stt <= 0.0 {
-        return (0.0, f64::INFINITY);
-    }
-    let slope = stc / stt;
-    let resid: f64 = points
-        .iter()
-        .map(|p| (p.1 - mc - slope * (p.0 - mt)).powi(2))
-        .sum();
-    let se = (resid / (n - 2.0) / stt).sqrt();
-    (slope, se)
-}
-
 /// Runs until `stop` is set or the receiver hangs up.
 pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: StatusHandle) {
-    let mut decoding = match spec.format {
-        Some(Format::Text) => Decoding::Text(ascii::Decoder::new()),
-        Some(Format::Binary) => Decoding::Binary(binary::Decoder::new()),
-        None => Decoding::Unknown(Vec::new()),
-    };
-    let mut fs = spec.fs_hz;
-    let mut channels: Option<usize> = None;
-    let mut next_sample = 0u64;
-    let mut seq = 0u64;
-    let mut gap = false;
-    let mut frames: Vec<Frame> = Vec::new();
-    // Frames held while the rate is being estimated: (arrival, count).
-    let mut held: Vec<Frame> = Vec::new();
-    let mut arrivals: Vec<(Instant, usize)> = Vec::new();
-    let mut buf = vec![0u8; 8192];
+    let mut decoding = Decoding::new(spec.format);
+    let mut blocker = Blocker::new(spec.fs_hz, spec.scale, spec.physical_to_uv);
     let mut ever_connected = false;
-
     while !stop.load(Ordering::Relaxed) {
-        let mut port = match open(&spec.path, spec.baud) {
+        let port = match open(&spec.path, spec.baud) {
             Ok(p) => p,
             Err(e) => {
                 set_status(&status, |s| {
@@ -215,7 +112,7 @@ pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: S
             }
         };
         if ever_connected {
-            gap = true;
+            blocker.mark_gap();
             set_status(&status, |s| s.reconnects += 1);
         }
         ever_connected = true;
@@ -223,106 +120,79 @@ pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: S
             s.connected = true;
             s.message = format!("reading {} at {} baud", spec.path, spec.baud);
         });
-        loop {
-            if stop.load(Ordering::Relaxed) {
-                return;
+        let ended = read_stream(port, &mut decoding, &mut blocker, &out, stop, &status);
+        match ended {
+            StreamEnd::Stopped => return,
+            StreamEnd::Lost(why) => set_status(&status, |s| {
+                s.connected = false;
+                s.message = format!("device {} lost: {why}; waiting for it", spec.path);
+            }),
+        }
+    }
+}
+
+/// How a stream ended.
+#[derive(Debug)]
+pub enum StreamEnd {
+    /// The stop flag was set or the receiver hung up.
+    Stopped,
+    /// The device or peer went away (end of file or a read error).
+    Lost(String),
+}
+
+/// Reads a byte stream (a serial port, a TCP connection, anything that reads with a short
+/// timeout) until it ends, decoding frames and sending blocks; waits, never drops.
+pub fn read_stream(
+    mut reader: impl Read,
+    decoding: &mut Decoding,
+    blocker: &mut Blocker,
+    out: &Sender<RawBlock>,
+    stop: &AtomicBool,
+    status: &StatusHandle,
+) -> StreamEnd {
+    let mut buf = vec![0u8; 8192];
+    let mut frames: Vec<Frame> = Vec::new();
+    let mut blocks = Vec::new();
+    loop {
+        if stop.load(Ordering::Relaxed) {
+            return StreamEnd::Stopped;
+        }
+        let n = match reader.read(&mut buf) {
+            Ok(0) => {
+                // End of file: a pseudo-terminal whose other side closed, a peer that hung up.
+                std::thread::sleep(Duration::from_millis(20));
+                return StreamEnd::Lost("the other end closed".into());
             }
-            let n = match port.read(&mut buf) {
-                Ok(0) => {
-                    // End of file on a pseudo-terminal whose other side closed.
-                    std::thread::sleep(Duration::from_millis(20));
-                    break;
-                }
-                Ok(n) => n,
-                Err(e)
-                    if e.kind() == std::io::ErrorKind::TimedOut
-                        || e.kind() == std::io::ErrorKind::Interrupted =>
-                {
-                    continue;
-                }
-                Err(e) => {
-                    set_status(&status, |s| {
-                        s.connected = false;
-                        s.message = format!("device {} lost: {e}; waiting for it", spec.path);
-                    });
-                    break;
-                }
-            };
-            frames.clear();
-            let fmt = decoding.push(&buf[..n], &mut frames);
-            let now = Instant::now();
-            let wire_stats = decoding.stats();
-            set_status(&status, |s| {
-                s.format = fmt;
-                s.wire = wire_stats;
-            });
-            // The stream's channel count is that of its first frame; other frames are dropped
-            // (the decoder already counted malformed text lines; binary ones are counted here).
-            let ch = *channels.get_or_insert_with(|| frames.first().map_or(0, |f| f.samples.len()));
-            if ch == 0 {
-                channels = None;
+            Ok(n) => n,
+            Err(e)
+                if e.kind() == std::io::ErrorKind::TimedOut
+                    || e.kind() == std::io::ErrorKind::WouldBlock
+                    || e.kind() == std::io::ErrorKind::Interrupted =>
+            {
                 continue;
             }
-            frames.retain(|f| f.samples.len() == ch);
-            if fs.is_none() {
-                fs = decoding.fs_hz();
-            }
-            if fs.is_none() {
-                arrivals.push((now, frames.len()));
-                held.append(&mut frames);
-                // The first half second may be a backlog from the OS buffer: leave it out.
-                let t_start = arrivals[0].0 + Duration::from_millis(500);
-                let span = now.saturating_duration_since(t_start).as_secs_f64();
-                if span >= ESTIMATE_S && held.len() > 10 {
-                    let first = arrivals.iter().position(|a| a.0 > t_start).unwrap_or(0);
-                    let (est, spread) = estimate_rate(&arrivals[first..]);
-                    fs = Some(est);
-                    set_status(&status, |s| {
-                        s.estimated = true;
-                        s.spread_hz = spread;
-                    });
-                    frames = std::mem::take(&mut held);
-                } else {
-                    continue;
-                }
-            }
-            let Some(rate) = fs else { continue };
-            set_status(&status, |s| s.fs_hz = Some(rate));
-            // Split where the value kind changes or frames were lost, so each block is uniform.
-            let mut start = 0;
-            while start < frames.len() {
-                let kind = frames[start].values;
-                let mut end = start + 1;
-                while end < frames.len()
-                    && frames[end].values == kind
-                    && frames[end].lost_before == 0
-                {
-                    end += 1;
-                }
-                next_sample += frames[start].lost_before;
-                let mut data = Vec::with_capacity((end - start) * ch);
-                for f in &frames[start..end] {
-                    data.extend_from_slice(&f.samples);
-                }
-                let block = RawBlock {
-                    seq,
-                    first_sample: next_sample,
-                    fs_hz: rate,
-                    channels: ch,
-                    unit: match kind {
-                        Values::Counts => SampleUnit::Counts(spec.scale),
-                        Values::Physical => SampleUnit::Decimal(spec.physical_to_uv),
-                    },
-                    data,
-                    made_at: now,
-                    gap_before: std::mem::take(&mut gap),
-                };
-                seq += 1;
-                next_sample += (end - start) as u64;
-                if !send_blocking(&out, block, stop) {
-                    return;
-                }
-                start = end;
+            Err(e) => return StreamEnd::Lost(e.to_string()),
+        };
+        frames.clear();
+        let fmt = decoding.push(&buf[..n], &mut frames);
+        let now = Instant::now();
+        let wire_stats = decoding.stats();
+        set_status(status, |s| {
+            s.format = fmt;
+            s.wire = wire_stats;
+        });
+        blocks.clear();
+        blocker.push(&mut frames, now, decoding.fs_hz(), &mut blocks);
+        if let Some(r) = blocker.rate() {
+            set_status(status, |s| {
+                s.fs_hz = Some(r.fs_hz);
+                s.estimated = r.estimated;
+                s.spread_hz = r.spread_hz;
+            });
+        }
+        for b in blocks.drain(..) {
+            if !send_blocking(out, b, stop) {
+                return StreamEnd::Stopped;
             }
         }
     }
