@@ -34,6 +34,9 @@ pub enum PipelineError {
     /// The simulator refused its settings.
     #[error("simulator: {0}")]
     Synth(#[from] SynthError),
+    /// The source could not start (a port in use, say).
+    #[error("{0}")]
+    Source(String),
     /// The OS would not start a thread.
     #[error("cannot start the {0} thread: {1}")]
     Spawn(&'static str, std::io::Error),
@@ -89,6 +92,7 @@ pub struct Pipeline {
     threads: Vec<JoinHandle<()>>,
     label: String,
     serial_status: Option<crate::source::serial::StatusHandle>,
+    net_status: Option<crate::source::net::NetHandle>,
     replay_tx: Option<Sender<crate::source::replay::ReplayCommand>>,
     replay_status: Option<crate::source::replay::ReplayHandle>,
     recorder_tx: Option<Sender<RecorderCommand>>,
@@ -134,6 +138,7 @@ impl Pipeline {
             );
         }
         let mut serial_status = None;
+        let mut net_status = None;
         let (mut replay_tx, mut replay_status) = (None, None);
         match cfg.source {
             SourceSpec::File(spec) => {
@@ -148,6 +153,35 @@ impl Pipeline {
                         .name("leadline-replay".into())
                         .spawn(move || crate::source::replay::run(spec, raw_tx, rx, &stop, status))
                         .map_err(|e| PipelineError::Spawn("replay", e))?,
+                );
+                drop(synth_rx);
+            }
+            SourceSpec::Udp(spec) => {
+                // A port in use is reported at once, not from inside the thread.
+                let socket =
+                    crate::source::net::bind_udp(spec.bind).map_err(PipelineError::Source)?;
+                let status: crate::source::net::NetHandle = Default::default();
+                net_status = Some(Arc::clone(&status));
+                let stop = Arc::clone(&stop);
+                threads.push(
+                    std::thread::Builder::new()
+                        .name("leadline-udp".into())
+                        .spawn(move || {
+                            crate::source::net::run_udp(spec, socket, raw_tx, &stop, status)
+                        })
+                        .map_err(|e| PipelineError::Spawn("udp", e))?,
+                );
+                drop(synth_rx);
+            }
+            SourceSpec::Tcp(spec) => {
+                let status: crate::source::net::NetHandle = Default::default();
+                net_status = Some(Arc::clone(&status));
+                let stop = Arc::clone(&stop);
+                threads.push(
+                    std::thread::Builder::new()
+                        .name("leadline-tcp".into())
+                        .spawn(move || crate::source::net::run_tcp(spec, raw_tx, &stop, status))
+                        .map_err(|e| PipelineError::Spawn("tcp", e))?,
                 );
                 drop(synth_rx);
             }
@@ -212,6 +246,7 @@ impl Pipeline {
             threads,
             label,
             serial_status,
+            net_status,
             replay_tx,
             replay_status,
             recorder_tx,
@@ -278,6 +313,13 @@ impl Pipeline {
     /// What the serial thread is doing (None for other sources).
     pub fn serial_status(&self) -> Option<crate::source::serial::SerialStatus> {
         self.serial_status
+            .as_ref()
+            .and_then(|s| s.lock().ok().map(|g| g.clone()))
+    }
+
+    /// What a network source is doing (None for other sources).
+    pub fn net_status(&self) -> Option<crate::source::net::NetStatus> {
+        self.net_status
             .as_ref()
             .and_then(|s| s.lock().ok().map(|g| g.clone()))
     }

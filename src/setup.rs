@@ -25,6 +25,8 @@ pub enum SourceKind {
     Serial,
     /// A recording replayed.
     File,
+    /// A Wi-Fi board over UDP or TCP (`network`).
+    Network,
 }
 
 /// Wire format on a serial port.
@@ -56,6 +58,8 @@ pub struct SourceSetup {
     pub file: String,
     /// Unit of the replayed file's values: "V", "mV" or "uV".
     pub file_unit: String,
+    /// A network board: "udp:5005", "udp:5005?from=192.0.2.7" or "tcp:192.0.2.7:5006".
+    pub network: String,
 }
 
 impl Default for SourceSetup {
@@ -69,6 +73,7 @@ impl Default for SourceSetup {
             uv_per_unit: 1000.0,
             file: String::new(),
             file_unit: "mV".into(),
+            network: String::new(),
         }
     }
 }
@@ -347,6 +352,15 @@ impl Setup {
                 }
                 Ok(spec)
             }
+            SourceKind::Network => {
+                if !(s.network.starts_with("udp:") || s.network.starts_with("tcp:")) {
+                    return Err(format!(
+                        "source.network = {:?}: expected udp:PORT or tcp:HOST:PORT",
+                        s.network
+                    ));
+                }
+                SourceSpec::parse(&s.network, fs, self.scale).map_err(|e| e.to_string())
+            }
             SourceKind::File => {
                 let mut spec = SourceSpec::parse(&format!("file:{}", s.file), fs, self.scale)
                     .map_err(|e| e.to_string())?;
@@ -452,6 +466,7 @@ mod tests {
             uv_per_unit: 1.0,
             file: String::new(),
             file_unit: "uV".into(),
+            network: String::new(),
         };
         s.view.theme = Theme::Light;
         s.view.window_s = 4.5;

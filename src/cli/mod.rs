@@ -178,8 +178,10 @@ pub struct PartsArgs {
 /// Options of `leadline record`.
 #[derive(Debug, Clone, Args)]
 pub struct RecordArgs {
-    /// Source: synth, serial:PATH[@BAUD][:ascii|:binary] or file:PATH (default: the --config
-    /// setup's source, else the simulator).
+    /// Source: synth, serial:PATH[@BAUD][:ascii|:binary], udp:[ADDR:]PORT[?from=HOST[:PORT]],
+    /// tcp:HOST:PORT or file:PATH (default: the --config setup's source, else the simulator).
+    /// The last line on stdout is a JSON summary (frames, lost, duplicate, late, foreign, gaps,
+    /// reconnects).
     #[arg(long, value_name = "SPEC")]
     pub source: Option<String>,
     /// Take the source, scaling, simulator and chain from this setup (TOML); --source and any
@@ -503,6 +505,8 @@ pub enum BenchWhat {
     Beats,
     /// Decoder throughput of the text and binary wire formats, MB/s.
     Wire,
+    /// UDP: binary datagrams decoded and put back in order, frames/s against 8 ch × 4 kHz.
+    Net,
 }
 
 /// Options of `leadline bench`.
@@ -715,7 +719,9 @@ pub struct FilterArgs {
 /// Options of `leadline monitor`.
 #[derive(Debug, Clone, Args, Default)]
 pub struct MonitorArgs {
-    /// Signal source: synth (the built-in simulator), serial:PATH[@BAUD][:ascii|:binary], or file:PATH (replay).
+    /// Signal source: synth (the built-in simulator), serial:PATH[@BAUD][:ascii|:binary],
+    /// udp:[ADDR:]PORT[?from=HOST[:PORT]] (a Wi-Fi board sends to us), tcp:HOST:PORT (we connect
+    /// to a board), or file:PATH (replay).
     /// Default: the setup's source (see --config), else the simulator.
     #[arg(long, value_name = "SPEC")]
     pub source: Option<String>,
@@ -899,6 +905,14 @@ pub struct SimulateArgs {
     /// Baud rate the stream must fit (for --pty; the pseudo-terminal itself ignores it).
     #[arg(long, default_value_t = 921_600, value_name = "B")]
     pub baud: u32,
+    /// Send the stream in real time as UDP datagrams to HOST:PORT (binary frames unless
+    /// --format ascii), as a Wi-Fi board would.
+    #[arg(long, value_name = "HOST:PORT", conflicts_with_all = ["pty", "tcp_listen"])]
+    pub udp: Option<String>,
+    /// Listen on TCP PORT (loopback) and stream in real time to the client that connects, as a
+    /// Wi-Fi board that listens would.
+    #[arg(long, value_name = "PORT", conflicts_with = "pty")]
+    pub tcp_listen: Option<u16>,
 }
 
 /// Reads a recording for an offline command and picks one channel: a malformed file or a missing

@@ -12,6 +12,23 @@ use crate::recorder::{RecordFormat, RecordRequest, RecordValues, RecorderCommand
 use crate::scale::InputScale;
 use crate::source::{Pacing, SourceSpec};
 
+/// The JSON summary `record` prints last.
+#[derive(Debug, serde::Serialize)]
+struct Summary {
+    out: String,
+    frames: u64,
+    lost: u64,
+    duplicate: u64,
+    late: u64,
+    foreign: u64,
+    gaps: u64,
+    reconnects: u64,
+    /// False for text over UDP (no sequence numbers).
+    losses_countable: bool,
+    /// The sender (UDP) or peer (TCP).
+    peer: Option<String>,
+}
+
 /// Lists serial ports.
 ///
 /// # Errors
@@ -69,7 +86,12 @@ pub fn run(a: &RecordArgs) -> Result<()> {
         _ => a.chain.settings(),
     };
     // The board's front end applies to a board; the simulator models its own.
-    let front_end = front_ends.filter(|_| matches!(spec, SourceSpec::Serial(_)));
+    let front_end = front_ends.filter(|_| {
+        matches!(
+            spec,
+            SourceSpec::Serial(_) | SourceSpec::Udp(_) | SourceSpec::Tcp(_)
+        )
+    });
     if a.scale.any() && front_end.is_none() {
         eprintln!(
             "leadline: the --adc-* and --frontend-gain options apply to a board's stream, not to {}",
@@ -119,13 +141,43 @@ pub fn run(a: &RecordArgs) -> Result<()> {
     }
     let status = pipeline.finish_recording(Duration::from_secs(10));
     let serial = pipeline.serial_status();
+    let net = pipeline.net_status();
+    let stats = pipeline.latest_snapshot().map(|s| s.stats);
     drop(pipeline);
     let status = status.unwrap_or_default();
+    let summary = Summary {
+        out: a.out.display().to_string(),
+        frames: status.frames,
+        lost: match (&net, &serial) {
+            (Some(n), _) => n.order.lost,
+            (None, Some(s)) => s.wire.lost_frames,
+            _ => stats.as_ref().map_or(0, |s| s.frames_lost),
+        },
+        duplicate: net.as_ref().map_or(0, |n| n.order.duplicate),
+        late: net.as_ref().map_or(0, |n| n.order.late),
+        foreign: net.as_ref().map_or(0, |n| n.foreign),
+        gaps: stats.as_ref().map_or(0, |s| s.gaps),
+        reconnects: net
+            .as_ref()
+            .map(|n| n.reconnects)
+            .or(serial.as_ref().map(|s| s.reconnects))
+            .unwrap_or(0),
+        losses_countable: !net.as_ref().is_some_and(|n| n.losses_uncountable),
+        peer: net.as_ref().and_then(|n| n.peer).map(|p| p.to_string()),
+    };
+    // The last line on stdout, for every source and outcome a script can read.
+    println!("{}", serde_json::to_string(&summary)?);
+    if let Some(e) = net.as_ref().and_then(|n| n.error.clone()) {
+        bail!("{e}");
+    }
     if let Some(m) = failed.or(status.failed.then(|| status.message.clone())) {
         bail!("{m}");
     }
     if status.frames == 0 {
-        let why = serial.map(|s| s.message).unwrap_or_default();
+        let why = serial
+            .map(|s| s.message)
+            .or(net.map(|n| n.message))
+            .unwrap_or_default();
         // Exit 1: a script must be able to tell. The (empty) file stays as written.
         bail!(
             "no samples arrived from {} in {} s{}; nothing was written to {}",

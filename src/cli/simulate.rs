@@ -147,10 +147,10 @@ fn write_patiently(port: &mut serialport::TTYPort, mut bytes: &[u8]) -> Result<(
 
 /// Streams into a pseudo-terminal in real time, printing its path first.
 fn run_pty(a: &SimulateArgs) -> Result<()> {
-    use std::time::{Duration, Instant};
+    use std::time::Duration;
     let s = settings(a);
-    let mut synth = Synth::new(s.clone())?;
-    let scale = synth.scale();
+    // Check the settings before a pseudo-terminal is opened.
+    Synth::new(s.clone())?;
     let (mut master, slave) =
         serialport::TTYPort::pair().context("cannot open a pseudo-terminal")?;
     let name = serialport::SerialPort::name(&slave).unwrap_or_else(|| "?".into());
@@ -183,9 +183,25 @@ fn run_pty(a: &SimulateArgs) -> Result<()> {
         );
     }
     serialport::SerialPort::set_timeout(&mut master, Duration::from_millis(100))?;
+    stream_real_time(a, fmt, |bytes| write_patiently(&mut master, bytes))?;
+    drop(slave);
+    Ok(())
+}
+
+/// Streams the simulator in real time, 10 ms of frames at a time, through `send` (a
+/// pseudo-terminal, a datagram, a TCP connection). Text gets the `# key=value` header first.
+fn stream_real_time(
+    a: &SimulateArgs,
+    fmt: SimFormat,
+    mut send: impl FnMut(&[u8]) -> Result<()>,
+) -> Result<()> {
+    use std::time::{Duration, Instant};
+    let s = settings(a);
+    let mut synth = Synth::new(s.clone())?;
+    let scale = synth.scale();
     if fmt == SimFormat::Ascii {
         let h = ascii::header(s.fs_hz, s.channels, &scale, "leadline simulator");
-        write_patiently(&mut master, h.as_bytes())?;
+        send(h.as_bytes())?;
     }
     let start = Instant::now();
     let limit = a.seconds.map(|v| (v * s.fs_hz).round() as u64);
@@ -211,10 +227,68 @@ fn run_pty(a: &SimulateArgs) -> Result<()> {
                 bytes.extend_from_slice(text.as_bytes());
             }
         }
-        write_patiently(&mut master, &bytes)?;
+        send(&bytes)?;
     }
-    drop(slave);
     Ok(())
+}
+
+/// Sends the simulator as datagrams to HOST:PORT, one 10 ms block per datagram.
+fn run_udp(a: &SimulateArgs, to: &str) -> Result<()> {
+    let fmt = if a.format == SimFormat::Csv {
+        SimFormat::Binary
+    } else {
+        a.format
+    };
+    let socket = std::net::UdpSocket::bind(("127.0.0.1", 0))
+        .or_else(|_| std::net::UdpSocket::bind(("0.0.0.0", 0)))
+        .context("cannot open a UDP socket")?;
+    let addr = crate::source::net::resolve_addr(to).map_err(super::BadInput)?;
+    eprintln!(
+        "streaming the simulator to UDP {addr} ({}); try: leadline monitor --source udp:{}",
+        if fmt == SimFormat::Binary {
+            "binary frames"
+        } else {
+            "text lines"
+        },
+        addr.port()
+    );
+    stream_real_time(a, fmt, |bytes| {
+        // A listener that is not there yet (ICMP "refused") is not a reason to stop.
+        match socket.send_to(bytes, addr) {
+            Ok(_) => Ok(()),
+            Err(e) if e.kind() == io::ErrorKind::ConnectionRefused => Ok(()),
+            Err(e) => Err(anyhow::Error::new(e).context(format!("sending to {addr}"))),
+        }
+    })
+}
+
+/// Listens on TCP PORT (loopback) and streams the simulator to each client that connects, one
+/// at a time, until the stream's length is reached.
+fn run_tcp_listen(a: &SimulateArgs, port: u16) -> Result<()> {
+    let fmt = if a.format == SimFormat::Csv {
+        SimFormat::Binary
+    } else {
+        a.format
+    };
+    let listener = std::net::TcpListener::bind(("127.0.0.1", port)).map_err(|e| {
+        if e.kind() == io::ErrorKind::AddrInUse {
+            anyhow::Error::new(super::BadInput(format!(
+                "TCP port {port} is already in use"
+            )))
+        } else {
+            anyhow::Error::new(e).context(format!("cannot listen on TCP 127.0.0.1:{port}"))
+        }
+    })?;
+    eprintln!(
+        "the simulator listens on TCP 127.0.0.1:{port}; try: leadline monitor --source tcp:127.0.0.1:{port}"
+    );
+    let (mut conn, peer) = listener.accept().context("accepting a TCP client")?;
+    eprintln!("streaming to {peer}");
+    let _ = conn.set_nodelay(true);
+    stream_real_time(a, fmt, |bytes| {
+        conn.write_all(bytes)
+            .map_err(|e| anyhow::Error::new(e).context(format!("sending to {peer}")))
+    })
 }
 
 /// Runs the command.
@@ -224,6 +298,12 @@ fn run_pty(a: &SimulateArgs) -> Result<()> {
 pub fn run(a: &SimulateArgs) -> Result<()> {
     if a.pty {
         return run_pty(a);
+    }
+    if let Some(to) = &a.udp {
+        return run_udp(a, to);
+    }
+    if let Some(port) = a.tcp_listen {
+        return run_tcp_listen(a, port);
     }
     if a.out == "-" {
         let stdout = io::stdout();

@@ -55,6 +55,9 @@ pub struct LeadlineApp {
     spectrum: panels::spectrum::SpectrumView,
     picker: panels::source::SourcePicker,
     front_end: panels::front_end::FrontEndPanel,
+    net: panels::network::NetPicker,
+    /// Why the last source did not start (a port in use, say).
+    source_error: Option<String>,
     file_path: String,
     parts: panels::parts::PartsView,
     record: panels::record::RecordPanel,
@@ -76,18 +79,17 @@ pub use super::state::LowerView;
 fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, PipelineError> {
     Pipeline::start(
         PipelineConfig {
-            source: match (&settings.serial, &settings.file) {
-                (Some(spec), _) => SourceSpec::Serial(spec.clone()),
-                (None, Some(f)) => SourceSpec::File(f.clone()),
-                (None, None) => SourceSpec::Synth(settings.synth.clone()),
+            source: match (&settings.serial, &settings.net, &settings.file) {
+                (Some(spec), _, _) => SourceSpec::Serial(spec.clone()),
+                (None, Some(n), _) => n.clone(),
+                (None, None, Some(f)) => SourceSpec::File(f.clone()),
+                (None, None, None) => SourceSpec::Synth(settings.synth.clone()),
             },
             chain: settings.chain,
             window_s: settings.window_s,
             display_hz: settings.display_hz,
             // The board's front end applies to a board; the simulator models its own.
-            front_end: settings
-                .serial
-                .is_some()
+            front_end: (settings.serial.is_some() || settings.net.is_some())
                 .then(|| settings.front_ends.clone()),
             pacing: Pacing::RealTime,
             limit_s: None,
@@ -142,6 +144,8 @@ impl LeadlineApp {
             spectrum: Default::default(),
             picker: Default::default(),
             front_end: Default::default(),
+            net: Default::default(),
+            source_error: None,
             file_path,
             parts: Default::default(),
             record: Default::default(),
@@ -199,10 +203,11 @@ impl LeadlineApp {
                 self.pipeline = p;
                 self.view = View::default();
                 self.markers.clear();
+                self.source_error = None;
             }
             Err(e) => {
-                // Keep the old stream; the settings panel shows the refused values until changed.
-                eprintln!("leadline: {e}");
+                // Keep the old stream; the Source section says why the new one did not start.
+                self.source_error = Some(e.to_string());
             }
         }
     }
@@ -677,6 +682,9 @@ impl LeadlineApp {
                 if let Some(st) = self.pipeline.serial_status() {
                     panels::status::serial_line(ui, &st);
                 }
+                if let Some(st) = self.pipeline.net_status() {
+                    panels::status::net_line(ui, &st);
+                }
                 panels::caution::reminder(ui);
             });
 
@@ -750,6 +758,24 @@ impl LeadlineApp {
                             panels::source::SourceRequest::Serial(spec) => Some(spec),
                         };
                         self.settings.file = None;
+                        self.settings.net = None;
+                        self.settings.channel = 0;
+                        self.restart_source();
+                    }
+                    let net_active = self.settings.net.is_some();
+                    if let Some(req) = panels::network::show(
+                        ui,
+                        &mut self.net,
+                        net_active,
+                        first.adc,
+                        self.source_error.as_deref(),
+                    ) {
+                        self.settings.net = match req {
+                            panels::network::NetRequest::Connect(spec) => Some(spec),
+                            panels::network::NetRequest::Disconnect => None,
+                        };
+                        self.settings.serial = None;
+                        self.settings.file = None;
                         self.settings.channel = 0;
                         self.restart_source();
                     }
@@ -766,6 +792,7 @@ impl LeadlineApp {
                                 read: crate::store::ReadOptions::default(),
                             });
                             self.settings.serial = None;
+                            self.settings.net = None;
                             self.settings.channel = 0;
                             self.restart_source();
                         }
@@ -779,7 +806,8 @@ impl LeadlineApp {
                     egui::CollapsingHeader::new(egui::RichText::new("Front end").heading())
                         .default_open(true)
                         .show(ui, |ui| {
-                            let board = self.settings.serial.is_some();
+                            let board =
+                                self.settings.serial.is_some() || self.settings.net.is_some();
                             let n = self.view.snapshot.as_ref().map_or(1, |s| s.traces.len());
                             let ch = panels::front_end::show(
                                 ui,
@@ -816,7 +844,10 @@ impl LeadlineApp {
                                 self.files_action(a, fs);
                             }
                         });
-                    if self.settings.serial.is_none() && self.settings.file.is_none() {
+                    if self.settings.serial.is_none()
+                        && self.settings.file.is_none()
+                        && self.settings.net.is_none()
+                    {
                         ui.add_space(10.0);
                         ui.heading("Simulated bench");
                         let changed = panels::simulator::show(ui, &mut self.settings.synth);

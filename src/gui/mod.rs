@@ -73,10 +73,14 @@ pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
             .map_err(|e| BadInput(e.to_string()))?;
         settings.serial = None;
         settings.file = None;
+        settings.net = None;
         match spec {
             crate::source::SourceSpec::Serial(s) => settings.serial = Some(s),
             crate::source::SourceSpec::File(f) => settings.file = Some(f),
             crate::source::SourceSpec::Synth(_) => {}
+            n @ (crate::source::SourceSpec::Udp(_) | crate::source::SourceSpec::Tcp(_)) => {
+                settings.net = Some(n)
+            }
         }
     }
     if let Some(fs) = args.fs {
@@ -104,6 +108,7 @@ pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
         ) {
             settings.serial = None;
             settings.file = None;
+            settings.net = None;
             settings.synth.fs_hz = args.fs.unwrap_or(if heavy { 2000.0 } else { 1000.0 });
             settings.synth.channels = args.channels.unwrap_or(if heavy { 8 } else { 1 });
             settings.window_s = if heavy { 30.0 } else { 10.0 };

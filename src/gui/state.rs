@@ -84,6 +84,8 @@ pub struct Settings {
     pub serial: Option<crate::source::serial::SerialSpec>,
     /// A recording replayed instead of the simulator.
     pub file: Option<crate::source::replay::ReplaySpec>,
+    /// A network board (a UDP or TCP source) instead of the simulator.
+    pub net: Option<crate::source::SourceSpec>,
     /// The board's front end per channel (entry k for channel k, the last for the rest).
     pub front_ends: Vec<FrontEnd>,
     /// The user's own board, saved with "save as my board".
@@ -111,6 +113,7 @@ impl Default for Settings {
             display_hz: 30.0,
             serial: None,
             file: None,
+            net: None,
             front_ends: vec![FrontEnd::default()],
             my_board: None,
             theme: Theme::Dark,
@@ -129,10 +132,11 @@ impl Settings {
     /// A message when its source cannot be used.
     pub fn from_setup(s: &Setup) -> Result<Self, String> {
         use crate::source::SourceSpec;
-        let (serial, file) = match s.source_spec()? {
-            SourceSpec::Serial(spec) => (Some(spec), None),
-            SourceSpec::File(f) => (None, Some(f)),
-            SourceSpec::Synth(_) => (None, None),
+        let (serial, file, net) = match s.source_spec()? {
+            SourceSpec::Serial(spec) => (Some(spec), None, None),
+            SourceSpec::File(f) => (None, Some(f), None),
+            SourceSpec::Synth(_) => (None, None, None),
+            n @ (SourceSpec::Udp(_) | SourceSpec::Tcp(_)) => (None, None, Some(n)),
         };
         Ok(Self {
             chain: s.chain,
@@ -147,6 +151,7 @@ impl Settings {
             display_hz: s.view.display_hz,
             serial,
             file,
+            net,
             front_ends: s.front_end.per_channel(s.scale),
             my_board: s.front_end.my_board.first().copied(),
             theme: s.view.theme,
@@ -171,6 +176,9 @@ impl Settings {
             };
             source.fs_hz = sp.fs_hz.unwrap_or(0.0);
             source.uv_per_unit = sp.physical_to_uv;
+        } else if let Some(n) = &self.net {
+            source.kind = SourceKind::Network;
+            source.network = crate::source::net::spec_text(n);
         } else if let Some(f) = &self.file {
             source.kind = SourceKind::File;
             source.file = f.path.display().to_string();

@@ -119,10 +119,7 @@ impl Blocker {
         while start < frames.len() {
             let kind = frames[start].values;
             let mut end = start + 1;
-            while end < frames.len()
-                && frames[end].values == kind
-                && frames[end].lost_before == 0
-            {
+            while end < frames.len() && frames[end].values == kind && frames[end].lost_before == 0 {
                 end += 1;
             }
             self.next_sample += frames[start].lost_before;

@@ -2,10 +2,12 @@
 //!
 //! - [`synth`]: the built-in simulator (default), with [`ecg_model`] for the sinus waveform and
 //!   [`rhythm`] for the standards' irregular-rhythm cases.
-//! - [`serial`]: a board on a serial port; [`replay`]: a recording streamed as a device.
+//! - [`serial`]: a board on a serial port; [`net`]: a Wi-Fi board over UDP or TCP;
+//!   [`replay`]: a recording streamed as a device. [`framing`]: what the board sources share.
 
 pub mod ecg_model;
 pub mod framing;
+pub mod net;
 pub mod replay;
 pub mod rhythm;
 pub mod run;

@@ -17,12 +17,16 @@ pub enum SourceSpec {
     Serial(super::serial::SerialSpec),
     /// A recording replayed at real-time pace.
     File(super::replay::ReplaySpec),
+    /// A Wi-Fi board sending datagrams to us.
+    Udp(super::net::UdpSpec),
+    /// A Wi-Fi board that listens; we connect.
+    Tcp(super::net::TcpSpec),
 }
 
 /// A source text that cannot be understood.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[error(
-    "source {spec:?}: {reason} (expected synth, serial:PATH[@BAUD][:ascii|:binary] or file:PATH)"
+    "source {spec:?}: {reason} (expected synth, serial:PATH[@BAUD][:ascii|:binary], udp:[ADDR:]PORT[?from=HOST[:PORT]], tcp:HOST:PORT or file:PATH)"
 )]
 pub struct SpecError {
     pub spec: String,
@@ -36,6 +40,8 @@ impl SourceSpec {
             SourceSpec::Synth(s) => format!("simulator ({} ch)", s.channels),
             SourceSpec::Serial(s) => format!("serial {} @ {}", s.path, s.baud),
             SourceSpec::File(f) => format!("replay {}", f.path.display()),
+            SourceSpec::Udp(u) => format!("UDP {}", u.bind),
+            SourceSpec::Tcp(t) => format!("TCP {}:{}", t.host, t.port),
         }
     }
 
@@ -70,6 +76,61 @@ impl SourceSpec {
                     fs_hz,
                     ..Default::default()
                 },
+            }));
+        }
+        if let Some(rest) = text.strip_prefix("udp:") {
+            let (addr, from) = match rest.split_once("?from=") {
+                Some((a, f)) => (a, Some(f)),
+                None => (rest, None),
+            };
+            let bind: std::net::SocketAddr = match addr.parse::<u16>() {
+                Ok(port) => std::net::SocketAddr::from(([0, 0, 0, 0], port)),
+                Err(_) => addr.parse().map_err(|_| {
+                    err("expected udp:PORT or udp:ADDR:PORT with a numeric address")
+                })?,
+            };
+            let from = match from {
+                None => None,
+                Some(f) => Some(match f.parse::<std::net::SocketAddr>() {
+                    Ok(a) => super::net::Peer::Addr(a),
+                    Err(_) => super::net::Peer::Ip(
+                        f.parse()
+                            .map_err(|_| err("from= takes an IP address, or IP:PORT"))?,
+                    ),
+                }),
+            };
+            return Ok(SourceSpec::Udp(super::net::UdpSpec {
+                bind,
+                from,
+                fs_hz,
+                scale,
+                physical_to_uv: 1e3,
+            }));
+        }
+        if let Some(rest) = text.strip_prefix("tcp:") {
+            let (rest, format) = if let Some(r) = rest.strip_suffix(":ascii") {
+                (r, Some(crate::wire::Format::Text))
+            } else if let Some(r) = rest.strip_suffix(":binary") {
+                (r, Some(crate::wire::Format::Binary))
+            } else {
+                (rest, None)
+            };
+            let Some((host, port)) = rest.rsplit_once(':') else {
+                return Err(err("expected tcp:HOST:PORT"));
+            };
+            let port = port
+                .parse::<u16>()
+                .map_err(|_| err("the port is not a number 1–65535"))?;
+            if host.is_empty() || port == 0 {
+                return Err(err("expected tcp:HOST:PORT"));
+            }
+            return Ok(SourceSpec::Tcp(super::net::TcpSpec {
+                host: host.trim_matches(['[', ']']).to_string(),
+                port,
+                format,
+                fs_hz,
+                scale,
+                physical_to_uv: 1e3,
             }));
         }
         let Some(rest) = text.strip_prefix("serial:") else {

@@ -143,6 +143,7 @@ impl Decoder {
                         Values::Physical
                     },
                     lost_before: 0,
+                    seq: None,
                 });
             }
             None => {

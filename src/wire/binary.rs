@@ -170,11 +170,51 @@ impl Decoder {
                         samples,
                         values: Values::Counts,
                         lost_before: lost,
+                        seq: Some(seq),
                     });
                     i += len;
                 }
             }
         }
         self.buf.drain(..i);
+    }
+}
+
+/// Decodes the whole frames of one datagram (UDP: a datagram holds one or more whole frames),
+/// with no sequence bookkeeping: [`super::reorder::Reorder`] does that across datagrams. Bytes
+/// that are not a whole frame are garbage; a partial frame at the end is garbage too (the rest
+/// of it can never arrive).
+pub fn decode_datagram(bytes: &[u8], out: &mut Vec<Frame>, stats: &mut WireStats) {
+    let mut i = 0;
+    while i < bytes.len() {
+        let Some(off) = bytes[i..].windows(2).position(|w| w == SYNC) else {
+            stats.garbage_bytes += (bytes.len() - i) as u64;
+            return;
+        };
+        stats.garbage_bytes += off as u64;
+        i += off;
+        match parse_at(&bytes[i..]) {
+            Parse::NeedMore => {
+                stats.garbage_bytes += (bytes.len() - i) as u64;
+                return;
+            }
+            bad @ (Parse::BadHeader | Parse::BadCrc) => {
+                if matches!(bad, Parse::BadCrc) {
+                    stats.bad_crc += 1;
+                }
+                stats.garbage_bytes += 1;
+                i += 1;
+            }
+            Parse::Frame(len, seq, samples) => {
+                stats.frames += 1;
+                out.push(Frame {
+                    samples,
+                    values: Values::Counts,
+                    lost_before: 0,
+                    seq: Some(seq),
+                });
+                i += len;
+            }
+        }
     }
 }

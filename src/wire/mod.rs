@@ -4,9 +4,12 @@
 //!
 //! - [`ascii`]: text lines, one frame per line.
 //! - [`binary`]: framed binary with a sync word, sequence counter and CRC-16/CCITT-FALSE.
+//! - [`reorder`]: puts datagrams' frames back in sequence order (UDP), counting lost,
+//!   duplicate and late frames.
 
 pub mod ascii;
 pub mod binary;
+pub mod reorder;
 
 /// What a frame's numbers are.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -26,6 +29,8 @@ pub struct Frame {
     pub values: Values,
     /// Frames lost just before this one (binary sequence gap), 0 when none.
     pub lost_before: u64,
+    /// The binary frame's sequence counter (None for text lines, which carry none).
+    pub seq: Option<u16>,
 }
 
 /// Counters of what a decoder had to skip. All are totals.

@@ -129,3 +129,50 @@ pub fn serial_line(ui: &mut egui::Ui, st: &crate::source::serial::SerialStatus) 
         .on_hover_text("What the decoder had to skip: frames with a bad checksum, lines that were not numbers, lines too long, frames missing by sequence number, bytes between frames.");
     });
 }
+
+/// The network link's line: peer, datagrams, bytes, ordering counters, rate, decoder errors.
+pub fn net_line(ui: &mut egui::Ui, st: &crate::source::net::NetStatus) {
+    ui.horizontal_wrapped(|ui| {
+        let colour = if st.error.is_some() {
+            ui.visuals().error_fg_color
+        } else if st.connected {
+            ui.visuals().text_color()
+        } else {
+            ui.visuals().warn_fg_color
+        };
+        ui.colored_label(colour, &st.message);
+        ui.separator();
+        ui.label(format!("datagrams {} · {} bytes", st.datagrams, st.bytes));
+        if let Some(fs) = st.fs_hz {
+            ui.separator();
+            if st.estimated {
+                ui.label(format!("{fs:.1} Hz estimated ±{:.1} Hz", st.spread_hz));
+            } else {
+                ui.label(rate_text(fs));
+            }
+        }
+        ui.separator();
+        if st.losses_uncountable {
+            ui.label("text lines carry no sequence number: losses cannot be counted")
+                .on_hover_text("Send binary frames over UDP to have lost, duplicate and late frames counted and put back in order.");
+        } else {
+            let o = st.order;
+            ui.label(format!(
+                "lost {} · duplicate {} · late {} · reordered {}",
+                o.lost, o.duplicate, o.late, o.reordered
+            ))
+            .on_hover_text("Frames missing (marked as gaps), received twice, arriving after they were given up (50 ms), and put back in order.");
+        }
+        ui.separator();
+        ui.label(format!("foreign {} · empty {} · reconnects {}", st.foreign, st.empty, st.reconnects))
+            .on_hover_text("Datagrams from another sender (ignored), datagrams with no frame in them, and TCP links re-established.");
+        let w = st.wire;
+        if w.bad_crc + w.malformed_lines + w.garbage_bytes > 0 {
+            ui.separator();
+            ui.label(format!(
+                "bad CRC {} · malformed {} · garbage {} B",
+                w.bad_crc, w.malformed_lines, w.garbage_bytes
+            ));
+        }
+    });
+}
