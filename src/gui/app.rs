@@ -751,7 +751,15 @@ impl LeadlineApp {
                     let active = self.settings.serial.as_ref().map(|s| s.path.clone());
                     let first = self.settings.front_ends.first().copied().unwrap_or_default();
                     if let Some(req) =
-                        panels::source::show(ui, &mut self.picker, active.as_deref(), first.adc)
+                        panels::source::show(
+                            ui,
+                            &mut self.picker,
+                            active.as_deref(),
+                            self.settings.serial.is_none()
+                                && self.settings.net.is_none()
+                                && self.settings.file.is_none(),
+                            first.adc,
+                        )
                     {
                         self.settings.serial = match req {
                             panels::source::SourceRequest::Simulator => None,

@@ -65,12 +65,14 @@ pub enum SourceRequest {
     Serial(SerialSpec),
 }
 
-/// Draws the source controls. `active` is the serial port being read, if any; `scale` the board's
-/// ADC model for channel 1 (the DSP thread applies the whole front end live).
+/// Draws the source controls. `active` is the serial port being read, if any; `simulating` says
+/// the simulator is the source; `scale` the board's ADC model for channel 1 (the DSP thread
+/// applies the whole front end live).
 pub fn show(
     ui: &mut egui::Ui,
     p: &mut SourcePicker,
     active: Option<&str>,
+    simulating: bool,
     scale: InputScale,
 ) -> Option<SourceRequest> {
     let serial_active = active.is_some();
@@ -85,10 +87,10 @@ pub fn show(
     let mut req = None;
     ui.horizontal(|ui| {
         if ui
-            .selectable_label(!serial_active, "Simulator")
+            .selectable_label(simulating, "Simulator")
             .on_hover_text("The built-in synthetic ECG: no hardware needed.")
             .clicked()
-            && serial_active
+            && !simulating
         {
             req = Some(SourceRequest::Simulator);
         }
