@@ -105,7 +105,7 @@ pub struct Detector {
     slope_ring: Ring,
     mwi_ring: Ring,
     /// Indices of the sliding-window maximum of the integrated signal.
-    maxq: VecDeque<u64>,
+    maxq: VecDeque<(u64, f64)>,
     /// Look-ahead of the candidate window, samples (the decision waits this long).
     half_window: u64,
     /// Look-back of the candidate window, samples.
@@ -307,23 +307,21 @@ impl Detector {
         }
 
         // Sliding maximum over [i − 2W, i]; the centre i − W is a candidate when it is the max.
-        while self
-            .maxq
-            .back()
-            .is_some_and(|&j| self.mwi_ring.get(j).unwrap_or(0.0) <= mwi)
-        {
+        // (The values ride along with the indices: no ring look-ups per sample.)
+        while self.maxq.back().is_some_and(|&(_, v)| v <= mwi) {
             self.maxq.pop_back();
         }
-        self.maxq.push_back(i);
+        self.maxq.push_back((i, mwi));
         // The window looks further back than ahead: only the look-ahead costs decision latency.
         let (back, w) = (self.look_back, self.half_window);
-        while self.maxq.front().is_some_and(|&j| j + back + w < i) {
+        while self.maxq.front().is_some_and(|&(j, _)| j + back + w < i) {
             self.maxq.pop_front();
         }
         if i >= w {
             let c = i - w;
-            if self.maxq.front() == Some(&c) {
-                let peak = self.mwi_ring.get(c).unwrap_or(0.0);
+            if let Some(&(front, peak)) = self.maxq.front()
+                && front == c
+            {
                 if peak > 0.0 {
                     let cand = Candidate {
                         index: c,
