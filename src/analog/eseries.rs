@@ -32,6 +32,18 @@ impl Series {
         })
     }
 
+    /// "E24" etc.
+    pub fn name(self) -> &'static str {
+        match self {
+            Series::E6 => "E6",
+            Series::E12 => "E12",
+            Series::E24 => "E24",
+            Series::E48 => "E48",
+            Series::E96 => "E96",
+            Series::E192 => "E192",
+        }
+    }
+
     /// The decade's values, 1.0 … < 10, ascending.
     pub fn values(self) -> Vec<f64> {
         match self {

@@ -3,12 +3,14 @@
 //! Monte Carlo ([`tolerance`]), a realisation of a whole chain ([`parts`]) and the gain budget
 //! ([`gain_budget`]). Values are in ohms, farads, hertz.
 
+pub mod circuit;
 pub mod eseries;
 pub mod gain_budget;
 pub mod inamp;
 pub mod parts;
 pub mod rc;
 pub mod sallen_key;
+pub mod schematic;
 pub mod tolerance;
 pub mod twin_t;
 

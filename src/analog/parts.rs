@@ -36,6 +36,8 @@ pub struct PartsOptions {
     pub tolerances: Tolerances,
     /// In-amp target gain and the datasheet constant K (G = 1 + K/Rg).
     pub inamp: Option<(f64, f64)>,
+    /// Input bias current of the op-amps, A (for the offset in the high-pass resistors).
+    pub bias_current_a: f64,
 }
 
 impl Default for PartsOptions {
@@ -45,6 +47,7 @@ impl Default for PartsOptions {
             capacitors: Vec::new(),
             tolerances: Tolerances::default(),
             inamp: None,
+            bias_current_a: 1e-9,
         }
     }
 }
@@ -74,6 +77,21 @@ pub struct Stage {
     /// Corner spread over the tolerances.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub spread: Option<Spread>,
+    /// Twin-T: depth at the mains frequency over the tolerance draws, dB (p5/p50/p95).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub notch_depth_db: Option<super::circuit::Percentiles>,
+    /// Twin-T: where the notch's centre lands over the draws, Hz (p5/p50/p95).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub notch_centre_hz: Option<super::circuit::Percentiles>,
+    /// Twin-T: share of builds whose notch misses the mains by more than half its bandwidth.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub miss_share: Option<f64>,
+    /// What to do about it, in words (empty when nothing).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub advice: Option<String>,
+    /// The op-amp this stage needs.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub opamp: Option<super::circuit::OpampNeed>,
 }
 
 impl Stage {
@@ -200,6 +218,11 @@ pub fn realise(chain: &ChainSettings, opts: &PartsOptions) -> Result<Vec<Stage>,
             error_pct: 100.0 * (realised / g - 1.0),
             parts: BTreeMap::from([("Rg", rgs)]),
             spread: None,
+            notch_depth_db: None,
+            notch_centre_hz: None,
+            miss_share: None,
+            advice: None,
+            opamp: None,
         });
     }
 
@@ -308,13 +331,37 @@ pub fn realise(chain: &ChainSettings, opts: &PartsOptions) -> Result<Vec<Stage>,
             error_pct: 0.0,
             parts,
             spread: None,
+            notch_depth_db: None,
+            notch_centre_hz: None,
+            miss_share: None,
+            advice: None,
+            opamp: None,
         };
+        if topology == "twin-t" {
+            // The feedback fraction from two series resistors: k = Rk2 / (Rk1 + Rk2).
+            let k = stage.parts.get("k").copied().unwrap_or(0.0);
+            if k > 0.0 {
+                let (a, b) = s.best_pair((1.0 - k) / k);
+                let (rk2, rk1) = (a * 1e4, b * 1e4);
+                stage.parts.insert("Rk1", rk1);
+                stage.parts.insert("Rk2", rk2);
+                stage.parts.insert("k", rk2 / (rk1 + rk2));
+            } else {
+                // Passive (Q 0.25): the centre node to ground through the follower of 0 V.
+                stage.parts.insert("Rk1", 10e6);
+                stage.parts.insert("Rk2", 1.0);
+            }
+        }
         if let Some((f, rq)) = stage.corner(&stage.parts) {
             stage.realised_hz = Some(f);
             stage.q = rq;
             stage.error_pct = 100.0 * (f / f0 - 1.0);
         }
         stage.spread = Some(spread(&stage, &opts.tolerances));
+        stage.opamp = Some(super::circuit::opamp_need(&stage, opts.bias_current_a));
+        if topology == "twin-t" {
+            super::circuit::notch_tolerance(&mut stage, &opts.tolerances, f0);
+        }
         add(stage);
     }
     Ok(out)

@@ -173,6 +173,21 @@ pub struct PartsArgs {
     /// Electrode offset to tolerate, ± mV.
     #[arg(long, default_value_t = 300.0, value_name = "MV")]
     pub offset_mv: f64,
+    /// Input bias current of your op-amps, A (for the offset it makes in the large resistors).
+    #[arg(long, default_value_t = 1e-9, value_name = "A")]
+    pub bias_current: f64,
+    /// Also write the schematic of the whole chain (SVG).
+    #[arg(long, value_name = "FILE.svg")]
+    pub schematic: Option<PathBuf>,
+    /// Also write a SPICE netlist (VIN drives node in, the output is node out; ideal op-amps).
+    #[arg(long, value_name = "FILE.cir")]
+    pub netlist: Option<PathBuf>,
+    /// Also write the bill of materials (CSV).
+    #[arg(long, value_name = "FILE.csv")]
+    pub bom: Option<PathBuf>,
+    /// Also write the response of the chain built from these parts: freq_hz,mag_db,phase_deg.
+    #[arg(long, value_name = "FILE.csv")]
+    pub response: Option<PathBuf>,
 }
 
 /// Options of `leadline record`.

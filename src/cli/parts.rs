@@ -1,5 +1,7 @@
 //! `leadline parts`: the chain realised with standard parts, as parts.json.
 
+use std::fmt::Write as _;
+
 use anyhow::{Context, Result};
 
 use super::{BadInput, PartsArgs};
@@ -41,8 +43,10 @@ pub fn run(a: &PartsArgs) -> Result<()> {
             seed: 1,
         },
         inamp,
+        bias_current_a: a.bias_current,
     };
     let stages = realise(&a.chain.settings(), &opts).map_err(|e| BadInput(e.to_string()))?;
+    write_files(a, &stages, series)?;
     std::fs::write(&a.out, serde_json::to_string_pretty(&stages)? + "\n")
         .with_context(|| format!("cannot write {}", a.out.display()))?;
     for s in &stages {
@@ -74,6 +78,46 @@ pub fn run(a: &PartsArgs) -> Result<()> {
         });
         std::fs::write(path, serde_json::to_string_pretty(&r)? + "\n")
             .with_context(|| format!("cannot write {}", path.display()))?;
+    }
+    Ok(())
+}
+
+/// The schematic, netlist, BOM and realised response, as asked.
+fn write_files(
+    a: &PartsArgs,
+    stages: &[crate::analog::parts::Stage],
+    series: Series,
+) -> Result<()> {
+    use crate::analog::{circuit, schematic};
+    let c = circuit::build(
+        stages,
+        series,
+        circuit::Tol {
+            resistor_pct: a.r_tol,
+            capacitor_pct: a.c_tol,
+        },
+    );
+    let title = format!("leadline parts: {}", a.chain.settings().describe());
+    let write = |path: &std::path::Path, text: String| {
+        std::fs::write(path, text).with_context(|| format!("cannot write {}", path.display()))
+    };
+    if let Some(p) = &a.schematic {
+        write(p, schematic::svg(&schematic::draw(&c)))?;
+    }
+    if let Some(p) = &a.netlist {
+        write(p, circuit::netlist(&c, &title))?;
+    }
+    if let Some(p) = &a.bom {
+        write(p, circuit::bom(&c))?;
+    }
+    if let Some(p) = &a.response {
+        let mut t = String::from("freq_hz,mag_db,phase_deg\n");
+        for f in crate::dsp::response::log_frequencies(0.05, 0.45 * a.fs, 400) {
+            let h = circuit::response(&c, f);
+            let mag = 20.0 * (h.0 * h.0 + h.1 * h.1).sqrt().max(1e-300).log10();
+            let _ = writeln!(t, "{f},{mag},{}", h.1.atan2(h.0).to_degrees());
+        }
+        write(p, t)?;
     }
     Ok(())
 }

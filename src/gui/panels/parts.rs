@@ -97,6 +97,7 @@ impl PartsView {
             capacitors: caps,
             tolerances: tol,
             inamp: None,
+            bias_current_a: 1e-9,
         };
         self.stages = realise(chain, &opts).map_err(|e| e.to_string());
         self.curves.clear();

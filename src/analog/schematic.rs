@@ -1,0 +1,346 @@
+//! A schematic of the realised chain in leadline's own plain style: one cell per stage, left to
+//! right in processing order, every part with its designator and value, the input and output
+//! nodes named, and the supply assumption written out. Drawn as lines, dots and text so the same
+//! drawing goes to an SVG file and onto the Parts view.
+
+use super::circuit::{Circuit, Kind, Part, spice_value};
+
+/// A drawing primitive, in drawing units (1 unit ≈ 1 px at 100 %).
+#[derive(Debug, Clone, PartialEq)]
+pub enum Prim {
+    Line(f64, f64, f64, f64),
+    Dot(f64, f64),
+    /// Text at (x, y), anchored at its middle when `centre`.
+    Text(f64, f64, String, bool),
+}
+
+/// A whole drawing and its size.
+#[derive(Debug, Clone, PartialEq, Default)]
+pub struct Drawing {
+    pub prims: Vec<Prim>,
+    pub width: f64,
+    pub height: f64,
+}
+
+const CELL_W: f64 = 260.0;
+const CELL_H: f64 = 220.0;
+const TOP: f64 = 40.0;
+
+struct Pen<'a> {
+    d: &'a mut Drawing,
+    x0: f64,
+}
+
+impl Pen<'_> {
+    fn line(&mut self, x1: f64, y1: f64, x2: f64, y2: f64) {
+        self.d
+            .prims
+            .push(Prim::Line(self.x0 + x1, TOP + y1, self.x0 + x2, TOP + y2));
+    }
+    fn text(&mut self, x: f64, y: f64, t: impl Into<String>, centre: bool) {
+        self.d
+            .prims
+            .push(Prim::Text(self.x0 + x, TOP + y, t.into(), centre));
+    }
+    fn dot(&mut self, x: f64, y: f64) {
+        self.d.prims.push(Prim::Dot(self.x0 + x, TOP + y));
+    }
+    /// A resistor between two points (horizontal or vertical), labelled.
+    fn resistor(&mut self, a: (f64, f64), b: (f64, f64), p: &Part) {
+        self.two_terminal(a, b, p, |pen, c, horizontal| {
+            let (w, h) = if horizontal { (12.0, 5.0) } else { (5.0, 12.0) };
+            pen.line(c.0 - w, c.1 - h, c.0 + w, c.1 - h);
+            pen.line(c.0 + w, c.1 - h, c.0 + w, c.1 + h);
+            pen.line(c.0 + w, c.1 + h, c.0 - w, c.1 + h);
+            pen.line(c.0 - w, c.1 + h, c.0 - w, c.1 - h);
+            (w, h)
+        });
+    }
+    /// A capacitor between two points, labelled.
+    fn capacitor(&mut self, a: (f64, f64), b: (f64, f64), p: &Part) {
+        self.two_terminal(a, b, p, |pen, c, horizontal| {
+            if horizontal {
+                pen.line(c.0 - 3.0, c.1 - 9.0, c.0 - 3.0, c.1 + 9.0);
+                pen.line(c.0 + 3.0, c.1 - 9.0, c.0 + 3.0, c.1 + 9.0);
+                (3.0, 9.0)
+            } else {
+                pen.line(c.0 - 9.0, c.1 - 3.0, c.0 + 9.0, c.1 - 3.0);
+                pen.line(c.0 - 9.0, c.1 + 3.0, c.0 + 9.0, c.1 + 3.0);
+                (9.0, 3.0)
+            }
+        });
+    }
+    fn two_terminal(
+        &mut self,
+        a: (f64, f64),
+        b: (f64, f64),
+        p: &Part,
+        body: impl Fn(&mut Self, (f64, f64), bool) -> (f64, f64),
+    ) {
+        let horizontal = (a.1 - b.1).abs() < 1e-9;
+        let c = ((a.0 + b.0) / 2.0, (a.1 + b.1) / 2.0);
+        let (w, h) = body(self, c, horizontal);
+        if horizontal {
+            let (l, r) = if a.0 < b.0 { (a, b) } else { (b, a) };
+            self.line(l.0, l.1, c.0 - w, c.1);
+            self.line(c.0 + w, c.1, r.0, r.1);
+            self.text(c.0, c.1 - h - 14.0, p.designator.clone(), true);
+            self.text(c.0, c.1 - h - 3.0, value_text(p), true);
+        } else {
+            let (t, u) = if a.1 < b.1 { (a, b) } else { (b, a) };
+            self.line(t.0, t.1, c.0, c.1 - h);
+            self.line(c.0, c.1 + h, u.0, u.1);
+            self.text(c.0 + w + 4.0, c.1 - 2.0, p.designator.clone(), false);
+            self.text(c.0 + w + 4.0, c.1 + 10.0, value_text(p), false);
+        }
+    }
+    fn ground(&mut self, x: f64, y: f64) {
+        self.line(x - 8.0, y, x + 8.0, y);
+        self.line(x - 5.0, y + 3.0, x + 5.0, y + 3.0);
+        self.line(x - 2.0, y + 6.0, x + 2.0, y + 6.0);
+    }
+    /// A follower: + input at (x, y), output at (x + 40, y), − tied to the output.
+    fn follower(&mut self, x: f64, y: f64, p: &Part) {
+        self.line(x, y - 16.0, x, y + 16.0);
+        self.line(x, y - 16.0, x + 32.0, y);
+        self.line(x, y + 16.0, x + 32.0, y);
+        self.text(x + 4.0, y - 5.0, "+", false);
+        self.text(x + 4.0, y + 12.0, "−", false);
+        self.line(x + 32.0, y, x + 40.0, y);
+        // Feedback: output back to − below the triangle.
+        self.line(x + 36.0, y, x + 36.0, y + 24.0);
+        self.line(x + 36.0, y + 24.0, x - 6.0, y + 24.0);
+        self.line(x - 6.0, y + 24.0, x - 6.0, y + 8.0);
+        self.line(x - 6.0, y + 8.0, x, y + 8.0);
+        self.text(x + 14.0, y - 20.0, p.designator.clone(), true);
+    }
+}
+
+fn value_text(p: &Part) -> String {
+    match p.kind {
+        Kind::Resistor => format!("{}Ω", spice_value(p.value)),
+        Kind::Capacitor => format!("{}F", spice_value(p.value)),
+        _ => String::new(),
+    }
+}
+
+/// The schematic of `c`.
+pub fn draw(c: &Circuit) -> Drawing {
+    let mut d = Drawing {
+        prims: Vec::new(),
+        width: CELL_W * c.stages.len().max(1) as f64 + 60.0,
+        height: CELL_H + TOP + 40.0,
+    };
+    let y = 60.0; // the signal line
+    for (i, (topology, input, output)) in c.stages.iter().enumerate() {
+        let parts: Vec<&Part> = c.parts.iter().filter(|p| p.stage == i).collect();
+        let mut pen = Pen {
+            d: &mut d,
+            x0: 30.0 + CELL_W * i as f64,
+        };
+        let role = |r: &str, nth: usize| parts.iter().filter(|p| p.role == r).nth(nth).copied();
+        pen.text(CELL_W / 2.0, -22.0, stage_title(topology), true);
+        pen.text(0.0, y - 8.0, input.clone(), false);
+        pen.dot(0.0, y);
+        match *topology {
+            "inamp-gain" => {
+                if let (Some(u), Some(rg)) = (role("U", 0), role("Rg", 0)) {
+                    pen.line(0.0, y, 60.0, y);
+                    pen.line(60.0, y - 30.0, 60.0, y + 30.0);
+                    pen.line(60.0, y - 30.0, 130.0, y);
+                    pen.line(60.0, y + 30.0, 130.0, y);
+                    pen.text(
+                        95.0,
+                        y - 34.0,
+                        format!("{} in-amp, G = {:.1}", u.designator, u.value),
+                        true,
+                    );
+                    pen.line(130.0, y, CELL_W, y);
+                    pen.resistor((75.0, y + 60.0), (115.0, y + 60.0), rg);
+                    pen.line(75.0, y + 60.0, 75.0, y + 24.0);
+                    pen.line(115.0, y + 60.0, 115.0, y + 12.0);
+                    pen.text(60.0, y + 95.0, "gain pins", false);
+                }
+            }
+            "rc-highpass" | "rc-lowpass" => {
+                let (series, shunt) = if *topology == "rc-highpass" {
+                    (role("C", 0), role("R", 0))
+                } else {
+                    (role("R", 0), role("C", 0))
+                };
+                if let (Some(s), Some(sh), Some(u)) = (series, shunt, role("U", 0)) {
+                    place(&mut pen, (0.0, y), (100.0, y), s);
+                    pen.dot(100.0, y);
+                    place(&mut pen, (100.0, y), (100.0, y + 80.0), sh);
+                    pen.ground(100.0, y + 80.0);
+                    pen.line(100.0, y, 160.0, y);
+                    pen.follower(160.0, y, u);
+                    pen.line(200.0, y, CELL_W, y);
+                }
+            }
+            "sallen-key-highpass" | "sallen-key-lowpass" => {
+                let hp = *topology == "sallen-key-highpass";
+                let (first, second, to_out, to_gnd) = if hp {
+                    (role("C1", 0), role("C2", 0), role("R1", 0), role("R2", 0))
+                } else {
+                    (role("R1", 0), role("R2", 0), role("C1", 0), role("C2", 0))
+                };
+                if let (Some(a), Some(b), Some(fb), Some(g), Some(u)) =
+                    (first, second, to_out, to_gnd, role("U", 0))
+                {
+                    place(&mut pen, (0.0, y), (70.0, y), a);
+                    pen.dot(70.0, y);
+                    place(&mut pen, (70.0, y), (140.0, y), b);
+                    pen.dot(140.0, y);
+                    place(&mut pen, (140.0, y), (140.0, y + 90.0), g);
+                    pen.ground(140.0, y + 90.0);
+                    pen.line(140.0, y, 160.0, y);
+                    pen.follower(160.0, y, u);
+                    pen.line(200.0, y, CELL_W, y);
+                    pen.dot(215.0, y);
+                    // Feedback part from the first junction to the output, over the top.
+                    pen.line(70.0, y, 70.0, y - 45.0);
+                    place(&mut pen, (70.0, y - 45.0), (215.0, y - 45.0), fb);
+                    pen.line(215.0, y - 45.0, 215.0, y);
+                }
+            }
+            _ => {
+                // Twin-T: the R arm on top, the C arm below, the centre parts to node g, the
+                // output follower, the divider and the bootstrap follower.
+                let r = |n| role("Ra", n).or(role("Rb", n));
+                let _ = r;
+                let (ra, rb, c1, c2, c3, r3, u1, rk1, rk2, u2) = (
+                    role("Ra", 0),
+                    role("Rb", 0),
+                    role("C", 0),
+                    role("C", 1),
+                    role("2C", 0),
+                    role("R/2", 0),
+                    role("U", 0),
+                    role("Rk1", 0),
+                    role("Rk2", 0),
+                    role("U", 1),
+                );
+                if let (
+                    Some(ra),
+                    Some(rb),
+                    Some(c1),
+                    Some(c2),
+                    Some(c3),
+                    Some(r3),
+                    Some(u1),
+                    Some(rk1),
+                    Some(rk2),
+                    Some(u2),
+                ) = (ra, rb, c1, c2, c3, r3, u1, rk1, rk2, u2)
+                {
+                    pen.line(0.0, y, 10.0, y);
+                    pen.line(10.0, y - 30.0, 10.0, y + 30.0);
+                    place(&mut pen, (10.0, y - 30.0), (60.0, y - 30.0), ra);
+                    place(&mut pen, (60.0, y - 30.0), (110.0, y - 30.0), rb);
+                    pen.text(60.0, y - 72.0, "each R = Ra + Rb (×2 arms)", true);
+                    place(&mut pen, (10.0, y + 30.0), (60.0, y + 30.0), c1);
+                    place(&mut pen, (60.0, y + 30.0), (110.0, y + 30.0), c2);
+                    pen.line(110.0, y - 30.0, 110.0, y + 30.0);
+                    pen.dot(110.0, y);
+                    // Centre parts to the driven node g.
+                    pen.dot(60.0, y - 30.0);
+                    pen.dot(60.0, y + 30.0);
+                    place(&mut pen, (60.0, y + 30.0), (60.0, y + 100.0), r3);
+                    pen.text(66.0, y + 112.0, "R/2 = 2 × R ∥", false);
+                    pen.line(60.0, y - 30.0, 40.0, y - 30.0);
+                    pen.line(40.0, y - 30.0, 40.0, y - 10.0);
+                    place(&mut pen, (40.0, y - 10.0), (40.0, y + 100.0), c3);
+                    pen.text(2.0, y + 125.0, "2C = 2 × C ∥", false);
+                    pen.line(40.0, y + 100.0, 60.0, y + 100.0);
+                    pen.dot(60.0, y + 100.0);
+                    pen.text(60.0, y + 140.0, "g", true);
+                    pen.line(110.0, y, 130.0, y);
+                    pen.follower(130.0, y, u1);
+                    pen.line(170.0, y, CELL_W, y);
+                    pen.dot(200.0, y);
+                    place(&mut pen, (200.0, y), (200.0, y + 70.0), rk1);
+                    pen.dot(200.0, y + 70.0);
+                    place(&mut pen, (200.0, y + 70.0), (200.0, y + 140.0), rk2);
+                    pen.ground(200.0, y + 140.0);
+                    // Bootstrap: k·V_out through the second follower to g.
+                    pen.line(200.0, y + 70.0, 160.0, y + 70.0);
+                    pen.line(160.0, y + 70.0, 160.0, y + 115.0);
+                    pen.follower(120.0, y + 115.0, u2);
+                    pen.line(120.0, y + 115.0, 160.0, y + 115.0);
+                    pen.line(160.0, y + 115.0, 160.0, y + 115.0);
+                    pen.line(160.0, y + 100.0, 60.0, y + 100.0);
+                    pen.text(205.0, y + 160.0, "k·Vout", false);
+                }
+            }
+        }
+        pen.dot(CELL_W, y);
+        pen.text(CELL_W - 4.0, y - 8.0, output.clone(), false);
+    }
+    d.prims.push(Prim::Text(
+        30.0,
+        d.height - 12.0,
+        "Op-amps and the in-amp on a ±5 V (or single supply with a mid-rail reference) supply, decoupled with 100 nF at each package; ground = the signal reference. Ideal op-amps assumed in the values.".into(),
+        false,
+    ));
+    d
+}
+
+/// A part between two points, the right symbol for its kind.
+fn place(pen: &mut Pen<'_>, a: (f64, f64), b: (f64, f64), p: &Part) {
+    match p.kind {
+        Kind::Capacitor => pen.capacitor(a, b, p),
+        _ => pen.resistor(a, b, p),
+    }
+}
+
+fn stage_title(topology: &str) -> &'static str {
+    match topology {
+        "inamp-gain" => "In-amp gain",
+        "rc-highpass" => "RC high-pass + buffer",
+        "rc-lowpass" => "RC low-pass + buffer",
+        "sallen-key-highpass" => "Sallen–Key high-pass",
+        "sallen-key-lowpass" => "Sallen–Key low-pass",
+        _ => "Twin-T notch, bootstrapped",
+    }
+}
+
+fn esc(t: &str) -> String {
+    t.replace('&', "&amp;")
+        .replace('<', "&lt;")
+        .replace('>', "&gt;")
+}
+
+/// The drawing as an SVG document.
+pub fn svg(d: &Drawing) -> String {
+    let mut s = format!(
+        "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"{w:.0}\" height=\"{h:.0}\" viewBox=\"0 0 {w:.0} {h:.0}\" font-family=\"sans-serif\" font-size=\"11\">\n<rect width=\"100%\" height=\"100%\" fill=\"white\"/>\n<g stroke=\"#1d2b3a\" stroke-width=\"1.4\" fill=\"none\">\n",
+        w = d.width,
+        h = d.height
+    );
+    for p in &d.prims {
+        if let Prim::Line(x1, y1, x2, y2) = p {
+            s += &format!("<line x1=\"{x1:.1}\" y1=\"{y1:.1}\" x2=\"{x2:.1}\" y2=\"{y2:.1}\"/>\n");
+        }
+    }
+    s += "</g>\n<g fill=\"#1d2b3a\">\n";
+    for p in &d.prims {
+        match p {
+            Prim::Dot(x, y) => s += &format!("<circle cx=\"{x:.1}\" cy=\"{y:.1}\" r=\"2.5\"/>\n"),
+            Prim::Text(x, y, t, centre) => {
+                s += &format!(
+                    "<text x=\"{x:.1}\" y=\"{y:.1}\"{}>{}</text>\n",
+                    if *centre {
+                        " text-anchor=\"middle\""
+                    } else {
+                        ""
+                    },
+                    esc(t)
+                )
+            }
+            Prim::Line(..) => {}
+        }
+    }
+    s += "</g>\n</svg>\n";
+    s
+}
