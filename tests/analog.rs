@@ -55,6 +55,11 @@ fn stage(topology: &'static str, parts: &[(&'static str, f64)]) -> Stage {
         error_pct: 0.0,
         parts,
         spread: None,
+        notch_depth_db: None,
+        notch_centre_hz: None,
+        miss_share: None,
+        advice: None,
+        opamp: None,
     }
 }
 
@@ -135,7 +140,15 @@ fn a_monitoring_chain_realised_with_my_capacitors() {
         assert!(sp.p5_hz < sp.p95_hz);
     }
     // Twin-T for Q 30: k = 1 − 1/120.
-    assert!((stages[2].parts["k"] - (1.0 - 1.0 / 120.0)).abs() < 1e-12);
+    // k is realised by the divider Rk1 over Rk2 from the series: k = Rk2 / (Rk1 + Rk2), within
+    // 0.1 % of 1 − 1/120.
+    let p = &stages[2].parts;
+    assert!((p["k"] - p["Rk2"] / (p["Rk1"] + p["Rk2"])).abs() < 1e-12);
+    assert!(
+        (p["k"] / (1.0 - 1.0 / 120.0) - 1.0).abs() < 1e-3,
+        "k = {}",
+        p["k"]
+    );
     // The in-amp: G = 1 + 60 kΩ/Rg for G = 10 → 6.667 kΩ, nearest E24 → 6.8 kΩ (by hand).
     assert_eq!(stages[0].parts["Rg"], 6800.0);
     // The realised chain is close to the digital one in the pass band.
@@ -151,4 +164,141 @@ fn a_monitoring_chain_realised_with_my_capacitors() {
         },
     );
     assert!(env.iter().all(|(lo, hi)| lo <= hi));
+}
+
+/// Runs `leadline parts` for the default monitoring chain with all the files.
+fn parts_files(dir: &std::path::Path) -> (String, String, String, String) {
+    let f = |n: &str| dir.join(n).to_str().unwrap().to_string();
+    let o = std::process::Command::new(env!("CARGO_BIN_EXE_leadline"))
+        .args([
+            "parts",
+            "--highpass",
+            "0.5",
+            "--notch",
+            "50",
+            "--notch-q",
+            "5",
+            "--lowpass",
+            "40",
+            "--lowpass-order",
+            "3",
+            "--fs",
+            "500",
+            "--inamp-gain",
+            "10",
+            "--inamp-k",
+            "60000",
+            "--out",
+            &f("parts.json"),
+            "--schematic",
+            &f("chain.svg"),
+            "--netlist",
+            &f("chain.cir"),
+            "--bom",
+            &f("bom.csv"),
+            "--response",
+            &f("resp.csv"),
+        ])
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let read = |n: &str| std::fs::read_to_string(dir.join(n)).unwrap();
+    (
+        read("chain.svg"),
+        read("chain.cir"),
+        read("bom.csv"),
+        read("resp.csv"),
+    )
+}
+
+#[test]
+fn schematic_netlist_and_bom_name_the_same_parts() {
+    let dir = std::env::temp_dir().join(format!("ll-parts-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let (svg, cir, bom, _) = parts_files(&dir);
+    let mut lines = bom.lines();
+    assert_eq!(
+        lines.next(),
+        Some("designator,kind,value,unit,series,tolerance_pct,quantity")
+    );
+    let mut n = 0;
+    for l in lines {
+        let d = l.split(',').next().unwrap();
+        n += 1;
+        // A designator alone, or joined with others ("R4+R5", "C5∥C6") for grouped parts.
+        let in_svg = svg.split(['>', '<']).any(|text| {
+            text.split(|c: char| !c.is_ascii_alphanumeric())
+                .any(|w| w == d)
+        });
+        assert!(in_svg, "{d} not in the schematic");
+        let in_netlist = cir.lines().any(|x| {
+            let first = x.split_whitespace().next().unwrap_or("");
+            first == d || first == format!("E{d}")
+        });
+        assert!(in_netlist, "{d} not in the netlist");
+    }
+    assert!(n >= 20, "{n} parts");
+    assert!(cir.contains("VIN in 0") && cir.trim_end().ends_with(".end"));
+    assert!(svg.starts_with("<svg") && svg.contains("supply"));
+}
+
+#[test]
+fn ngspice_runs_the_netlist_and_agrees_with_the_realised_response() {
+    // ngspice, a general-purpose circuit simulator (Debian package ngspice, installed by
+    // .ci/run), runs the netlist with an AC analysis appended; its |V(out)/V(in)| must match the
+    // realised response within 0.1 dB where it is above −40 dB, and the phase within 1°.
+    let dir = std::env::temp_dir().join(format!("ll-spice-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let (_, cir, _, resp) = parts_files(&dir);
+    let ours: Vec<(f64, f64, f64)> = resp
+        .lines()
+        .skip(1)
+        .map(|l| {
+            let v: Vec<f64> = l.split(',').map(|x| x.parse().unwrap()).collect();
+            (v[0], v[1], v[2])
+        })
+        .collect();
+    let deck = cir.replace(
+        ".end",
+        ".ac dec 40 0.05 225\n.print ac vdb(out) vp(out)\n.end",
+    );
+    let deck_path = dir.join("run.cir");
+    std::fs::write(&deck_path, deck).unwrap();
+    let o = std::process::Command::new("ngspice")
+        .args(["-b", deck_path.to_str().unwrap()])
+        .output()
+        .expect("ngspice (install the Debian package ngspice; .ci/run does)");
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    // `.print` rows: index, frequency, vdb(out), vp(out) in radians.
+    let text = String::from_utf8_lossy(&o.stdout).into_owned();
+    let mut checked = 0;
+    for l in text.lines() {
+        let v: Vec<f64> = l
+            .split_whitespace()
+            .filter_map(|x| x.parse().ok())
+            .collect();
+        if v.len() != 4 || !l.trim_start().starts_with(|c: char| c.is_ascii_digit()) {
+            continue;
+        }
+        let (f, spice_db, spice_deg) = (v[1], v[2], v[3].to_degrees());
+        // Our response at the same frequency (log-interpolated between our points).
+        let Some(k) = ours.windows(2).position(|w| w[0].0 <= f && f <= w[1].0) else {
+            continue;
+        };
+        let (a, b) = (ours[k], ours[k + 1]);
+        let t = (f.ln() - a.0.ln()) / (b.0.ln() - a.0.ln());
+        let db = a.1 + t * (b.1 - a.1);
+        if db < -40.0 || (b.2 - a.2).abs() > 90.0 {
+            continue;
+        }
+        let deg = a.2 + t * (b.2 - a.2);
+        assert!(
+            (db - spice_db).abs() <= 0.1,
+            "{f} Hz: {db} dB vs ngspice {spice_db}"
+        );
+        let dp = ((deg - spice_deg + 540.0).rem_euclid(360.0)) - 180.0;
+        assert!(dp.abs() <= 1.0, "{f} Hz: {deg}° vs ngspice {spice_deg}°");
+        checked += 1;
+    }
+    assert!(checked > 100, "{checked} points compared");
 }

@@ -294,9 +294,10 @@ fn solve(mut a: Vec<Vec<C>>, mut b: Vec<C>) -> Option<Vec<C>> {
         b.swap(col, piv);
         for r in col + 1..n {
             let m = cdiv(a[r][col], a[col][col]);
-            for k in col..n {
-                let t = cmul(m, a[col][k]);
-                a[r][k] = (a[r][k].0 - t.0, a[r][k].1 - t.1);
+            let pivot_row = a[col].clone();
+            for (x, p) in a[r].iter_mut().zip(&pivot_row).skip(col) {
+                let t = cmul(m, *p);
+                *x = (x.0 - t.0, x.1 - t.1);
             }
             let t = cmul(m, b[col]);
             b[r] = (b[r].0 - t.0, b[r].1 - t.1);

@@ -70,11 +70,57 @@ impl Pen<'_> {
             }
         });
     }
+    /// A resistor symbol standing for several parts (series or parallel), with their
+    /// designators and values joined.
+    fn group(&mut self, a: (f64, f64), b: (f64, f64), parts: &[&Part], join: &str, cap: bool) {
+        let names: Vec<String> = parts.iter().map(|p| p.designator.clone()).collect();
+        let values: Vec<String> = parts.iter().map(|p| value_text(p)).collect();
+        let label = Part {
+            designator: names.join(join),
+            value: parts.first().map_or(0.0, |p| p.value),
+            ..parts[0].clone()
+        };
+        let text = values.join(join);
+        let draw = |pen: &mut Self, c: (f64, f64), horizontal: bool| -> (f64, f64) {
+            if cap {
+                if horizontal {
+                    pen.line(c.0 - 3.0, c.1 - 9.0, c.0 - 3.0, c.1 + 9.0);
+                    pen.line(c.0 + 3.0, c.1 - 9.0, c.0 + 3.0, c.1 + 9.0);
+                    (3.0, 9.0)
+                } else {
+                    pen.line(c.0 - 9.0, c.1 - 3.0, c.0 + 9.0, c.1 - 3.0);
+                    pen.line(c.0 - 9.0, c.1 + 3.0, c.0 + 9.0, c.1 + 3.0);
+                    (9.0, 3.0)
+                }
+            } else {
+                let (w, h) = if horizontal { (12.0, 5.0) } else { (5.0, 12.0) };
+                pen.line(c.0 - w, c.1 - h, c.0 + w, c.1 - h);
+                pen.line(c.0 + w, c.1 - h, c.0 + w, c.1 + h);
+                pen.line(c.0 + w, c.1 + h, c.0 - w, c.1 + h);
+                pen.line(c.0 - w, c.1 + h, c.0 - w, c.1 - h);
+                (w, h)
+            }
+        };
+        self.two_terminal_text(a, b, &label.designator, &text, draw);
+    }
+
     fn two_terminal(
         &mut self,
         a: (f64, f64),
         b: (f64, f64),
         p: &Part,
+        body: impl Fn(&mut Self, (f64, f64), bool) -> (f64, f64),
+    ) {
+        let v = value_text(p);
+        self.two_terminal_text(a, b, &p.designator, &v, body);
+    }
+
+    fn two_terminal_text(
+        &mut self,
+        a: (f64, f64),
+        b: (f64, f64),
+        name: &str,
+        value: &str,
         body: impl Fn(&mut Self, (f64, f64), bool) -> (f64, f64),
     ) {
         let horizontal = (a.1 - b.1).abs() < 1e-9;
@@ -84,14 +130,14 @@ impl Pen<'_> {
             let (l, r) = if a.0 < b.0 { (a, b) } else { (b, a) };
             self.line(l.0, l.1, c.0 - w, c.1);
             self.line(c.0 + w, c.1, r.0, r.1);
-            self.text(c.0, c.1 - h - 14.0, p.designator.clone(), true);
-            self.text(c.0, c.1 - h - 3.0, value_text(p), true);
+            self.text(c.0, c.1 - h - 14.0, name, true);
+            self.text(c.0, c.1 - h - 3.0, value, true);
         } else {
             let (t, u) = if a.1 < b.1 { (a, b) } else { (b, a) };
             self.line(t.0, t.1, c.0, c.1 - h);
             self.line(c.0, c.1 + h, u.0, u.1);
-            self.text(c.0 + w + 4.0, c.1 - 2.0, p.designator.clone(), false);
-            self.text(c.0 + w + 4.0, c.1 + 10.0, value_text(p), false);
+            self.text(c.0 + w + 4.0, c.1 - 2.0, name, false);
+            self.text(c.0 + w + 4.0, c.1 + 10.0, value, false);
         }
     }
     fn ground(&mut self, x: f64, y: f64) {
@@ -118,8 +164,8 @@ impl Pen<'_> {
 
 fn value_text(p: &Part) -> String {
     match p.kind {
-        Kind::Resistor => format!("{}Ω", spice_value(p.value)),
-        Kind::Capacitor => format!("{}F", spice_value(p.value)),
+        Kind::Resistor => format!("{}Ω", spice_value(p.value).replace("Meg", "M")),
+        Kind::Capacitor => format!("{}F", spice_value(p.value).replace('u', "µ")),
         _ => String::new(),
     }
 }
@@ -149,12 +195,8 @@ pub fn draw(c: &Circuit) -> Drawing {
                     pen.line(60.0, y - 30.0, 60.0, y + 30.0);
                     pen.line(60.0, y - 30.0, 130.0, y);
                     pen.line(60.0, y + 30.0, 130.0, y);
-                    pen.text(
-                        95.0,
-                        y - 34.0,
-                        format!("{} in-amp, G = {:.1}", u.designator, u.value),
-                        true,
-                    );
+                    pen.text(95.0, y - 46.0, u.designator.clone(), true);
+                    pen.text(95.0, y - 34.0, format!("in-amp, G = {:.2}", u.value), true);
                     pen.line(130.0, y, CELL_W, y);
                     pen.resistor((75.0, y + 60.0), (115.0, y + 60.0), rg);
                     pen.line(75.0, y + 60.0, 75.0, y + 24.0);
@@ -205,72 +247,91 @@ pub fn draw(c: &Circuit) -> Drawing {
                 }
             }
             _ => {
-                // Twin-T: the R arm on top, the C arm below, the centre parts to node g, the
-                // output follower, the divider and the bootstrap follower.
-                let r = |n| role("Ra", n).or(role("Rb", n));
-                let _ = r;
-                let (ra, rb, c1, c2, c3, r3, u1, rk1, rk2, u2) = (
-                    role("Ra", 0),
-                    role("Rb", 0),
-                    role("C", 0),
-                    role("C", 1),
-                    role("2C", 0),
-                    role("R/2", 0),
-                    role("U", 0),
-                    role("Rk1", 0),
-                    role("Rk2", 0),
-                    role("U", 1),
+                // Twin-T: the R arm on top (each R = Ra + Rb), the C arm below, the centre
+                // parts (2C = two C in parallel, R/2 = two R in parallel) to the driven node g,
+                // the output follower, the divider and the bootstrap follower.
+                let all = |r: &str| -> Vec<&Part> {
+                    parts.iter().filter(|p| p.role == r).copied().collect()
+                };
+                let (ra, rb, cs, c2s, halves, us) = (
+                    all("Ra"),
+                    all("Rb"),
+                    all("C"),
+                    all("2C"),
+                    all("R/2"),
+                    all("U"),
                 );
-                if let (
-                    Some(ra),
-                    Some(rb),
-                    Some(c1),
-                    Some(c2),
-                    Some(c3),
-                    Some(r3),
-                    Some(u1),
-                    Some(rk1),
-                    Some(rk2),
-                    Some(u2),
-                ) = (ra, rb, c1, c2, c3, r3, u1, rk1, rk2, u2)
+                if ra.len() == 2
+                    && rb.len() == 2
+                    && cs.len() == 2
+                    && c2s.len() == 2
+                    && halves.len() == 4
+                    && us.len() == 2
+                    && let (Some(rk1), Some(rk2)) = (role("Rk1", 0), role("Rk2", 0))
                 {
                     pen.line(0.0, y, 10.0, y);
                     pen.line(10.0, y - 30.0, 10.0, y + 30.0);
-                    place(&mut pen, (10.0, y - 30.0), (60.0, y - 30.0), ra);
-                    place(&mut pen, (60.0, y - 30.0), (110.0, y - 30.0), rb);
-                    pen.text(60.0, y - 72.0, "each R = Ra + Rb (×2 arms)", true);
-                    place(&mut pen, (10.0, y + 30.0), (60.0, y + 30.0), c1);
-                    place(&mut pen, (60.0, y + 30.0), (110.0, y + 30.0), c2);
+                    pen.group(
+                        (10.0, y - 30.0),
+                        (60.0, y - 30.0),
+                        &[ra[0], rb[0]],
+                        "+",
+                        false,
+                    );
+                    pen.group(
+                        (60.0, y - 30.0),
+                        (110.0, y - 30.0),
+                        &[ra[1], rb[1]],
+                        "+",
+                        false,
+                    );
+                    place(&mut pen, (10.0, y + 30.0), (60.0, y + 30.0), cs[0]);
+                    place(&mut pen, (60.0, y + 30.0), (110.0, y + 30.0), cs[1]);
                     pen.line(110.0, y - 30.0, 110.0, y + 30.0);
                     pen.dot(110.0, y);
-                    // Centre parts to the driven node g.
                     pen.dot(60.0, y - 30.0);
                     pen.dot(60.0, y + 30.0);
-                    place(&mut pen, (60.0, y + 30.0), (60.0, y + 100.0), r3);
-                    pen.text(66.0, y + 112.0, "R/2 = 2 × R ∥", false);
-                    pen.line(60.0, y - 30.0, 40.0, y - 30.0);
-                    pen.line(40.0, y - 30.0, 40.0, y - 10.0);
-                    place(&mut pen, (40.0, y - 10.0), (40.0, y + 100.0), c3);
-                    pen.text(2.0, y + 125.0, "2C = 2 × C ∥", false);
-                    pen.line(40.0, y + 100.0, 60.0, y + 100.0);
+                    pen.group(
+                        (60.0, y + 30.0),
+                        (60.0, y + 100.0),
+                        &[halves[0], halves[1], halves[2], halves[3]],
+                        "+",
+                        false,
+                    );
+                    pen.text(2.0, y + 152.0, "R/2: (1st+2nd) ∥ (3rd+4th)", false);
+                    pen.line(60.0, y - 30.0, 34.0, y - 30.0);
+                    pen.line(34.0, y - 30.0, 34.0, y - 10.0);
+                    pen.group(
+                        (34.0, y - 10.0),
+                        (34.0, y + 100.0),
+                        &[c2s[0], c2s[1]],
+                        "∥",
+                        true,
+                    );
+                    pen.line(34.0, y + 100.0, 60.0, y + 100.0);
                     pen.dot(60.0, y + 100.0);
-                    pen.text(60.0, y + 140.0, "g", true);
+                    pen.text(60.0, y + 136.0, "g", true);
                     pen.line(110.0, y, 130.0, y);
-                    pen.follower(130.0, y, u1);
+                    pen.follower(130.0, y, us[0]);
                     pen.line(170.0, y, CELL_W, y);
                     pen.dot(200.0, y);
                     place(&mut pen, (200.0, y), (200.0, y + 70.0), rk1);
                     pen.dot(200.0, y + 70.0);
                     place(&mut pen, (200.0, y + 70.0), (200.0, y + 140.0), rk2);
                     pen.ground(200.0, y + 140.0);
-                    // Bootstrap: k·V_out through the second follower to g.
-                    pen.line(200.0, y + 70.0, 160.0, y + 70.0);
-                    pen.line(160.0, y + 70.0, 160.0, y + 115.0);
-                    pen.follower(120.0, y + 115.0, u2);
-                    pen.line(120.0, y + 115.0, 160.0, y + 115.0);
-                    pen.line(160.0, y + 115.0, 160.0, y + 115.0);
-                    pen.line(160.0, y + 100.0, 60.0, y + 100.0);
-                    pen.text(205.0, y + 160.0, "k·Vout", false);
+                    // Bootstrap: k·Vout from the divider through the second follower to g.
+                    pen.line(200.0, y + 70.0, 120.0, y + 70.0);
+                    pen.line(120.0, y + 70.0, 120.0, y + 118.0);
+                    pen.line(120.0, y + 118.0, 130.0, y + 118.0);
+                    pen.follower(130.0, y + 118.0, us[1]);
+                    pen.line(170.0, y + 118.0, 170.0, y + 100.0);
+                    pen.line(170.0, y + 100.0, 60.0, y + 100.0);
+                    pen.text(
+                        206.0,
+                        y + 160.0,
+                        format!("k·Vout, k = {:.4}", rk2.value / (rk1.value + rk2.value)),
+                        false,
+                    );
                 }
             }
         }

@@ -321,18 +321,17 @@ impl Detector {
             let c = i - w;
             if let Some(&(front, peak)) = self.maxq.front()
                 && front == c
+                && peak > 0.0
             {
-                if peak > 0.0 {
-                    let cand = Candidate {
-                        index: c,
-                        peak,
-                        slope: self.max_slope(c),
-                    };
-                    if self.initialised {
-                        self.classify(cand, out);
-                    } else {
-                        self.pending.push(cand);
-                    }
+                let cand = Candidate {
+                    index: c,
+                    peak,
+                    slope: self.max_slope(c),
+                };
+                if self.initialised {
+                    self.classify(cand, out);
+                } else {
+                    self.pending.push(cand);
                 }
             }
         }

@@ -24,12 +24,17 @@ pub struct PartsView {
     key: Option<(ChainSettings, String, Series, u64, u64, u64)>,
     stages: Result<Vec<Stage>, String>,
     curves: Vec<[f64; 5]>,
+    /// Base path of the files "Save" writes (.svg, .cir, .csv are added).
+    save_base: String,
+    saved: Option<String>,
 }
 
 impl Default for PartsView {
     fn default() -> Self {
         Self {
             caps_text: "1u 220n 100n 47n 10n".into(),
+            save_base: "chain".into(),
+            saved: None,
             series: Series::E24,
             r_tol_pct: 1.0,
             c_tol_pct: 5.0,
@@ -177,7 +182,7 @@ pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: 
             egui::ScrollArea::vertical()
                 .id_salt("parts-table")
                 .auto_shrink([false, false])
-                .show(ui, |ui| {
+                .show(ui, |ui| ui.vertical(|ui| {
                     egui::Grid::new("parts-grid").striped(true).show(ui, |ui| {
                         for h in ["stage", "design", "built", "error", "Q", "5–95 %", "parts"] {
                             ui.label(egui::RichText::new(h).strong());
@@ -204,7 +209,32 @@ pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: 
                             ui.end_row();
                         }
                     });
-                });
+                    details(ui, &stages);
+                    let c = crate::analog::circuit::build(
+                        &stages,
+                        view.series,
+                        crate::analog::circuit::Tol {
+                            resistor_pct: view.r_tol_pct,
+                            capacitor_pct: view.c_tol_pct,
+                        },
+                    );
+                    ui.horizontal(|ui| {
+                        ui.add(
+                            egui::TextEdit::singleline(&mut view.save_base)
+                                .desired_width(140.0),
+                        )
+                        .on_hover_text("Base path: the schematic goes to .svg, the SPICE netlist to .cir, the parts list to -bom.csv.");
+                        if ui.button("Save schematic, netlist, BOM").clicked() {
+                            view.saved = Some(save(&view.save_base, &c, &chain.describe()));
+                        }
+                        if let Some(m) = &view.saved {
+                            ui.label(egui::RichText::new(m).small());
+                        }
+                    });
+                    egui::CollapsingHeader::new("Schematic")
+                        .default_open(true)
+                        .show(ui, |ui| draw_schematic(ui, &crate::analog::schematic::draw(&c)));
+                }));
         });
         let c = &view.curves;
         let pts = |i: usize| PlotPoints::new(c.iter().map(|r| [r[0], r[i]]).collect());
@@ -246,4 +276,92 @@ pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: 
                 );
             });
     });
+}
+
+/// Twin-T tolerance figures, advice and each stage's op-amp needs.
+fn details(ui: &mut egui::Ui, stages: &[Stage]) {
+    for s in stages {
+        if let (Some(d), Some(m)) = (s.notch_depth_db, s.miss_share) {
+            ui.label(format!(
+                "twin-T {:.0} Hz: depth at the mains {:.1} / {:.1} / {:.1} dB (p5 / p50 / p95); {:.0} % of builds miss the mains by more than half the bandwidth",
+                s.design_hz.unwrap_or(0.0),
+                d.p5,
+                d.p50,
+                d.p95,
+                100.0 * m
+            ));
+        }
+        if let Some(a) = &s.advice {
+            ui.colored_label(ui.visuals().warn_fg_color, a);
+        }
+    }
+    let needs: Vec<String> = stages
+        .iter()
+        .filter_map(|s| {
+            s.opamp.filter(|o| o.gbw_hz > 0.0).map(|o| {
+                format!(
+                    "{}: GBW ≥ {:.0} kHz, offset {:.2} mV",
+                    s.topology,
+                    o.gbw_hz / 1e3,
+                    o.offset_mv
+                )
+            })
+        })
+        .collect();
+    if !needs.is_empty() {
+        ui.label(
+            egui::RichText::new(format!(
+                "op-amps (GBW ≥ 100·Q·f0, common practice; offset at 1 nA bias): {}",
+                needs.join(" · ")
+            ))
+            .small(),
+        );
+    }
+}
+
+/// Writes BASE.svg, BASE.cir and BASE-bom.csv; returns what was done, in a line.
+fn save(base: &str, c: &crate::analog::circuit::Circuit, title: &str) -> String {
+    use crate::analog::{circuit, schematic};
+    let files = [
+        (format!("{base}.svg"), schematic::svg(&schematic::draw(c))),
+        (format!("{base}.cir"), circuit::netlist(c, title)),
+        (format!("{base}-bom.csv"), circuit::bom(c)),
+    ];
+    for (path, text) in &files {
+        if let Err(e) = std::fs::write(path, text) {
+            return format!("{path}: {e}");
+        }
+    }
+    format!("wrote {base}.svg, {base}.cir, {base}-bom.csv")
+}
+
+/// The schematic drawn with the painter, scaled to the width available.
+fn draw_schematic(ui: &mut egui::Ui, d: &crate::analog::schematic::Drawing) {
+    use crate::analog::schematic::Prim;
+    let scale = (ui.available_width() as f64 / d.width).min(1.0) as f32;
+    let size = egui::vec2(d.width as f32 * scale, d.height as f32 * scale);
+    let (rect, _) = ui.allocate_exact_size(size, egui::Sense::hover());
+    let p = ui.painter_at(rect);
+    let colour = ui.visuals().text_color();
+    let stroke = egui::Stroke::new(1.2, colour);
+    let at = |x: f64, y: f64| rect.min + egui::vec2(x as f32 * scale, y as f32 * scale);
+    let font = egui::FontId::proportional((11.0 * scale).max(7.0));
+    for prim in &d.prims {
+        match prim {
+            Prim::Line(x1, y1, x2, y2) => {
+                p.line_segment([at(*x1, *y1), at(*x2, *y2)], stroke);
+            }
+            Prim::Dot(x, y) => {
+                p.circle_filled(at(*x, *y), 2.5 * scale, colour);
+            }
+            Prim::Text(x, y, t, centre) => {
+                let anchor = if *centre {
+                    egui::Align2::CENTER_BOTTOM
+                } else {
+                    egui::Align2::LEFT_BOTTOM
+                };
+                p.text(at(*x, *y), anchor, t, font.clone(), colour);
+            }
+        }
+    }
 }
