@@ -57,6 +57,8 @@ fn stage(topology: &'static str, parts: &[(&'static str, f64)]) -> Stage {
         spread: None,
         notch_depth_db: None,
         notch_centre_hz: None,
+        mains_band_hz: None,
+        centre_in_band_share: None,
         miss_share: None,
         advice: None,
         opamp: None,

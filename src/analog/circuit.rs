@@ -480,6 +480,7 @@ pub fn notch_tolerance(stage: &mut Stage, t: &super::tolerance::Tolerances, main
     let (mut depth, mut centre) = (Vec::new(), Vec::new());
     let mut misses = 0usize;
     let mut no_notch = 0usize;
+    let mut in_band = 0usize;
     let draws = t.draws.max(1);
     for _ in 0..draws {
         let mut d = c.clone();
@@ -533,6 +534,9 @@ pub fn notch_tolerance(stage: &mut Stage, t: &super::tolerance::Tolerances, main
         if (fc - mains_hz).abs() > half_bw {
             misses += 1;
         }
+        if (fc - mains_hz).abs() <= 0.01 * mains_hz {
+            in_band += 1;
+        }
         centre.push(fc);
     }
     let pct = |v: &mut Vec<f64>| Percentiles {
@@ -556,6 +560,9 @@ pub fn notch_tolerance(stage: &mut Stage, t: &super::tolerance::Tolerances, main
     stage.notch_depth_db = Some(pct(&mut depth));
     stage.notch_centre_hz = Some(pct(&mut centre));
     stage.miss_share = Some(share);
+    // The mains band: ±1 % of nominal (EN 50160, 99.5 % of a year; REFERENCE.md §3).
+    stage.mains_band_hz = Some((0.99 * mains_hz, 1.01 * mains_hz));
+    stage.centre_in_band_share = Some(in_band as f64 / draws as f64);
     let mut advice = Vec::new();
     if no_notch > 0 {
         advice.push(format!(

@@ -83,6 +83,12 @@ pub struct Stage {
     /// Twin-T: where the notch's centre lands over the draws, Hz (p5/p50/p95).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub notch_centre_hz: Option<super::circuit::Percentiles>,
+    /// Twin-T: the mains band the centre is judged against, Hz (±1 % of nominal, EN 50160).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub mains_band_hz: Option<(f64, f64)>,
+    /// Twin-T: share of builds whose notch centre lies inside that band.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub centre_in_band_share: Option<f64>,
     /// Twin-T: share of builds whose notch misses the mains by more than half its bandwidth.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub miss_share: Option<f64>,
@@ -220,6 +226,8 @@ pub fn realise(chain: &ChainSettings, opts: &PartsOptions) -> Result<Vec<Stage>,
             spread: None,
             notch_depth_db: None,
             notch_centre_hz: None,
+            mains_band_hz: None,
+            centre_in_band_share: None,
             miss_share: None,
             advice: None,
             opamp: None,
@@ -333,6 +341,8 @@ pub fn realise(chain: &ChainSettings, opts: &PartsOptions) -> Result<Vec<Stage>,
             spread: None,
             notch_depth_db: None,
             notch_centre_hz: None,
+            mains_band_hz: None,
+            centre_in_band_share: None,
             miss_share: None,
             advice: None,
             opamp: None,

@@ -24,7 +24,7 @@ pub struct Drawing {
 
 const CELL_W: f64 = 260.0;
 const CELL_H: f64 = 220.0;
-const TOP: f64 = 40.0;
+const TOP: f64 = 110.0;
 
 struct Pen<'a> {
     d: &'a mut Drawing,
@@ -174,19 +174,21 @@ fn value_text(p: &Part) -> String {
 pub fn draw(c: &Circuit) -> Drawing {
     let mut d = Drawing {
         prims: Vec::new(),
-        width: CELL_W * c.stages.len().max(1) as f64 + 60.0,
+        width: c.stages.iter().map(|s| cell_width(s.0)).sum::<f64>() + 60.0,
         height: CELL_H + TOP + 40.0,
     };
     let y = 60.0; // the signal line
+    let mut x0 = 30.0;
     for (i, (topology, input, output)) in c.stages.iter().enumerate() {
         let parts: Vec<&Part> = c.parts.iter().filter(|p| p.stage == i).collect();
-        let mut pen = Pen {
-            d: &mut d,
-            x0: 30.0 + CELL_W * i as f64,
-        };
+        let cell = cell_width(topology);
+        let mut pen = Pen { d: &mut d, x0 };
+        x0 += cell;
         let role = |r: &str, nth: usize| parts.iter().filter(|p| p.role == r).nth(nth).copied();
-        pen.text(CELL_W / 2.0, -22.0, stage_title(topology), true);
-        pen.text(0.0, y - 8.0, input.clone(), false);
+        pen.text(cell / 2.0, -80.0, stage_title(topology), true);
+        if i == 0 {
+            pen.text(0.0, y - 8.0, input.clone(), false);
+        }
         pen.dot(0.0, y);
         match *topology {
             "inamp-gain" => {
@@ -197,7 +199,7 @@ pub fn draw(c: &Circuit) -> Drawing {
                     pen.line(60.0, y + 30.0, 130.0, y);
                     pen.text(95.0, y - 46.0, u.designator.clone(), true);
                     pen.text(95.0, y - 34.0, format!("in-amp, G = {:.2}", u.value), true);
-                    pen.line(130.0, y, CELL_W, y);
+                    pen.line(130.0, y, cell, y);
                     pen.resistor((75.0, y + 60.0), (115.0, y + 60.0), rg);
                     pen.line(75.0, y + 60.0, 75.0, y + 24.0);
                     pen.line(115.0, y + 60.0, 115.0, y + 12.0);
@@ -217,7 +219,7 @@ pub fn draw(c: &Circuit) -> Drawing {
                     pen.ground(100.0, y + 80.0);
                     pen.line(100.0, y, 160.0, y);
                     pen.follower(160.0, y, u);
-                    pen.line(200.0, y, CELL_W, y);
+                    pen.line(200.0, y, cell, y);
                 }
             }
             "sallen-key-highpass" | "sallen-key-lowpass" => {
@@ -238,7 +240,7 @@ pub fn draw(c: &Circuit) -> Drawing {
                     pen.ground(140.0, y + 90.0);
                     pen.line(140.0, y, 160.0, y);
                     pen.follower(160.0, y, u);
-                    pen.line(200.0, y, CELL_W, y);
+                    pen.line(200.0, y, cell, y);
                     pen.dot(215.0, y);
                     // Feedback part from the first junction to the output, over the top.
                     pen.line(70.0, y, 70.0, y - 45.0);
@@ -269,74 +271,81 @@ pub fn draw(c: &Circuit) -> Drawing {
                     && us.len() == 2
                     && let (Some(rk1), Some(rk2)) = (role("Rk1", 0), role("Rk2", 0))
                 {
+                    // Arms from x = 10 to 170 (centre at 90), centre parts at 90 (R/2) and 40
+                    // (2C) down to g at y + 110; follower at 200; divider at 290.
                     pen.line(0.0, y, 10.0, y);
                     pen.line(10.0, y - 30.0, 10.0, y + 30.0);
                     pen.group(
                         (10.0, y - 30.0),
-                        (60.0, y - 30.0),
+                        (90.0, y - 30.0),
                         &[ra[0], rb[0]],
                         "+",
                         false,
                     );
                     pen.group(
-                        (60.0, y - 30.0),
-                        (110.0, y - 30.0),
+                        (90.0, y - 30.0),
+                        (170.0, y - 30.0),
                         &[ra[1], rb[1]],
                         "+",
                         false,
                     );
-                    place(&mut pen, (10.0, y + 30.0), (60.0, y + 30.0), cs[0]);
-                    place(&mut pen, (60.0, y + 30.0), (110.0, y + 30.0), cs[1]);
-                    pen.line(110.0, y - 30.0, 110.0, y + 30.0);
-                    pen.dot(110.0, y);
-                    pen.dot(60.0, y - 30.0);
-                    pen.dot(60.0, y + 30.0);
+                    place(&mut pen, (10.0, y + 30.0), (90.0, y + 30.0), cs[0]);
+                    place(&mut pen, (90.0, y + 30.0), (170.0, y + 30.0), cs[1]);
+                    pen.line(170.0, y - 30.0, 170.0, y + 30.0);
+                    pen.dot(170.0, y);
+                    pen.dot(90.0, y - 30.0);
+                    pen.dot(90.0, y + 30.0);
                     pen.group(
-                        (60.0, y + 30.0),
-                        (60.0, y + 100.0),
+                        (90.0, y + 30.0),
+                        (90.0, y + 110.0),
                         &[halves[0], halves[1], halves[2], halves[3]],
                         "+",
                         false,
                     );
-                    pen.text(2.0, y + 152.0, "R/2: (1st+2nd) ∥ (3rd+4th)", false);
-                    pen.line(60.0, y - 30.0, 34.0, y - 30.0);
-                    pen.line(34.0, y - 30.0, 34.0, y - 10.0);
+                    pen.text(
+                        4.0,
+                        y + 172.0,
+                        "R/2 = (1st+2nd) ∥ (3rd+4th); the three g are one node",
+                        false,
+                    );
+                    pen.text(90.0, y + 124.0, "g", true);
+                    // 2C from node a up to g (a net label: the same node as below).
+                    pen.line(90.0, y - 30.0, 90.0, y - 70.0);
                     pen.group(
-                        (34.0, y - 10.0),
-                        (34.0, y + 100.0),
+                        (90.0, y - 70.0),
+                        (90.0, y - 100.0),
                         &[c2s[0], c2s[1]],
                         "∥",
                         true,
                     );
-                    pen.line(34.0, y + 100.0, 60.0, y + 100.0);
-                    pen.dot(60.0, y + 100.0);
-                    pen.text(60.0, y + 136.0, "g", true);
-                    pen.line(110.0, y, 130.0, y);
-                    pen.follower(130.0, y, us[0]);
-                    pen.line(170.0, y, CELL_W, y);
-                    pen.dot(200.0, y);
-                    place(&mut pen, (200.0, y), (200.0, y + 70.0), rk1);
-                    pen.dot(200.0, y + 70.0);
-                    place(&mut pen, (200.0, y + 70.0), (200.0, y + 140.0), rk2);
-                    pen.ground(200.0, y + 140.0);
+                    pen.text(90.0, y - 104.0, "g", true);
+                    pen.line(170.0, y, 200.0, y);
+                    pen.follower(200.0, y, us[0]);
+                    pen.line(240.0, y, cell, y);
+                    pen.dot(290.0, y);
+                    place(&mut pen, (290.0, y), (290.0, y + 70.0), rk1);
+                    pen.dot(290.0, y + 70.0);
+                    place(&mut pen, (290.0, y + 70.0), (290.0, y + 140.0), rk2);
+                    pen.ground(290.0, y + 140.0);
                     // Bootstrap: k·Vout from the divider through the second follower to g.
-                    pen.line(200.0, y + 70.0, 120.0, y + 70.0);
-                    pen.line(120.0, y + 70.0, 120.0, y + 118.0);
-                    pen.line(120.0, y + 118.0, 130.0, y + 118.0);
-                    pen.follower(130.0, y + 118.0, us[1]);
-                    pen.line(170.0, y + 118.0, 170.0, y + 100.0);
-                    pen.line(170.0, y + 100.0, 60.0, y + 100.0);
+                    pen.line(290.0, y + 70.0, 190.0, y + 70.0);
+                    pen.line(190.0, y + 70.0, 190.0, y + 110.0);
+                    pen.line(190.0, y + 110.0, 200.0, y + 110.0);
+                    pen.follower(200.0, y + 110.0, us[1]);
+                    pen.line(240.0, y + 110.0, 252.0, y + 110.0);
+                    pen.dot(252.0, y + 110.0);
+                    pen.text(256.0, y + 114.0, "g", false);
                     pen.text(
-                        206.0,
-                        y + 160.0,
+                        300.0,
+                        y + 150.0,
                         format!("k·Vout, k = {:.4}", rk2.value / (rk1.value + rk2.value)),
                         false,
                     );
                 }
             }
         }
-        pen.dot(CELL_W, y);
-        pen.text(CELL_W - 4.0, y - 8.0, output.clone(), false);
+        pen.dot(cell, y);
+        pen.text(cell - 4.0, y - 8.0, output.clone(), false);
     }
     d.prims.push(Prim::Text(
         30.0,
@@ -345,6 +354,14 @@ pub fn draw(c: &Circuit) -> Drawing {
         false,
     ));
     d
+}
+
+/// Width of a stage's cell.
+fn cell_width(topology: &str) -> f64 {
+    match topology {
+        "twin-t" => 400.0,
+        _ => CELL_W,
+    }
 }
 
 /// A part between two points, the right symbol for its kind.

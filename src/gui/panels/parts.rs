@@ -291,6 +291,14 @@ fn details(ui: &mut egui::Ui, stages: &[Stage]) {
                 100.0 * m
             ));
         }
+        if let (Some(c), Some(band), Some(share)) =
+            (s.notch_centre_hz, s.mains_band_hz, s.centre_in_band_share)
+        {
+            ui.label(format!(
+                "notch centre {:.2} / {:.2} / {:.2} Hz against the mains band {:.1}–{:.1} Hz (±1 %, EN 50160): {:.0} % of builds inside it",
+                c.p5, c.p50, c.p95, band.0, band.1, 100.0 * share
+            ));
+        }
         if let Some(a) = &s.advice {
             ui.colored_label(ui.visuals().warn_fg_color, a);
         }
