@@ -511,26 +511,8 @@ pub fn notch_tolerance(stage: &mut Stage, t: &super::tolerance::Tolerances, main
             no_notch += 1;
             continue;
         }
-        let g = (5f64.sqrt() - 1.0) / 2.0;
-        let (mut lo, mut hi) = (best * 0.9975, best * 1.0025);
-        let (mut x1, mut x2) = (hi - g * (hi - lo), lo + g * (hi - lo));
-        let (mut f1, mut f2) = (mag(x1), mag(x2));
-        for _ in 0..30 {
-            if f1 < f2 {
-                hi = x2;
-                x2 = x1;
-                f2 = f1;
-                x1 = hi - g * (hi - lo);
-                f1 = mag(x1);
-            } else {
-                lo = x1;
-                x1 = x2;
-                f1 = f2;
-                x2 = lo + g * (hi - lo);
-                f2 = mag(x2);
-            }
-        }
-        let fc = 0.5 * (lo + hi);
+        let fc = crate::analysis::mains::golden_max(best * 0.9975, best * 1.0025, |f| -mag(f));
+
         if (fc - mains_hz).abs() > half_bw {
             misses += 1;
         }

@@ -47,61 +47,19 @@ impl Pen<'_> {
     }
     /// A resistor between two points (horizontal or vertical), labelled.
     fn resistor(&mut self, a: (f64, f64), b: (f64, f64), p: &Part) {
-        self.two_terminal(a, b, p, |pen, c, horizontal| {
-            let (w, h) = if horizontal { (12.0, 5.0) } else { (5.0, 12.0) };
-            pen.line(c.0 - w, c.1 - h, c.0 + w, c.1 - h);
-            pen.line(c.0 + w, c.1 - h, c.0 + w, c.1 + h);
-            pen.line(c.0 + w, c.1 + h, c.0 - w, c.1 + h);
-            pen.line(c.0 - w, c.1 + h, c.0 - w, c.1 - h);
-            (w, h)
-        });
+        self.two_terminal(a, b, p, resistor_body);
     }
     /// A capacitor between two points, labelled.
     fn capacitor(&mut self, a: (f64, f64), b: (f64, f64), p: &Part) {
-        self.two_terminal(a, b, p, |pen, c, horizontal| {
-            if horizontal {
-                pen.line(c.0 - 3.0, c.1 - 9.0, c.0 - 3.0, c.1 + 9.0);
-                pen.line(c.0 + 3.0, c.1 - 9.0, c.0 + 3.0, c.1 + 9.0);
-                (3.0, 9.0)
-            } else {
-                pen.line(c.0 - 9.0, c.1 - 3.0, c.0 + 9.0, c.1 - 3.0);
-                pen.line(c.0 - 9.0, c.1 + 3.0, c.0 + 9.0, c.1 + 3.0);
-                (9.0, 3.0)
-            }
-        });
+        self.two_terminal(a, b, p, capacitor_body);
     }
-    /// A resistor symbol standing for several parts (series or parallel), with their
-    /// designators and values joined.
+    /// One symbol standing for several parts (series or parallel), with their designators and
+    /// values joined.
     fn group(&mut self, a: (f64, f64), b: (f64, f64), parts: &[&Part], join: &str, cap: bool) {
         let names: Vec<String> = parts.iter().map(|p| p.designator.clone()).collect();
         let values: Vec<String> = parts.iter().map(|p| value_text(p)).collect();
-        let label = Part {
-            designator: names.join(join),
-            value: parts.first().map_or(0.0, |p| p.value),
-            ..parts[0].clone()
-        };
-        let text = values.join(join);
-        let draw = |pen: &mut Self, c: (f64, f64), horizontal: bool| -> (f64, f64) {
-            if cap {
-                if horizontal {
-                    pen.line(c.0 - 3.0, c.1 - 9.0, c.0 - 3.0, c.1 + 9.0);
-                    pen.line(c.0 + 3.0, c.1 - 9.0, c.0 + 3.0, c.1 + 9.0);
-                    (3.0, 9.0)
-                } else {
-                    pen.line(c.0 - 9.0, c.1 - 3.0, c.0 + 9.0, c.1 - 3.0);
-                    pen.line(c.0 - 9.0, c.1 + 3.0, c.0 + 9.0, c.1 + 3.0);
-                    (9.0, 3.0)
-                }
-            } else {
-                let (w, h) = if horizontal { (12.0, 5.0) } else { (5.0, 12.0) };
-                pen.line(c.0 - w, c.1 - h, c.0 + w, c.1 - h);
-                pen.line(c.0 + w, c.1 - h, c.0 + w, c.1 + h);
-                pen.line(c.0 + w, c.1 + h, c.0 - w, c.1 + h);
-                pen.line(c.0 - w, c.1 + h, c.0 - w, c.1 - h);
-                (w, h)
-            }
-        };
-        self.two_terminal_text(a, b, &label.designator, &text, draw);
+        let body = if cap { capacitor_body } else { resistor_body };
+        self.two_terminal_text(a, b, &names.join(join), &values.join(join), body);
     }
 
     fn two_terminal(
@@ -109,7 +67,7 @@ impl Pen<'_> {
         a: (f64, f64),
         b: (f64, f64),
         p: &Part,
-        body: impl Fn(&mut Self, (f64, f64), bool) -> (f64, f64),
+        body: Body,
     ) {
         let v = value_text(p);
         self.two_terminal_text(a, b, &p.designator, &v, body);
@@ -121,7 +79,7 @@ impl Pen<'_> {
         b: (f64, f64),
         name: &str,
         value: &str,
-        body: impl Fn(&mut Self, (f64, f64), bool) -> (f64, f64),
+        body: Body,
     ) {
         let horizontal = (a.1 - b.1).abs() < 1e-9;
         let c = ((a.0 + b.0) / 2.0, (a.1 + b.1) / 2.0);
@@ -361,6 +319,32 @@ fn cell_width(topology: &str) -> f64 {
     match topology {
         "twin-t" => 400.0,
         _ => CELL_W,
+    }
+}
+
+/// Draws a symbol's body centred at a point (horizontal or not); returns its half extents.
+type Body = fn(&mut Pen<'_>, (f64, f64), bool) -> (f64, f64);
+
+/// A resistor's box centred at `c`; returns its half width and height.
+fn resistor_body(pen: &mut Pen<'_>, c: (f64, f64), horizontal: bool) -> (f64, f64) {
+    let (w, h) = if horizontal { (12.0, 5.0) } else { (5.0, 12.0) };
+    pen.line(c.0 - w, c.1 - h, c.0 + w, c.1 - h);
+    pen.line(c.0 + w, c.1 - h, c.0 + w, c.1 + h);
+    pen.line(c.0 + w, c.1 + h, c.0 - w, c.1 + h);
+    pen.line(c.0 - w, c.1 + h, c.0 - w, c.1 - h);
+    (w, h)
+}
+
+/// A capacitor's plates centred at `c`; returns its half width and height.
+fn capacitor_body(pen: &mut Pen<'_>, c: (f64, f64), horizontal: bool) -> (f64, f64) {
+    if horizontal {
+        pen.line(c.0 - 3.0, c.1 - 9.0, c.0 - 3.0, c.1 + 9.0);
+        pen.line(c.0 + 3.0, c.1 - 9.0, c.0 + 3.0, c.1 + 9.0);
+        (3.0, 9.0)
+    } else {
+        pen.line(c.0 - 9.0, c.1 - 3.0, c.0 + 9.0, c.1 - 3.0);
+        pen.line(c.0 - 9.0, c.1 + 3.0, c.0 + 9.0, c.1 + 3.0);
+        (9.0, 3.0)
     }
 }
 

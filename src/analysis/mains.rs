@@ -135,7 +135,9 @@ fn dft_mag(xw: &[f64], f: f64, fs: f64) -> f64 {
     (re * re + im * im).sqrt()
 }
 
-fn golden_max(lo: f64, hi: f64, f: impl Fn(f64) -> f64) -> f64 {
+/// The maximum of a unimodal `f` on [lo, hi] by golden-section search (to about 1e-9 of the
+/// interval).
+pub fn golden_max(lo: f64, hi: f64, f: impl Fn(f64) -> f64) -> f64 {
     let g = (5f64.sqrt() - 1.0) / 2.0;
     let (mut a, mut b) = (lo, hi);
     let mut c = b - g * (b - a);

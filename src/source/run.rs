@@ -23,6 +23,17 @@ pub enum SourceSpec {
     Tcp(super::net::TcpSpec),
 }
 
+/// A trailing `:ascii` or `:binary` names the wire format (else it is detected).
+fn strip_format(rest: &str) -> (&str, Option<crate::wire::Format>) {
+    if let Some(r) = rest.strip_suffix(":ascii") {
+        (r, Some(crate::wire::Format::Text))
+    } else if let Some(r) = rest.strip_suffix(":binary") {
+        (r, Some(crate::wire::Format::Binary))
+    } else {
+        (rest, None)
+    }
+}
+
 /// A source text that cannot be understood.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
 #[error(
@@ -108,13 +119,7 @@ impl SourceSpec {
             }));
         }
         if let Some(rest) = text.strip_prefix("tcp:") {
-            let (rest, format) = if let Some(r) = rest.strip_suffix(":ascii") {
-                (r, Some(crate::wire::Format::Text))
-            } else if let Some(r) = rest.strip_suffix(":binary") {
-                (r, Some(crate::wire::Format::Binary))
-            } else {
-                (rest, None)
-            };
+            let (rest, format) = strip_format(rest);
             let Some((host, port)) = rest.rsplit_once(':') else {
                 return Err(err("expected tcp:HOST:PORT"));
             };
@@ -136,13 +141,7 @@ impl SourceSpec {
         let Some(rest) = text.strip_prefix("serial:") else {
             return Err(err("unknown source kind"));
         };
-        let (rest, format) = if let Some(r) = rest.strip_suffix(":ascii") {
-            (r, Some(crate::wire::Format::Text))
-        } else if let Some(r) = rest.strip_suffix(":binary") {
-            (r, Some(crate::wire::Format::Binary))
-        } else {
-            (rest, None)
-        };
+        let (rest, format) = strip_format(rest);
         let (path, baud) = match rest.rsplit_once('@') {
             Some((p, b)) => (
                 p,
