@@ -36,6 +36,7 @@ pub mod conform;
 pub mod dsp;
 pub mod export;
 pub mod gui;
+pub mod measure;
 pub mod msg;
 pub mod pipeline;
 pub mod process;

@@ -27,6 +27,7 @@ fn main() -> ExitCode {
         Some(Command::Bench(a)) => leadline::cli::bench::run(&a),
         Some(Command::ExportC(a)) => leadline::cli::export_c::run(&a),
         Some(Command::Conform(a)) => leadline::cli::conform::run(&a),
+        Some(Command::Measure(a)) => leadline::cli::measure::run(&a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -62,13 +62,7 @@ impl Pen<'_> {
         self.two_terminal_text(a, b, &names.join(join), &values.join(join), body);
     }
 
-    fn two_terminal(
-        &mut self,
-        a: (f64, f64),
-        b: (f64, f64),
-        p: &Part,
-        body: Body,
-    ) {
+    fn two_terminal(&mut self, a: (f64, f64), b: (f64, f64), p: &Part, body: Body) {
         let v = value_text(p);
         self.two_terminal_text(a, b, &p.designator, &v, body);
     }

@@ -5,6 +5,7 @@ pub mod bench;
 pub mod conform;
 pub mod export_c;
 pub mod filter;
+pub mod measure;
 pub mod parts;
 pub mod record;
 pub mod response;
@@ -67,9 +68,119 @@ pub enum Command {
     /// Check the chain against the ECG standards' impulse test, 0.67 Hz gain, upper corner and
     /// ST shift; writes a JSON report with pass/fail and advice.
     Conform(ConformArgs),
+    /// Measure a built front end from a recording: response, stepped sine, noise or CMRR.
+    #[command(after_help = CAUTION_HELP)]
+    Measure(MeasureArgs),
     /// Write the chain as a self-contained C99 header (float32, Q15 or Q31) for firmware.
     #[command(name = "export-c")]
     ExportC(ExportCArgs),
+}
+
+/// Options of `leadline measure`.
+#[derive(Debug, Clone, Args)]
+pub struct MeasureArgs {
+    #[command(subcommand)]
+    pub what: MeasureWhat,
+}
+
+/// What `leadline measure` measures.
+#[derive(Debug, Clone, Subcommand)]
+pub enum MeasureWhat {
+    /// Transfer function from a stimulus channel to an output channel (H1, coherence).
+    Response(MeasureResponseArgs),
+    /// A stepped sine on one channel: gain per steady step.
+    Steps(MeasureStepsArgs),
+    /// Input-referred noise with the inputs shorted: RMS, peak-to-peak, density, 1/f corner.
+    Noise(MeasureNoiseArgs),
+    /// Common-mode rejection from a common-mode sine of known amplitude.
+    Cmrr(MeasureCmrrArgs),
+}
+
+/// Options of `measure response`.
+#[derive(Debug, Clone, Args)]
+pub struct MeasureResponseArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// The stimulus channel (generator or DAC), index or name.
+    #[arg(long, value_name = "K|NAME")]
+    pub stimulus: String,
+    /// The front end's output channel, index or name.
+    #[arg(long, value_name = "K|NAME")]
+    pub output: String,
+    /// Welch segment length (power of two, 256–16384); default about 8 s.
+    #[arg(long, value_name = "N")]
+    pub segment: Option<usize>,
+    /// CSV: freq_hz,mag_db,phase_deg,coherence.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// JSON: corners_hz, passband_gain_db, coherent_range_hz.
+    #[arg(long, value_name = "FILE")]
+    pub report: Option<PathBuf>,
+    /// PNG of the measured response over the design (the chain flags).
+    #[arg(long, value_name = "FILE")]
+    pub png: Option<PathBuf>,
+    /// The design to draw under the measurement.
+    #[command(flatten)]
+    pub chain: ChainArgs,
+}
+
+/// Options of `measure steps`.
+#[derive(Debug, Clone, Args)]
+pub struct MeasureStepsArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// The generator's amplitude at the electrodes, µV peak.
+    #[arg(long, value_name = "UV")]
+    pub amplitude_uv: f64,
+    /// Channel, index or name.
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// CSV: freq_hz,gain_db,amplitude_uv,start_s,end_s.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// PNG of the gains over the design (the chain flags).
+    #[arg(long, value_name = "FILE")]
+    pub png: Option<PathBuf>,
+    #[command(flatten)]
+    pub chain: ChainArgs,
+}
+
+/// Options of `measure noise`.
+#[derive(Debug, Clone, Args)]
+pub struct MeasureNoiseArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// Band, Hz (zero-phase band-pass).
+    #[arg(long, value_name = "LO,HI", value_delimiter = ',', default_values_t = [0.05, 150.0])]
+    pub band: Vec<f64>,
+    /// Channel, index or name.
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// Limit, µV peak-to-peak (default 30: recalled from memory of the ECG standards).
+    #[arg(long, default_value_t = 30.0, value_name = "UV")]
+    pub limit_uv: f64,
+    /// JSON: rms_uv, p2p_uv, density_uv_per_rthz, corner_hz, pass.
+    #[arg(long, value_name = "FILE")]
+    pub report: PathBuf,
+}
+
+/// Options of `measure cmrr`.
+#[derive(Debug, Clone, Args)]
+pub struct MeasureCmrrArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// The common-mode amplitude applied, µV RMS (1 V RMS = 1000000).
+    #[arg(long, value_name = "UV")]
+    pub cm_uv: f64,
+    /// Its frequency, Hz (default: the mains, 50).
+    #[arg(long, default_value_t = 50.0, value_name = "HZ")]
+    pub cm_hz: f64,
+    /// Channel, index or name.
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// JSON: cmrr_db, diff_uv, uncertainty_db.
+    #[arg(long, value_name = "FILE")]
+    pub report: PathBuf,
 }
 
 /// Options of `leadline conform`.

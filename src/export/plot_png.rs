@@ -283,3 +283,98 @@ pub fn columns_of(x: &[f64], fs: f64, n: usize) -> Columns {
     }
     c
 }
+
+/// A measured response (frequency, dB, trusted) as points over the design's gain (a line),
+/// for a lab report. Untrusted points (low coherence) are drawn grey.
+///
+/// # Errors
+/// The file cannot be written.
+pub fn response_png(
+    path: &Path,
+    measured: &[(f64, f64, bool)],
+    design: Option<&[crate::dsp::Section]>,
+    fs: f64,
+    title: &str,
+) -> Result<(), PlotError> {
+    register_font();
+    let (w, h) = (1200u32, 700u32);
+    let mut buf = vec![0u8; (w * h * 3) as usize];
+    {
+        let root = BitMapBackend::with_buffer(&mut buf, (w, h)).into_drawing_area();
+        root.fill(&WHITE).map_err(draw_err)?;
+        let f_lo = measured.first().map_or(0.1, |p| p.0).max(1e-3);
+        let f_hi = measured.last().map_or(0.45 * fs, |p| p.0).max(f_lo * 10.0);
+        let trusted: Vec<f64> = measured.iter().filter(|p| p.2).map(|p| p.1).collect();
+        let y_hi = trusted
+            .iter()
+            .copied()
+            .fold(f64::MIN, f64::max)
+            .max(0.0)
+            .ceil()
+            + 6.0;
+        let y_lo = y_hi - 66.0;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, (FONT, 22))
+            .margin(16)
+            .x_label_area_size(50)
+            .y_label_area_size(70)
+            .build_cartesian_2d((f_lo..f_hi).log_scale(), y_lo..y_hi)
+            .map_err(draw_err)?;
+        chart
+            .configure_mesh()
+            .x_desc("frequency (Hz)")
+            .y_desc("gain (dB)")
+            .label_style((FONT, 16))
+            .axis_desc_style((FONT, 18))
+            .draw()
+            .map_err(draw_err)?;
+        if let Some(secs) = design {
+            let n = 400;
+            let line: Vec<(f64, f64)> = (0..=n)
+                .map(|i| {
+                    let f = f_lo * (f_hi / f_lo).powf(i as f64 / n as f64);
+                    let g = 20.0
+                        * crate::dsp::response::magnitude(secs, f, fs)
+                            .max(1e-12)
+                            .log10();
+                    (f, g.max(y_lo))
+                })
+                .collect();
+            chart
+                .draw_series(LineSeries::new(line, &RGBColor(150, 150, 150)))
+                .map_err(draw_err)?
+                .label("design")
+                .legend(|(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 20, y)], RGBColor(150, 150, 150))
+                });
+        }
+        chart
+            .draw_series(
+                measured
+                    .iter()
+                    .filter(|p| p.2)
+                    .map(|p| Circle::new((p.0, p.1.max(y_lo)), 2, RGBColor(0, 110, 160).filled())),
+            )
+            .map_err(draw_err)?
+            .label("measured")
+            .legend(|(x, y)| Circle::new((x + 10, y), 3, RGBColor(0, 110, 160).filled()));
+        chart
+            .draw_series(measured.iter().filter(|p| !p.2).map(|p| {
+                Circle::new(
+                    (p.0, p.1.clamp(y_lo, y_hi)),
+                    2,
+                    RGBColor(200, 200, 200).filled(),
+                )
+            }))
+            .map_err(draw_err)?;
+        chart
+            .configure_series_labels()
+            .background_style(WHITE.mix(0.8))
+            .border_style(BLACK)
+            .label_font((FONT, 16))
+            .draw()
+            .map_err(draw_err)?;
+        root.present().map_err(draw_err)?;
+    }
+    write_rgb_png(path, &buf, w, h)
+}
