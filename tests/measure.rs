@@ -234,3 +234,124 @@ fn bad_input_gives_a_reason_not_a_number() {
         MeasureError::Clipped(_)
     ));
 }
+
+#[test]
+fn the_measure_commands_write_what_they_promise() {
+    let dir = std::env::temp_dir().join(format!("ll-measure-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let fs = 1000.0;
+    // A two-channel recording: white noise into the front end (stimulus, output), in µV.
+    let x: Vec<f64> = lcg_noise(60_000).iter().map(|v| 1000.0 * v).collect();
+    let y = through(front_end(), &x, fs);
+    let mut csv = String::from("time_s,stim,out\n");
+    for (i, (a, b)) in x.iter().zip(&y).enumerate() {
+        csv.push_str(&format!("{:.3},{a:.6},{b:.6}\n", i as f64 / fs));
+    }
+    let input = dir.join("bench.csv");
+    std::fs::write(&input, csv).unwrap();
+    let run = |args: &[&str]| {
+        std::process::Command::new(env!("CARGO_BIN_EXE_leadline"))
+            .args(args)
+            .output()
+            .unwrap()
+    };
+    let p = |n: &str| dir.join(n).to_str().unwrap().to_string();
+    let o = run(&[
+        "measure",
+        "response",
+        "--input",
+        &p("bench.csv"),
+        "--units",
+        "uV",
+        "--stimulus",
+        "stim",
+        "--output",
+        "out",
+        "--out",
+        &p("tf.csv"),
+        "--report",
+        &p("tf.json"),
+        "--png",
+        &p("tf.png"),
+        "--highpass",
+        "1",
+        "--lowpass",
+        "40",
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let tf = std::fs::read_to_string(dir.join("tf.csv")).unwrap();
+    assert_eq!(
+        tf.lines().next(),
+        Some("freq_hz,mag_db,phase_deg,coherence")
+    );
+    let r: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("tf.json")).unwrap()).unwrap();
+    assert_eq!(r["corners_hz"].as_array().unwrap().len(), 2);
+    assert!((r["passband_gain_db"].as_f64().unwrap() - 40.0).abs() < 0.1);
+    assert!(std::fs::metadata(dir.join("tf.png")).unwrap().len() > 10_000);
+    // The stimulus channel as output too: flat? No: a flat stimulus is refused in one line.
+    let flat = dir.join("flat.csv");
+    std::fs::write(
+        &flat,
+        (0..20_000).fold(String::from("time_s,stim,out\n"), |s, i| {
+            s + &format!("{:.3},0,{}\n", i as f64 / fs, (i % 7) as f64)
+        }),
+    )
+    .unwrap();
+    let o = run(&[
+        "measure",
+        "response",
+        "--input",
+        flat.to_str().unwrap(),
+        "--stimulus",
+        "0",
+        "--output",
+        "1",
+        "--segment",
+        "4096",
+        "--out",
+        &p("x.csv"),
+    ]);
+    assert_eq!(o.status.code(), Some(2));
+    let e = String::from_utf8_lossy(&o.stderr);
+    assert!(e.contains("flat") && e.lines().count() == 1, "{e}");
+    // Noise and CMRR reports carry their keys.
+    let o = run(&[
+        "measure",
+        "noise",
+        "--input",
+        &p("bench.csv"),
+        "--units",
+        "uV",
+        "--channel",
+        "stim",
+        "--report",
+        &p("noise.json"),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let n: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("noise.json")).unwrap()).unwrap();
+    for k in ["rms_uv", "p2p_uv", "density_uv_per_rthz", "corner_hz"] {
+        assert!(n.get(k).is_some(), "{k}");
+    }
+    let o = run(&[
+        "measure",
+        "cmrr",
+        "--input",
+        &p("bench.csv"),
+        "--units",
+        "uV",
+        "--channel",
+        "out",
+        "--cm-uv",
+        "1000000",
+        "--report",
+        &p("cmrr.json"),
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let c: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("cmrr.json")).unwrap()).unwrap();
+    for k in ["cmrr_db", "diff_uv", "uncertainty_db"] {
+        assert!(c[k].is_number(), "{k}");
+    }
+}

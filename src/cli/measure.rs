@@ -24,6 +24,14 @@ fn design_db(chain: &super::ChainArgs, fs: f64) -> Option<Vec<crate::dsp::Sectio
         .flatten()
 }
 
+/// The design's highest gain, dB (over a log grid from 0.01 Hz to 0.45·fs).
+fn design_peak_db(d: &[crate::dsp::Section], fs: f64) -> f64 {
+    crate::dsp::response::log_frequencies(0.01, 0.45 * fs, 400)
+        .into_iter()
+        .map(|f| 20.0 * crate::dsp::response::magnitude(d, f, fs).max(1e-12).log10())
+        .fold(f64::MIN, f64::max)
+}
+
 /// Runs the command.
 ///
 /// # Errors
@@ -73,10 +81,14 @@ pub fn run(a: &MeasureArgs) -> Result<()> {
                     .iter()
                     .map(|p| (p.freq_hz, p.mag_db, p.coherence >= transfer::MIN_COHERENCE))
                     .collect();
+                let design = design_db(&r.chain, rec.fs_hz);
+                let offset = design
+                    .as_deref()
+                    .map_or(0.0, |d| t.passband_gain_db - design_peak_db(d, rec.fs_hz));
                 crate::export::plot_png::response_png(
                     png,
                     &measured,
-                    design_db(&r.chain, rec.fs_hz).as_deref(),
+                    design.as_deref().map(|d| (d, offset)),
                     rec.fs_hz,
                     &format!(
                         "{}: measured response (H1, Welch {n})",
@@ -105,10 +117,12 @@ pub fn run(a: &MeasureArgs) -> Result<()> {
             }
             write(&r.out, csv)?;
             if let Some(png) = &r.png {
+                let design = design_db(&r.chain, rec.fs_hz);
+                // A stepped sine's gains are absolute: the design is drawn as it is.
                 crate::export::plot_png::response_png(
                     png,
                     &pts,
-                    design_db(&r.chain, rec.fs_hz).as_deref(),
+                    design.as_deref().map(|d| (d, 0.0)),
                     rec.fs_hz,
                     &format!(
                         "{}: stepped sine, {} steps",

@@ -284,15 +284,16 @@ pub fn columns_of(x: &[f64], fs: f64, n: usize) -> Columns {
     c
 }
 
-/// A measured response (frequency, dB, trusted) as points over the design's gain (a line),
-/// for a lab report. Untrusted points (low coherence) are drawn grey.
+/// A measured response (frequency, dB, trusted) as points over the design's gain (a line,
+/// shifted by the given dB to the measured pass band), for a lab report. Untrusted points (low
+/// coherence) are drawn grey.
 ///
 /// # Errors
 /// The file cannot be written.
 pub fn response_png(
     path: &Path,
     measured: &[(f64, f64, bool)],
-    design: Option<&[crate::dsp::Section]>,
+    design: Option<(&[crate::dsp::Section], f64)>,
     fs: f64,
     title: &str,
 ) -> Result<(), PlotError> {
@@ -328,7 +329,7 @@ pub fn response_png(
             .axis_desc_style((FONT, 18))
             .draw()
             .map_err(draw_err)?;
-        if let Some(secs) = design {
+        if let Some((secs, offset_db)) = design {
             let n = 400;
             let line: Vec<(f64, f64)> = (0..=n)
                 .map(|i| {
@@ -337,13 +338,15 @@ pub fn response_png(
                         * crate::dsp::response::magnitude(secs, f, fs)
                             .max(1e-12)
                             .log10();
-                    (f, g.max(y_lo))
+                    (f, (g + offset_db).max(y_lo))
                 })
                 .collect();
             chart
                 .draw_series(LineSeries::new(line, &RGBColor(150, 150, 150)))
                 .map_err(draw_err)?
-                .label("design")
+                .label(format!(
+                    "design, shifted to the measured pass band ({offset_db:+.1} dB)"
+                ))
                 .legend(|(x, y)| {
                     PathElement::new(vec![(x, y), (x + 20, y)], RGBColor(150, 150, 150))
                 });
