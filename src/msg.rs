@@ -175,6 +175,8 @@ pub struct Snapshot {
     pub scale: Option<InputScale>,
     /// The scaling looks wrong: "check the front-end scaling: …" with the figure.
     pub scale_check: Option<String>,
+    /// The last measurement asked for (the Measure view), kept until the next one.
+    pub measured: Option<Arc<crate::measure::Measured>>,
     /// Counters.
     pub stats: Stats,
     /// The source has ended (a finite run or a file).
@@ -212,4 +214,6 @@ pub enum Control {
     /// The front end per channel (one entry: every channel), applied from the next block without
     /// reconnecting; None goes back to the source's own scaling.
     FrontEnd(Option<Vec<FrontEnd>>),
+    /// Measure the built front end on the newest samples (up to 30 s) of the raw traces.
+    Measure(crate::measure::Request),
 }

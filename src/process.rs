@@ -379,6 +379,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
     let mut follow = 0usize;
     let mut invert = false;
     let mut rails: Vec<bool> = Vec::new();
+    let mut measured: Option<Arc<crate::measure::Measured>> = None;
 
     loop {
         if stop.load(Ordering::Relaxed) {
@@ -420,6 +421,27 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     spectrum.frame = None;
                 }
                 Control::FrontEnd(f) => front_end = f,
+                Control::Measure(req) => {
+                    if let Some(r) = state.as_ref() {
+                        // The raw traces' rings hold the newest 30 s of every channel.
+                        let want = (MAX_WINDOW_S * r.fs) as usize;
+                        let channels: Vec<Vec<f64>> = r
+                            .raw
+                            .iter()
+                            .map(|t| {
+                                let mut v = Vec::new();
+                                t.tail_into(want, &mut v);
+                                v
+                            })
+                            .collect();
+                        let seconds = channels.first().map_or(0.0, |c| c.len() as f64 / r.fs);
+                        measured = Some(Arc::new(crate::measure::Measured {
+                            seconds,
+                            result: crate::measure::run(&req, &channels, r.fs)
+                                .map_err(|e| e.to_string()),
+                        }));
+                    }
+                }
                 // Simulator settings go straight to the source thread.
                 Control::Synth(_) => {}
             }
@@ -632,6 +654,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 scale_check: beat_state
                     .as_ref()
                     .and_then(|b| b.readout.quality().scale_check()),
+                measured: measured.clone(),
                 inverted: invert,
                 latency_ms: newest_age_ms,
                 ..snapshot(
@@ -687,6 +710,7 @@ fn snapshot(
         spectrum: spectrum.clone(),
         beats: None,
         scale_check: None,
+        measured: None,
         inverted: false,
         latency_ms: 0.0,
     }

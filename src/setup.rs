@@ -264,10 +264,10 @@ impl Setup {
         }
         if !matches!(
             v.lower.as_str(),
-            "beats" | "spectrum" | "response" | "parts" | "traces"
+            "beats" | "spectrum" | "response" | "parts" | "measure" | "traces"
         ) {
             return Err(format!(
-                "view.lower = {:?}: must be beats, spectrum, response, parts or traces",
+                "view.lower = {:?}: must be beats, spectrum, response, parts, measure or traces",
                 v.lower
             ));
         }

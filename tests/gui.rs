@@ -445,3 +445,56 @@ fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
     writer.join().unwrap();
     drop(slave);
 }
+
+#[test]
+fn the_measure_view_measures_the_live_stream() {
+    // Two simulated leads: the response from lead 1 to lead 2 is their lead factors' ratio in
+    // the ECG band, where the leads share the heart's signal.
+    let mut settings = Settings::default();
+    settings.synth.channels = 2;
+    settings.lower = leadline::gui::state::LowerView::Measure;
+    let app = LeadlineApp::new(
+        settings,
+        Arc::new(|| {}),
+        AppOptions::default(),
+        Arc::new(Mutex::new(Ok(()))),
+    )
+    .unwrap();
+    let mut h = harness_sized(app, [1280.0, 1000.0]);
+    let deadline = Instant::now() + Duration::from_secs(20);
+    while h
+        .state()
+        .view()
+        .snapshot
+        .as_ref()
+        .is_none_or(|s| s.t_end_s < 9.0)
+    {
+        assert!(Instant::now() < deadline, "no data");
+        h.run_steps(1);
+        std::thread::sleep(Duration::from_millis(50));
+    }
+    h.get_by_label("Measure the last 30 s").click();
+    let deadline = Instant::now() + Duration::from_secs(10);
+    loop {
+        h.run_steps(1);
+        let m = h
+            .state()
+            .view()
+            .snapshot
+            .as_ref()
+            .and_then(|s| s.measured.clone());
+        if let Some(m) = m {
+            match &m.result {
+                Ok(leadline::measure::Outcome::Response(t)) => {
+                    assert!(m.seconds >= 9.0, "{}", m.seconds);
+                    assert!(t.points.iter().any(|p| p.coherence >= 0.9));
+                    break;
+                }
+                other => panic!("{other:?}"),
+            }
+        }
+        assert!(Instant::now() < deadline, "no measurement");
+        std::thread::sleep(Duration::from_millis(30));
+    }
+    assert!(h.query_by_label_contains("segments of").is_some());
+}

@@ -355,3 +355,25 @@ fn the_measure_commands_write_what_they_promise() {
         assert!(c[k].is_number(), "{k}");
     }
 }
+
+#[test]
+fn cmrr_over_a_stepped_common_mode_gives_one_figure_a_step() {
+    // 1 V RMS of common mode stepped through 20, 50 and 200 Hz, leaking 10, 31.6 and 100 µV RMS:
+    // 100, 90 and 80 dB (by hand).
+    let fs = 1000.0;
+    let mut rng = Rng::new(4);
+    let mut x = Vec::new();
+    let mut phase: f64 = 0.0;
+    for (f, leak) in [(20.0, 10.0), (50.0, 31.622_776_6), (200.0, 100.0)] {
+        for _ in 0..(4.0 * fs) as usize {
+            x.push(leak * std::f64::consts::SQRT_2 * phase.sin() + 1.0 * rng.normal());
+            phase += std::f64::consts::TAU * f / fs;
+        }
+    }
+    let list = cmrr::stepped(&x, fs, 1e6).unwrap();
+    let got: Vec<(f64, f64)> = list.iter().map(|c| (c.cm_hz, c.cmrr_db)).collect();
+    assert_eq!(list.len(), 3, "{got:?}");
+    for (c, want) in list.iter().zip([100.0, 90.0, 80.0]) {
+        assert!((c.cmrr_db - want).abs() < 0.2, "{got:?}");
+    }
+}

@@ -356,6 +356,57 @@ fn net() -> Result<NetFigures> {
     })
 }
 
+#[derive(Serialize)]
+struct MeasureFigures {
+    samples_per_channel: usize,
+    /// The transfer-function estimate (H1, coherence, corners) as `measure response` runs it.
+    response_ms: f64,
+    /// Noise figures of one channel as `measure noise` runs them.
+    noise_ms: f64,
+}
+
+fn measure() -> Result<MeasureFigures> {
+    let fs = 1000.0;
+    let n = 60_000;
+    let mut rng = crate::rng::Rng::new(3);
+    let x: Vec<f64> = (0..n).map(|_| 100.0 * rng.normal()).collect();
+    let mut chain = crate::dsp::Chain::new(crate::dsp::ChainSettings::default(), fs, 1)
+        .map_err(|e| anyhow::anyhow!("{e}"))?;
+    let mut y = x.clone();
+    chain.process_channel(0, &mut y);
+    let time = |f: &mut dyn FnMut()| {
+        let mut best = f64::INFINITY;
+        for _ in 0..5 {
+            let t = Instant::now();
+            f();
+            best = best.min(t.elapsed().as_secs_f64());
+        }
+        best * 1e3
+    };
+    let seg = crate::dsp::spectrum::segment_for(fs, 8.0);
+    let response_ms = time(&mut || {
+        let _ = black_box(crate::measure::transfer::estimate(
+            black_box(&x),
+            &y,
+            fs,
+            seg,
+        ));
+    });
+    let noise_ms = time(&mut || {
+        let _ = black_box(crate::measure::noise::measure(
+            black_box(&x),
+            fs,
+            (0.05, 150.0),
+            30.0,
+        ));
+    });
+    Ok(MeasureFigures {
+        samples_per_channel: n,
+        response_ms,
+        noise_ms,
+    })
+}
+
 /// Runs the command.
 ///
 /// # Errors
@@ -399,6 +450,14 @@ pub fn run(a: &BenchArgs) -> Result<()> {
             println!(
                 "binary frames: {:8.1} MB/s over {} bytes",
                 f.binary_mb_per_s, f.binary_bytes
+            );
+            println!("{}", serde_json::to_string(&f)?);
+        }
+        BenchWhat::Measure => {
+            let f = measure()?;
+            println!(
+                "60 s × 2 channels at 1 kHz: response {:.1} ms, noise {:.1} ms",
+                f.response_ms, f.noise_ms
             );
             println!("{}", serde_json::to_string(&f)?);
         }

@@ -154,6 +154,18 @@ pub fn run(a: &MeasureArgs) -> Result<()> {
         }
         MeasureWhat::Cmrr(r) => {
             let (rec, ch) = r.src.load(&r.channel)?;
+            if r.stepped {
+                let list = cmrr::stepped(&rec.channels[ch], rec.fs_hz, r.cm_uv).map_err(bad)?;
+                for c in &list {
+                    eprintln!(
+                        "{:8.2} Hz: CMRR {:.1} ± {:.1} dB",
+                        c.cm_hz, c.cmrr_db, c.uncertainty_db
+                    );
+                }
+                let doc = serde_json::json!({ "steps": list });
+                write(&r.report, serde_json::to_string_pretty(&doc)? + "\n")?;
+                return Ok(());
+            }
             let c = cmrr::measure(&rec.channels[ch], rec.fs_hz, r.cm_uv, r.cm_hz).map_err(bad)?;
             write(&r.report, serde_json::to_string_pretty(&c)? + "\n")?;
             eprintln!(

@@ -175,6 +175,10 @@ pub struct MeasureCmrrArgs {
     /// Its frequency, Hz (default: the mains, 50).
     #[arg(long, default_value_t = 50.0, value_name = "HZ")]
     pub cm_hz: f64,
+    /// The generator was stepped through frequencies by hand: one CMRR per steady step (the
+    /// report gains `steps`).
+    #[arg(long)]
+    pub stepped: bool,
     /// Channel, index or name.
     #[arg(long, default_value = "0", value_name = "K|NAME")]
     pub channel: String,
@@ -633,6 +637,8 @@ pub enum BenchWhat {
     Wire,
     /// UDP: binary datagrams decoded and put back in order, frames/s against 8 ch × 4 kHz.
     Net,
+    /// `measure response` on a 60 s two-channel 1 kHz recording (the analysis, in process).
+    Measure,
 }
 
 /// Options of `leadline bench`.

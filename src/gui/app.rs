@@ -56,6 +56,7 @@ pub struct LeadlineApp {
     picker: panels::source::SourcePicker,
     front_end: panels::front_end::FrontEndPanel,
     net: panels::network::NetPicker,
+    measure: panels::measure::MeasureView,
     /// Why the last source did not start (a port in use, say).
     source_error: Option<String>,
     file_path: String,
@@ -145,6 +146,7 @@ impl LeadlineApp {
             picker: Default::default(),
             front_end: Default::default(),
             net: Default::default(),
+            measure: Default::default(),
             source_error: None,
             file_path,
             parts: Default::default(),
@@ -900,6 +902,8 @@ impl LeadlineApp {
                     );
                 ui.selectable_value(&mut self.settings.lower, LowerView::Parts, "Parts")
                     .on_hover_text("The chain built from standard parts: resistors from an E series, your capacitors, the tolerance spread.");
+                ui.selectable_value(&mut self.settings.lower, LowerView::Measure, "Measure")
+                    .on_hover_text("Measure the built front end on the live stream: response from a stimulus channel, a stepped sine, noise, CMRR.");
                 ui.selectable_value(&mut self.settings.lower, LowerView::Hidden, "Traces only")
                     .on_hover_text("Hide the lower strip: the traces take the whole height.");
             });
@@ -921,6 +925,23 @@ impl LeadlineApp {
                 }
                 LowerView::Parts => {
                     panels::parts::show(ui, &mut self.parts, &self.settings.chain, fs);
+                }
+                LowerView::Measure => {
+                    self.parts.update(&self.settings.chain, fs);
+                    let sections = self.settings.chain.design(fs).ok();
+                    let snap = self.view.snapshot.as_ref();
+                    let n = snap.map_or(1, |s| s.traces.len());
+                    if let Some(c) = panels::measure::show(
+                        ui,
+                        &mut self.measure,
+                        snap.and_then(|s| s.measured.as_ref()),
+                        sections.as_deref(),
+                        self.parts.stages(),
+                        n,
+                        fs,
+                    ) {
+                        self.pending.push(c);
+                    }
                 }
                 LowerView::Hidden => {}
             }

@@ -20,6 +20,8 @@ pub enum LowerView {
     Response,
     /// The chain realised with standard parts.
     Parts,
+    /// Measuring the built front end: response, stepped sine, noise, CMRR.
+    Measure,
     /// Nothing: the traces take the whole height.
     Hidden,
 }
@@ -32,6 +34,7 @@ impl LowerView {
             LowerView::Spectrum => "spectrum",
             LowerView::Response => "response",
             LowerView::Parts => "parts",
+            LowerView::Measure => "measure",
             LowerView::Hidden => "traces",
         }
     }
@@ -42,6 +45,7 @@ impl LowerView {
             "beats" => LowerView::Beats,
             "response" => LowerView::Response,
             "parts" => LowerView::Parts,
+            "measure" => LowerView::Measure,
             "traces" => LowerView::Hidden,
             _ => LowerView::Spectrum,
         }

@@ -53,3 +53,20 @@ pub fn measure(x: &[f64], fs: f64, cm_uv: f64, cm_hz: f64) -> Result<Cmrr, Measu
         uncertainty_db: (hi - cmrr).max(cmrr - lo),
     })
 }
+
+/// CMRR at each steady step of a common-mode generator stepped by hand (`cm_uv` RMS at every
+/// step): one figure per frequency.
+///
+/// # Errors
+/// No steady steps, or a record too short.
+pub fn stepped(x: &[f64], fs: f64, cm_uv: f64) -> Result<Vec<Cmrr>, MeasureError> {
+    let steps = sine::steps(x, fs, 2.0)?;
+    steps
+        .iter()
+        .map(|s| {
+            let a = (s.start_s * fs) as usize;
+            let b = ((s.end_s * fs) as usize).min(x.len());
+            measure(&x[a..b], fs, cm_uv, s.freq_hz)
+        })
+        .collect()
+}

@@ -30,7 +30,82 @@ pub enum MeasureError {
     /// Nothing at the common-mode frequency.
     #[error("nothing at {0} Hz in the channel")]
     NoSine(f64),
+    /// The stream has no such channel.
+    #[error("there is no channel {}", .0 + 1)]
+    NoChannel(usize),
     /// Samples at a converter rail: the numbers would be wrong.
     #[error("{0} samples sit at an ADC rail: the stimulus is clipped; lower its amplitude")]
     Clipped(usize),
+}
+
+/// A measurement asked of the live stream (the monitor's Measure view): computed by the DSP
+/// thread from the newest samples of the raw (input-referred, before the chain) traces.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Request {
+    /// Transfer function from channel `stimulus` to channel `output`.
+    Response { stimulus: usize, output: usize },
+    /// A stepped sine of `amplitude_uv` (peak) on `channel`.
+    Steps { channel: usize, amplitude_uv: f64 },
+    /// Noise in `band` against a peak-to-peak limit.
+    Noise {
+        channel: usize,
+        band: (f64, f64),
+        limit_p2p_uv: f64,
+    },
+    /// CMRR for a common-mode sine of `cm_uv` RMS at `cm_hz`.
+    Cmrr {
+        channel: usize,
+        cm_uv: f64,
+        cm_hz: f64,
+    },
+}
+
+/// What a request gave.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Outcome {
+    Response(transfer::Transfer),
+    Steps {
+        steps: Vec<sine::Step>,
+        amplitude_uv: f64,
+    },
+    Noise(noise::Noise),
+    Cmrr(cmrr::Cmrr),
+}
+
+/// A measurement with the seconds of signal it used, or why there is none.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Measured {
+    pub seconds: f64,
+    pub result: Result<Outcome, String>,
+}
+
+/// Runs a request on the channels' samples (µV at `fs`).
+pub fn run(req: &Request, channels: &[Vec<f64>], fs: f64) -> Result<Outcome, MeasureError> {
+    let ch = |k: usize| channels.get(k).ok_or(MeasureError::NoChannel(k));
+    match *req {
+        Request::Response { stimulus, output } => {
+            let (x, y) = (ch(stimulus)?, ch(output)?);
+            let n = crate::dsp::spectrum::segment_for(fs, 4.0)
+                .min(x.len().next_power_of_two() / 2)
+                .clamp(256, 16384);
+            transfer::estimate(x, y, fs, n).map(Outcome::Response)
+        }
+        Request::Steps {
+            channel,
+            amplitude_uv,
+        } => sine::steps(ch(channel)?, fs, 2.0).map(|steps| Outcome::Steps {
+            steps,
+            amplitude_uv,
+        }),
+        Request::Noise {
+            channel,
+            band,
+            limit_p2p_uv,
+        } => noise::measure(ch(channel)?, fs, band, limit_p2p_uv).map(Outcome::Noise),
+        Request::Cmrr {
+            channel,
+            cm_uv,
+            cm_hz,
+        } => cmrr::measure(ch(channel)?, fs, cm_uv, cm_hz).map(Outcome::Cmrr),
+    }
 }

@@ -7,6 +7,7 @@ pub mod display;
 pub mod files;
 pub mod front_end;
 pub mod help;
+pub mod measure;
 pub mod network;
 pub mod parts;
 pub mod record;
