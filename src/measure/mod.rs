@@ -58,6 +58,8 @@ pub enum Request {
         cm_uv: f64,
         cm_hz: f64,
     },
+    /// CMRR at each steady step of a common-mode generator stepped by hand.
+    CmrrStepped { channel: usize, cm_uv: f64 },
 }
 
 /// What a request gave.
@@ -70,6 +72,7 @@ pub enum Outcome {
     },
     Noise(noise::Noise),
     Cmrr(cmrr::Cmrr),
+    CmrrSteps(Vec<cmrr::Cmrr>),
 }
 
 /// A measurement with the seconds of signal it used, or why there is none.
@@ -107,5 +110,8 @@ pub fn run(req: &Request, channels: &[Vec<f64>], fs: f64) -> Result<Outcome, Mea
             cm_uv,
             cm_hz,
         } => cmrr::measure(ch(channel)?, fs, cm_uv, cm_hz).map(Outcome::Cmrr),
+        Request::CmrrStepped { channel, cm_uv } => {
+            cmrr::stepped(ch(channel)?, fs, cm_uv).map(Outcome::CmrrSteps)
+        }
     }
 }

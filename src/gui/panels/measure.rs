@@ -33,6 +33,7 @@ pub struct MeasureView {
     limit_uv: f64,
     cm_uv: f64,
     cm_hz: f64,
+    cm_stepped: bool,
     png: String,
     saved: Option<String>,
 }
@@ -49,6 +50,7 @@ impl Default for MeasureView {
             limit_uv: crate::measure::noise::LIMIT_P2P_UV,
             cm_uv: 1e6,
             cm_hz: 50.0,
+            cm_stepped: false,
             png: "measured.png".into(),
             saved: None,
         }
@@ -106,7 +108,12 @@ pub fn show(
             Mode::Cmrr => {
                 channel_pick(ui, "m-ch", "", &mut v.channel, channels);
                 ui.add(egui::DragValue::new(&mut v.cm_uv).range(1.0..=1e8).suffix(" µV rms common mode"));
-                ui.add(egui::DragValue::new(&mut v.cm_hz).range(1.0..=1000.0).suffix(" Hz"));
+                ui.add_enabled(
+                    !v.cm_stepped,
+                    egui::DragValue::new(&mut v.cm_hz).range(1.0..=1000.0).suffix(" Hz"),
+                );
+                ui.checkbox(&mut v.cm_stepped, "stepped")
+                    .on_hover_text("The generator was stepped through frequencies by hand: one CMRR a step.");
             }
         }
         if ui
@@ -127,6 +134,10 @@ pub fn show(
                     channel: v.channel,
                     band: v.band,
                     limit_p2p_uv: v.limit_uv,
+                },
+                Mode::Cmrr if v.cm_stepped => Request::CmrrStepped {
+                    channel: v.channel,
+                    cm_uv: v.cm_uv,
                 },
                 Mode::Cmrr => Request::Cmrr {
                     channel: v.channel,
@@ -207,7 +218,13 @@ pub fn show(
                 .filter(|p| p.coherence >= 0.9)
                 .map(|p| [p.freq_hz.log10(), p.phase_deg])
                 .collect();
-            let w = (ui.available_width() - 8.0) / 2.0;
+            let delay: Vec<[f64; 2]> = t
+                .points
+                .iter()
+                .filter(|p| p.coherence >= 0.9 && p.group_delay_s.is_finite())
+                .map(|p| [p.freq_hz.log10(), 1e3 * p.group_delay_s])
+                .collect();
+            let w = (ui.available_width() - 16.0) / 3.0;
             ui.horizontal(|ui| {
                 Plot::new("measure-mag")
                     .width(w)
@@ -239,6 +256,14 @@ pub fn show(
                     .y_axis_label("phase (°)")
                     .show(ui, |pu| {
                         pu.points(Points::new("phase", PlotPoints::new(phase)).radius(1.5));
+                    });
+                Plot::new("measure-delay")
+                    .width(w)
+                    .height(ui.available_height().max(120.0))
+                    .x_axis_label("frequency (log10 Hz)")
+                    .y_axis_label("group delay (ms)")
+                    .show(ui, |pu| {
+                        pu.points(Points::new("group delay", PlotPoints::new(delay)).radius(1.5));
                     });
             });
             save_png(
@@ -321,6 +346,14 @@ pub fn show(
                 .show(ui, |pu| {
                     pu.line(Line::new("density", PlotPoints::new(d)));
                 });
+        }
+        Outcome::CmrrSteps(list) => {
+            for c in list {
+                ui.label(format!(
+                    "{:8.2} Hz: CMRR {:.1} ± {:.1} dB ({:.3} µV rms leak)",
+                    c.cm_hz, c.cmrr_db, c.uncertainty_db, c.diff_uv
+                ));
+            }
         }
         Outcome::Cmrr(c) => {
             ui.label(
