@@ -266,10 +266,20 @@ fn ngspice_runs_the_netlist_and_agrees_with_the_realised_response() {
     );
     let deck_path = dir.join("run.cir");
     std::fs::write(&deck_path, deck).unwrap();
-    let o = std::process::Command::new("ngspice")
+    let o = match std::process::Command::new("ngspice")
         .args(["-b", deck_path.to_str().unwrap()])
         .output()
-        .expect("ngspice (install the Debian package ngspice; .ci/run does)");
+    {
+        Ok(o) => o,
+        // In CI ngspice is always installed first: its absence there is a failure, not a skip.
+        Err(e) if std::env::var_os("CI").is_some() => {
+            panic!("CI run without ngspice ({e}): .ci/run installs the Debian package ngspice")
+        }
+        Err(_) => {
+            eprintln!("skipping the ngspice check: ngspice is not installed (apt-get install ngspice)");
+            return;
+        }
+    };
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
     // `.print` rows: index, frequency, vdb(out), vp(out) in radians.
     let text = String::from_utf8_lossy(&o.stdout).into_owned();
