@@ -907,6 +907,8 @@ pub enum StartView {
     Response,
     /// The chain realised with standard parts.
     Parts,
+    /// Measuring the built front end.
+    Measure,
     /// Traces only.
     Traces,
     /// Measurement preset: simulator at 1 kHz, 1 channel, 10 s window, spectrum strip.

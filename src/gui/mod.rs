@@ -96,6 +96,7 @@ pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
             crate::cli::StartView::Spectrum => state::LowerView::Spectrum,
             crate::cli::StartView::Response => state::LowerView::Response,
             crate::cli::StartView::Parts => state::LowerView::Parts,
+            crate::cli::StartView::Measure => state::LowerView::Measure,
             crate::cli::StartView::Traces => state::LowerView::Hidden,
             crate::cli::StartView::Default | crate::cli::StartView::Heavy => {
                 state::LowerView::Spectrum
