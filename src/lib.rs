@@ -6,19 +6,24 @@
 //! # Layout
 //! ```text
 //!  source thread            DSP thread                               GUI thread (eframe)
-//!  synth (serial, file)     scale → chain → display columns          drains Snapshots in logic(),
-//!    │                        → RecordBlock (never dropped)          draws in ui(), sends Control
+//!  synth | serial | udp     front end → chain → display columns      drains Snapshots in logic(),
+//!  | tcp | file               → readout, spectrum, measurements      draws in ui(), sends Control
+//!    │                        → RecordBlock (never dropped)
 //!    ▼                         │
 //!  RawBlock ──bounded──▶ process::run ──Snapshot, drop-oldest──▶ gui::app
 //!            ◀────────────── Control (unbounded, tiny) ◀──────────────
 //! ```
 //! - [`pipeline`] is the only place that creates channels and starts (named) threads.
-//! - [`source`]: where samples come from ([`source::synth`] is the default).
+//! - [`source`]: where samples come from ([`source::synth`] is the default; serial, UDP, TCP,
+//!   file replay).
 //! - [`recorder`]: every processed sample to EDF+/BDF+/CSV/raw files, on its own thread.
 //! - [`process`]: the DSP thread body. [`dsp`]: filter designs and the runtime chain.
-//! - [`scale`]: counts → volts at the ADC → µV at the electrodes.
+//! - [`scale`]: counts → volts at the ADC → µV at the electrodes, per channel.
+//! - [`analysis`]: beats, the heart-rate readout, quality, mains. [`conform`]: the standards'
+//!   checks of a chain. [`measure`]: a built front end measured. [`analog`]: parts, circuit,
+//!   schematic, netlist.
 //! - [`wire`]: byte formats to and from a microcontroller. [`gui`], [`cli`]: the two front doors.
-//! - `dsp`, `scale`, `wire` never import egui.
+//! - `dsp`, `analysis`, `analog`, `conform`, `measure`, `scale` and `wire` never import egui.
 //!
 //! # Units and conventions
 //! - Signal values inside the program are input-referred microvolts (µV at the electrodes) in f64,
