@@ -14,6 +14,8 @@ pub struct NetPicker {
     from: String,
     host: String,
     tcp_port: u16,
+    rate_set: bool,
+    fs_hz: f64,
 }
 
 impl Default for NetPicker {
@@ -24,6 +26,8 @@ impl Default for NetPicker {
             from: String::new(),
             host: String::new(),
             tcp_port: 5006,
+            rate_set: false,
+            fs_hz: 500.0,
         }
     }
 }
@@ -84,6 +88,28 @@ pub fn show(
         });
     }
     ui.horizontal(|ui| {
+        ui.label("rate");
+        egui::ComboBox::from_id_salt("net-rate")
+            .selected_text(if p.rate_set {
+                "set to"
+            } else {
+                "from the stream, else estimated"
+            })
+            .show_ui(ui, |ui| {
+                ui.selectable_value(&mut p.rate_set, false, "from the stream, else estimated");
+                ui.selectable_value(&mut p.rate_set, true, "set to");
+            })
+            .response
+            .on_hover_text("As for serial: the stream's `# fs=` line, else estimated from arrival times; or the rate you set (binary frames carry no rate).");
+        if p.rate_set {
+            ui.add(
+                egui::DragValue::new(&mut p.fs_hz)
+                    .range(1.0..=100_000.0)
+                    .suffix(" Hz"),
+            );
+        }
+    });
+    ui.horizontal(|ui| {
         let text = if p.udp {
             if p.from.trim().is_empty() {
                 format!("udp:{}", p.listen_port)
@@ -102,7 +128,7 @@ pub fn show(
             .on_hover_text(format!("Start the source {text}."))
             .clicked()
         {
-            match SourceSpec::parse(&text, None, scale) {
+            match SourceSpec::parse(&text, p.rate_set.then_some(p.fs_hz), scale) {
                 Ok(spec) => req = Some(NetRequest::Connect(spec)),
                 Err(e) => {
                     ui.colored_label(ui.visuals().error_fg_color, e.to_string());
