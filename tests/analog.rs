@@ -276,7 +276,9 @@ fn ngspice_runs_the_netlist_and_agrees_with_the_realised_response() {
             panic!("CI run without ngspice ({e}): .ci/run installs the Debian package ngspice")
         }
         Err(_) => {
-            eprintln!("skipping the ngspice check: ngspice is not installed (apt-get install ngspice)");
+            eprintln!(
+                "skipping the ngspice check: ngspice is not installed (apt-get install ngspice)"
+            );
             return;
         }
     };
