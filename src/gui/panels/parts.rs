@@ -26,6 +26,8 @@ pub struct PartsView {
     curves: Vec<[f64; 5]>,
     /// Base path of the files "Save" writes (.svg, .cir, .csv are added).
     save_base: String,
+    /// The op-amps' input bias current, nA (for the offsets shown).
+    bias_na: f64,
     saved: Option<String>,
 }
 
@@ -34,6 +36,7 @@ impl Default for PartsView {
         Self {
             caps_text: "1u 220n 100n 47n 10n".into(),
             save_base: "chain".into(),
+            bias_na: 1.0,
             saved: None,
             series: Series::E24,
             r_tol_pct: 1.0,
@@ -209,7 +212,17 @@ pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: 
                             ui.end_row();
                         }
                     });
-                    details(ui, &stages);
+                    ui.horizontal(|ui| {
+                        ui.label("op-amp input bias");
+                        ui.add(
+                            egui::DragValue::new(&mut view.bias_na)
+                                .range(0.001..=1000.0)
+                                .speed(0.1)
+                                .suffix(" nA"),
+                        )
+                        .on_hover_text("From your op-amp's datasheet: the offsets below scale with it.");
+                    });
+                    details(ui, &stages, view.bias_na);
                     let c = crate::analog::circuit::build(
                         &stages,
                         view.series,
@@ -278,8 +291,8 @@ pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: 
     });
 }
 
-/// Twin-T tolerance figures, advice and each stage's op-amp needs.
-fn details(ui: &mut egui::Ui, stages: &[Stage]) {
+/// Twin-T tolerance figures, advice and each stage's op-amp needs (offsets at `bias_na`).
+fn details(ui: &mut egui::Ui, stages: &[Stage], bias_na: f64) {
     for s in stages {
         if let (Some(d), Some(m)) = (s.notch_depth_db, s.miss_share) {
             ui.label(format!(
@@ -311,7 +324,7 @@ fn details(ui: &mut egui::Ui, stages: &[Stage]) {
                     "{}: GBW ≥ {:.0} kHz, offset {:.2} mV",
                     s.topology,
                     o.gbw_hz / 1e3,
-                    o.offset_mv
+                    o.offset_mv * bias_na * 1e-9 / o.bias_current_a.max(1e-18)
                 )
             })
         })
@@ -319,7 +332,7 @@ fn details(ui: &mut egui::Ui, stages: &[Stage]) {
     if !needs.is_empty() {
         ui.label(
             egui::RichText::new(format!(
-                "op-amps (GBW ≥ 100·Q·f0, common practice; offset at 1 nA bias): {}",
+                "op-amps (GBW ≥ 100·Q·f0, common practice; offset from the bias current above): {}",
                 needs.join(" · ")
             ))
             .small(),
