@@ -46,22 +46,8 @@ fn stage(topology: &'static str, parts: &[(&'static str, f64)]) -> Stage {
     let parts: BTreeMap<&'static str, f64> = parts.iter().copied().collect();
     Stage {
         topology,
-        design_hz: None,
-        realised_hz: None,
-        design_gain: None,
-        realised_gain: None,
-        q: None,
-        design_q: None,
-        error_pct: 0.0,
         parts,
-        spread: None,
-        notch_depth_db: None,
-        notch_centre_hz: None,
-        mains_band_hz: None,
-        centre_in_band_share: None,
-        miss_share: None,
-        advice: None,
-        opamp: None,
+        ..Stage::default()
     }
 }
 

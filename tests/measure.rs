@@ -5,7 +5,7 @@
 #![allow(clippy::unwrap_used)]
 
 use leadline::dsp::chain::Chain;
-use leadline::dsp::{ChainSettings, HighPass, LowPass, Notch};
+use leadline::dsp::{ChainSettings, HighPass};
 use leadline::measure::{MeasureError, cmrr, noise, sine, transfer};
 use leadline::rng::Rng;
 
@@ -30,21 +30,8 @@ fn lcg_noise(n: usize) -> Vec<f64> {
 /// The fixture's front end: high-pass 1 Hz order 2, low-pass 40 Hz order 4, gain 100.
 fn front_end() -> ChainSettings {
     ChainSettings {
-        highpass: HighPass {
-            enabled: true,
-            corner_hz: 1.0,
-            order: 2,
-        },
-        notch: Notch {
-            enabled: false,
-            ..Notch::default()
-        },
-        lowpass: LowPass {
-            enabled: true,
-            corner_hz: 40.0,
-            order: 4,
-        },
         gain: 100.0,
+        ..ChainSettings::band(Some((1.0, 2)), Some((40.0, 4)))
     }
 }
 

@@ -15,16 +15,25 @@ use leadline::scale::InputScale;
 use leadline::source::{Pacing, SourceSpec};
 use leadline::wire::binary;
 
-/// A free loopback UDP port (bound, read back, released).
-fn free_udp_port() -> u16 {
-    UdpSocket::bind("127.0.0.1:0")
-        .unwrap()
-        .local_addr()
-        .unwrap()
-        .port()
+/// A pipeline listening on a free loopback UDP port, and that port. A port found free can be
+/// taken by another test's socket before the pipeline binds it, so it tries again then.
+fn udp_pipeline(fs: f64) -> (Pipeline, u16) {
+    for _ in 0..20 {
+        let port = UdpSocket::bind("127.0.0.1:0")
+            .unwrap()
+            .local_addr()
+            .unwrap()
+            .port();
+        match start(&format!("udp:127.0.0.1:{port}"), fs) {
+            Ok(p) => return (p, port),
+            Err(e) if e.to_string().contains("already in use") => continue,
+            Err(e) => panic!("{e}"),
+        }
+    }
+    panic!("no free loopback UDP port in 20 tries");
 }
 
-fn pipeline(spec: &str, fs: f64) -> Pipeline {
+fn start(spec: &str, fs: f64) -> Result<Pipeline, leadline::pipeline::PipelineError> {
     Pipeline::start(
         PipelineConfig {
             source: SourceSpec::parse(spec, Some(fs), InputScale::default()).unwrap(),
@@ -35,7 +44,6 @@ fn pipeline(spec: &str, fs: f64) -> Pipeline {
         },
         Arc::new(|| {}),
     )
-    .unwrap()
 }
 
 fn value(frame: u64, ch: usize) -> i32 {
@@ -59,11 +67,10 @@ fn collect(
 
 #[test]
 fn udp_binary_with_losses_duplicates_reordering_and_a_foreign_sender() {
-    let port = free_udp_port();
     let fs = 1000.0;
     let channels = 4;
     let seconds = 60u64;
-    let mut p = pipeline(&format!("udp:127.0.0.1:{port}"), fs);
+    let (mut p, port) = udp_pipeline(fs);
     let rx = p.take_records().unwrap();
     let to: SocketAddr = format!("127.0.0.1:{port}").parse().unwrap();
     let sender = std::thread::Builder::new()
@@ -168,8 +175,7 @@ fn udp_binary_with_losses_duplicates_reordering_and_a_foreign_sender() {
 
 #[test]
 fn bad_datagrams_never_stop_the_stream() {
-    let port = free_udp_port();
-    let mut p = pipeline(&format!("udp:127.0.0.1:{port}"), 500.0);
+    let (mut p, port) = udp_pipeline(500.0);
     let rx = p.take_records().unwrap();
     let sock = UdpSocket::bind("127.0.0.1:0").unwrap();
     let to = format!("127.0.0.1:{port}");
@@ -282,7 +288,7 @@ fn tcp_server_that_closes_and_reopens_gives_a_gap_and_a_reconnect() {
             }
         })
         .unwrap();
-    let mut p = pipeline(&format!("tcp:127.0.0.1:{port}"), 500.0);
+    let mut p = start(&format!("tcp:127.0.0.1:{port}"), 500.0).unwrap();
     let rx = p.take_records().unwrap();
     let blocks = collect(&rx, Instant::now() + Duration::from_secs(10), |g| {
         g.iter().any(|b| b.gap_before) && g.iter().map(|b| b.received.len()).sum::<usize>() > 1000
@@ -299,8 +305,7 @@ fn tcp_server_that_closes_and_reopens_gives_a_gap_and_a_reconnect() {
 
 #[test]
 fn simulate_over_udp_gives_the_same_samples_as_the_csv() {
-    let port = free_udp_port();
-    let mut p = pipeline(&format!("udp:127.0.0.1:{port}"), 250.0);
+    let (mut p, port) = udp_pipeline(250.0);
     let rx = p.take_records().unwrap();
     let exe = env!("CARGO_BIN_EXE_leadline");
     let mut child = std::process::Command::new(exe)

@@ -607,23 +607,15 @@ mod notch_tests {
     use super::*;
     use crate::analog::parts::{PartsOptions, realise};
     use crate::analog::tolerance::Tolerances;
-    use crate::dsp::{ChainSettings, HighPass, LowPass, Notch};
+    use crate::dsp::{ChainSettings, Notch};
 
     fn notch_only(q: f64, r_tol: f64, c_tol: f64) -> Stage {
         let chain = ChainSettings {
-            highpass: HighPass {
-                enabled: false,
-                ..HighPass::default()
-            },
             notch: Notch {
                 q,
                 ..Notch::default()
             },
-            lowpass: LowPass {
-                enabled: false,
-                ..LowPass::default()
-            },
-            gain: 1.0,
+            ..ChainSettings::band(None, None)
         };
         let opts = PartsOptions {
             tolerances: Tolerances {

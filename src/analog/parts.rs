@@ -53,7 +53,7 @@ impl Default for PartsOptions {
 }
 
 /// One stage as built.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct Stage {
     /// rc-highpass, rc-lowpass, sallen-key-highpass, sallen-key-lowpass, twin-t, inamp-gain.
     pub topology: &'static str,
@@ -215,22 +215,11 @@ pub fn realise(chain: &ChainSettings, opts: &PartsOptions) -> Result<Vec<Stage>,
         let realised = inamp::gain_for(rgs, k);
         add(Stage {
             topology: "inamp-gain",
-            design_hz: None,
-            realised_hz: None,
             design_gain: Some(g),
             realised_gain: Some(realised),
-            q: None,
-            design_q: None,
             error_pct: 100.0 * (realised / g - 1.0),
             parts: BTreeMap::from([("Rg", rgs)]),
-            spread: None,
-            notch_depth_db: None,
-            notch_centre_hz: None,
-            mains_band_hz: None,
-            centre_in_band_share: None,
-            miss_share: None,
-            advice: None,
-            opamp: None,
+            ..Stage::default()
         });
     }
 
@@ -331,21 +320,9 @@ pub fn realise(chain: &ChainSettings, opts: &PartsOptions) -> Result<Vec<Stage>,
         let mut stage = Stage {
             topology,
             design_hz: Some(f0),
-            realised_hz: None,
-            design_gain: None,
-            realised_gain: None,
-            q: None,
             design_q: q,
-            error_pct: 0.0,
             parts,
-            spread: None,
-            notch_depth_db: None,
-            notch_centre_hz: None,
-            mains_band_hz: None,
-            centre_in_band_share: None,
-            miss_share: None,
-            advice: None,
-            opamp: None,
+            ..Stage::default()
         };
         if topology == "twin-t" {
             // The feedback fraction from two series resistors: k = Rk2 / (Rk1 + Rk2).

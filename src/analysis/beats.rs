@@ -25,7 +25,7 @@
 
 use std::collections::VecDeque;
 
-use crate::dsp::chain::{Chain, ChainSettings, HighPass, LowPass, Notch};
+use crate::dsp::chain::{Chain, ChainSettings};
 
 /// The span over which QRS-like events are counted, s.
 pub const EVENTS_S: f64 = 5.0;
@@ -139,23 +139,7 @@ pub struct Detector {
 }
 
 fn band_chain(fs: f64) -> ChainSettings {
-    ChainSettings {
-        highpass: HighPass {
-            enabled: true,
-            corner_hz: 5.0,
-            order: 2,
-        },
-        notch: Notch {
-            enabled: false,
-            ..Notch::default()
-        },
-        lowpass: LowPass {
-            enabled: true,
-            corner_hz: 15.0_f64.min(0.4 * fs),
-            order: 2,
-        },
-        gain: 1.0,
-    }
+    ChainSettings::band(Some((5.0, 2)), Some((15.0_f64.min(0.4 * fs), 2)))
 }
 
 fn mean(v: &VecDeque<f64>) -> Option<f64> {

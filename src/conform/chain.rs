@@ -258,25 +258,9 @@ fn st_shift(sections: &[Section], fs: f64, zero_phase: bool) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::dsp::{HighPass, LowPass};
 
     fn only_highpass(corner_hz: f64, order: u32) -> ChainSettings {
-        ChainSettings {
-            highpass: HighPass {
-                enabled: true,
-                corner_hz,
-                order,
-            },
-            notch: Notch {
-                enabled: false,
-                ..Notch::default()
-            },
-            lowpass: LowPass {
-                enabled: false,
-                ..LowPass::default()
-            },
-            gain: 1.0,
-        }
+        ChainSettings::band(Some((corner_hz, order)), None)
     }
 
     #[test]

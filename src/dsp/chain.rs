@@ -120,6 +120,42 @@ impl Default for ChainSettings {
 }
 
 impl ChainSettings {
+    /// A plain band: Butterworth high-pass and low-pass, each `(corner_hz, order)` or off,
+    /// no notch, unity gain.
+    pub fn band(highpass: Option<(f64, u32)>, lowpass: Option<(f64, u32)>) -> Self {
+        let hp = HighPass::default();
+        let lp = LowPass::default();
+        Self {
+            highpass: highpass.map_or(
+                HighPass {
+                    enabled: false,
+                    ..hp
+                },
+                |(corner_hz, order)| HighPass {
+                    enabled: true,
+                    corner_hz,
+                    order,
+                },
+            ),
+            notch: Notch {
+                enabled: false,
+                ..Notch::default()
+            },
+            lowpass: lowpass.map_or(
+                LowPass {
+                    enabled: false,
+                    ..lp
+                },
+                |(corner_hz, order)| LowPass {
+                    enabled: true,
+                    corner_hz,
+                    order,
+                },
+            ),
+            gain: 1.0,
+        }
+    }
+
     /// The chain in processing order, in the style of EDF's prefiltering field
     /// ("HP:0.5Hz(o2) N:50Hz(Q30) LP:40Hz(o4)"); "none" when every stage is bypassed.
     pub fn describe(&self) -> String {

@@ -43,6 +43,38 @@ fn draw_err<E: std::fmt::Display>(e: E) -> PlotError {
     PlotError::Draw(e.to_string())
 }
 
+/// A log-frequency chart with its grid and labelled axes drawn.
+type LogFreqChart<'a, 'b> = ChartContext<
+    'a,
+    BitMapBackend<'b>,
+    Cartesian2d<LogCoord<f64>, plotters::coord::types::RangedCoordf64>,
+>;
+
+fn log_freq_chart<'a, 'b>(
+    root: &'a DrawingArea<BitMapBackend<'b>, plotters::coord::Shift>,
+    title: &str,
+    f: (f64, f64),
+    y: (f64, f64),
+    y_desc: &str,
+) -> Result<LogFreqChart<'a, 'b>, PlotError> {
+    let mut chart = ChartBuilder::on(root)
+        .caption(title, (FONT, 24))
+        .margin(16)
+        .x_label_area_size(50)
+        .y_label_area_size(70)
+        .build_cartesian_2d((f.0..f.1).log_scale(), y.0..y.1)
+        .map_err(draw_err)?;
+    chart
+        .configure_mesh()
+        .x_desc("frequency (Hz)")
+        .y_desc(y_desc)
+        .label_style((FONT, 16))
+        .axis_desc_style((FONT, 18))
+        .draw()
+        .map_err(draw_err)?;
+    Ok(chart)
+}
+
 /// Writes `rgb` (w × h × 3) as a PNG.
 ///
 /// # Errors
@@ -92,21 +124,13 @@ pub fn psd_png(
         let f_hi = pts.last().map_or(100.0, |p| p.0);
         let y_hi = pts.iter().map(|p| p.1).fold(f64::MIN, f64::max).ceil() + 5.0;
         let y_lo = (y_hi - 110.0).max(pts.iter().map(|p| p.1).fold(f64::MAX, f64::min).floor());
-        let mut chart = ChartBuilder::on(&root)
-            .caption(title, (FONT, 24))
-            .margin(16)
-            .x_label_area_size(50)
-            .y_label_area_size(70)
-            .build_cartesian_2d((f_lo..f_hi).log_scale(), y_lo..y_hi)
-            .map_err(draw_err)?;
-        chart
-            .configure_mesh()
-            .x_desc("frequency (Hz)")
-            .y_desc("PSD (dB re 1 µV²/Hz, input-referred)")
-            .label_style((FONT, 16))
-            .axis_desc_style((FONT, 18))
-            .draw()
-            .map_err(draw_err)?;
+        let mut chart = log_freq_chart(
+            &root,
+            title,
+            (f_lo, f_hi),
+            (y_lo, y_hi),
+            "PSD (dB re 1 µV²/Hz, input-referred)",
+        )?;
         chart
             .draw_series(LineSeries::new(
                 pts.iter().map(|&(f, d)| (f, d.max(y_lo))),
@@ -314,21 +338,7 @@ pub fn response_png(
             .ceil()
             + 6.0;
         let y_lo = y_hi - 66.0;
-        let mut chart = ChartBuilder::on(&root)
-            .caption(title, (FONT, 22))
-            .margin(16)
-            .x_label_area_size(50)
-            .y_label_area_size(70)
-            .build_cartesian_2d((f_lo..f_hi).log_scale(), y_lo..y_hi)
-            .map_err(draw_err)?;
-        chart
-            .configure_mesh()
-            .x_desc("frequency (Hz)")
-            .y_desc("gain (dB)")
-            .label_style((FONT, 16))
-            .axis_desc_style((FONT, 18))
-            .draw()
-            .map_err(draw_err)?;
+        let mut chart = log_freq_chart(&root, title, (f_lo, f_hi), (y_lo, y_hi), "gain (dB)")?;
         if let Some((secs, offset_db)) = design {
             let n = 400;
             let line: Vec<(f64, f64)> = (0..=n)

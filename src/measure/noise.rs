@@ -6,7 +6,6 @@ use serde::Serialize;
 use super::MeasureError;
 use crate::dsp::chain::{self, ChainSettings};
 use crate::dsp::spectrum::{Welch, segment_for};
-use crate::dsp::{HighPass, LowPass, Notch};
 
 /// Default band, Hz (the diagnostic ECG band; REFERENCE.md §3).
 pub const BAND_HZ: (f64, f64) = (0.05, 150.0);
@@ -50,23 +49,7 @@ pub fn measure(
         });
     }
     let hi = band.1.min(0.45 * fs);
-    let settings = ChainSettings {
-        highpass: HighPass {
-            enabled: band.0 > 0.0,
-            corner_hz: band.0.max(1e-3),
-            order: 2,
-        },
-        notch: Notch {
-            enabled: false,
-            ..Notch::default()
-        },
-        lowpass: LowPass {
-            enabled: true,
-            corner_hz: hi,
-            order: 4,
-        },
-        gain: 1.0,
-    };
+    let settings = ChainSettings::band((band.0 > 0.0).then_some((band.0, 2)), Some((hi, 4)));
     let sections = settings
         .design(fs)
         .map_err(|e| MeasureError::Band(e.to_string()))?;

@@ -18,3 +18,32 @@ pub mod source;
 pub mod spectrum;
 pub mod status;
 pub mod trace;
+
+use eframe::egui;
+
+/// The sample-rate choice a stream panel offers: the stream's own, else estimated; or set.
+pub(crate) fn rate_choice(
+    ui: &mut egui::Ui,
+    id: &str,
+    rate_set: &mut bool,
+    fs_hz: &mut f64,
+    hover: &str,
+) {
+    const FROM_STREAM: &str = "from the stream, else estimated";
+    egui::ComboBox::from_id_salt(id)
+        .selected_text(if *rate_set { "set to" } else { FROM_STREAM })
+        .show_ui(ui, |ui| {
+            ui.selectable_value(rate_set, false, FROM_STREAM);
+            ui.selectable_value(rate_set, true, "set to");
+        })
+        .response
+        .on_hover_text(hover);
+    if *rate_set {
+        ui.add(
+            egui::DragValue::new(fs_hz)
+                .range(1.0..=100_000.0)
+                .speed(1.0)
+                .suffix(" Hz"),
+        );
+    }
+}

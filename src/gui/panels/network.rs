@@ -89,25 +89,7 @@ pub fn show(
     }
     ui.horizontal(|ui| {
         ui.label("rate");
-        egui::ComboBox::from_id_salt("net-rate")
-            .selected_text(if p.rate_set {
-                "set to"
-            } else {
-                "from the stream, else estimated"
-            })
-            .show_ui(ui, |ui| {
-                ui.selectable_value(&mut p.rate_set, false, "from the stream, else estimated");
-                ui.selectable_value(&mut p.rate_set, true, "set to");
-            })
-            .response
-            .on_hover_text("As for serial: the stream's `# fs=` line, else estimated from arrival times; or the rate you set (binary frames carry no rate).");
-        if p.rate_set {
-            ui.add(
-                egui::DragValue::new(&mut p.fs_hz)
-                    .range(1.0..=100_000.0)
-                    .suffix(" Hz"),
-            );
-        }
+        super::rate_choice(ui, "net-rate", &mut p.rate_set, &mut p.fs_hz, "As for serial: the stream's `# fs=` line, else estimated from arrival times; or the rate you set (binary frames carry no rate).");
     });
     ui.horizontal(|ui| {
         let text = if p.udp {

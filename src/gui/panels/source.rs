@@ -156,26 +156,7 @@ pub fn show(
     });
     ui.horizontal(|ui| {
         ui.label("Sample rate");
-        egui::ComboBox::from_id_salt("serial-rate")
-            .selected_text(if p.rate_set {
-                "set to"
-            } else {
-                "from the stream, else estimated"
-            })
-            .show_ui(ui, |ui| {
-                ui.selectable_value(&mut p.rate_set, false, "from the stream, else estimated");
-                ui.selectable_value(&mut p.rate_set, true, "set to");
-            })
-            .response
-            .on_hover_text("From the stream's `# fs=` line when it sends one, else estimated from when the frames arrive; or the rate you set.");
-        if p.rate_set {
-            ui.add(
-                egui::DragValue::new(&mut p.fs_hz)
-                    .range(1.0..=100_000.0)
-                    .speed(1.0)
-                    .suffix(" Hz"),
-            );
-        }
+        super::rate_choice(ui, "serial-rate", &mut p.rate_set, &mut p.fs_hz, "From the stream's `# fs=` line when it sends one, else estimated from when the frames arrive; or the rate you set.");
     });
     if ui
         .add_enabled(!p.path.is_empty(), egui::Button::new("Connect"))
