@@ -236,7 +236,9 @@ fn monitor_readouts(settings: SynthSettings, seconds: f64) -> Vec<(f64, RateStat
     let p = Pipeline::start(
         PipelineConfig {
             source: SourceSpec::Synth(settings),
-            pacing: Pacing::Unpaced,
+            // Paced as a device: the DSP thread snapshots on the wall clock, so an unpaced
+            // source would show a machine-dependent few of the once-a-second evaluations.
+            pacing: Pacing::RealTime,
             limit_s: Some(seconds),
             display_hz: 1000.0,
             ..PipelineConfig::default()
