@@ -59,10 +59,10 @@ fn mitdb_records_gross_se_and_ppv() {
             100.0 * s5.se(),
             100.0 * s5.ppv()
         );
-        // Each record: the floor is Se 99.5 % and +P 99.0 %; record 105 (heavy
-        // electrode-motion noise) reaches Se 99.38 %, so the test holds the figures reached.
+        // Each record: Se at least 99.5 % and +P at least 99.0 % (record 105, heavy
+        // electrode-motion noise, is the weakest: Se 99.53 %, +P 99.22 %).
         assert!(
-            s.se() >= 0.993 && s.ppv() >= 0.990,
+            s.se() >= 0.995 && s.ppv() >= 0.990,
             "record {record}: Se {:.4} +P {:.4}",
             s.se(),
             s.ppv()
@@ -80,9 +80,9 @@ fn mitdb_records_gross_se_and_ppv() {
         100.0 * after5.se(),
         100.0 * after5.ppv()
     );
-    // The goal is gross Se 99.8 % and +P 99.7 %; reached: 99.75 % and 99.70 %.
+    // Gross Se at least 99.8 % and +P at least 99.7 % (reached: 99.81 % and 99.76 %).
     assert!(
-        whole.se() >= 0.9974 && whole.ppv() >= 0.9969,
+        whole.se() >= 0.998 && whole.ppv() >= 0.997,
         "gross Se {:.4} +P {:.4}",
         whole.se(),
         whole.ppv()

@@ -22,6 +22,13 @@
 //! - Search-back only looks at candidates at least 360 ms after the last QRS, so it does not pick
 //!   up the T wave it has just rejected, and it accepts a candidate only if its slope is at least
 //!   ⅓ of the running QRS slope (a slope check the paper applies only under 360 ms).
+//! - Two QRS shapes are learned from the band-passed signal (±60 ms around R): the usual one and
+//!   the recent other one (ectopic beats). When a beat's R, placed as above, matches neither
+//!   (correlation under 0.7 with the usual shape, under 0.8 with the other) and a place within
+//!   ±300 ms after the last beat's refractory period matches the usual shape well (≥ 0.8, at
+//!   least 0.25 better, and of a QRS's amplitude: ½–2× the shape's RMS), R moves there. In
+//!   electrode-motion noise the integrator's peak can sit on an artefact next to the QRS; the
+//!   beat was found but placed on the artefact.
 
 use std::collections::VecDeque;
 
@@ -29,6 +36,13 @@ use crate::dsp::chain::{Chain, ChainSettings};
 
 /// The span over which QRS-like events are counted, s.
 pub const EVENTS_S: f64 = 5.0;
+
+/// Half-width of the QRS template, s.
+const TPL_HALF_S: f64 = 0.06;
+/// How far from the first estimate the template may move the R peak, s.
+const TPL_SEARCH_S: f64 = 0.3;
+/// Beats averaged before the template is used.
+const TPL_READY: usize = 8;
 
 /// A detected beat.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -102,8 +116,6 @@ pub struct Detector {
     mwi_sum: f64,
     sq_ring: Ring,
     loc_ring: Ring,
-    slope_ring: Ring,
-    mwi_ring: Ring,
     /// Indices of the sliding-window maximum of the integrated signal.
     maxq: VecDeque<(u64, f64)>,
     /// Look-ahead of the candidate window, samples (the decision waits this long).
@@ -136,10 +148,80 @@ pub struct Detector {
     /// lets through.
     events: VecDeque<u64>,
     prev_mwi: [f64; 2],
+    /// The band-passed input, for matching beats against the QRS template.
+    bp_ring: Ring,
+    /// The usual QRS: band-passed samples around the R peak (± `tpl_half`), averaged over the
+    /// beats that matched it well.
+    usual: Shape,
+    /// The recent beats that did not look like the usual QRS (ectopic beats, in a bigeminal
+    /// rhythm): such a beat is left where it is.
+    other: Shape,
+    tpl_half: u64,
+    /// R peak of the last beat.
+    last_r: Option<u64>,
 }
 
 fn band_chain(fs: f64) -> ChainSettings {
     ChainSettings::band(Some((5.0, 2)), Some((15.0_f64.min(0.4 * fs), 2)))
+}
+
+/// An averaged QRS shape (band-passed, around the R peak).
+#[derive(Debug, Clone)]
+struct Shape {
+    v: Vec<f64>,
+    beats: usize,
+    /// Beats in a row that did not match.
+    misses: usize,
+}
+
+impl Shape {
+    fn new(len: usize) -> Self {
+        Self {
+            v: vec![0.0; len],
+            beats: 0,
+            misses: 0,
+        }
+    }
+
+    fn ready(&self) -> bool {
+        self.beats >= TPL_READY
+    }
+
+    /// Pearson correlation with a segment of the same length.
+    fn corr(&self, y: &[f64]) -> Option<f64> {
+        let nf = self.v.len() as f64;
+        let (sx, sy) = (self.v.iter().sum::<f64>(), y.iter().sum::<f64>());
+        let vx = self.v.iter().map(|a| a * a).sum::<f64>() - sx * sx / nf;
+        let vy = y.iter().map(|a| a * a).sum::<f64>() - sy * sy / nf;
+        (vx > 0.0 && vy > 0.0).then(|| (dot(&self.v, y) - sx * sy / nf) / (vx * vy).sqrt())
+    }
+
+    /// Averages `y` in (weight 1/16 once sixteen beats are in).
+    fn add(&mut self, y: &[f64]) {
+        self.beats += 1;
+        let w = 1.0 / (self.beats.min(16) as f64);
+        for (t, v) in self.v.iter_mut().zip(y) {
+            *t += w * (v - *t);
+        }
+    }
+}
+
+/// Dot product with four running sums (the additions of one sum wait on each other).
+fn dot(a: &[f64], b: &[f64]) -> f64 {
+    let mut acc = [0.0; 4];
+    let (a4, b4) = (a.chunks_exact(4), b.chunks_exact(4));
+    let tail: f64 = a4
+        .remainder()
+        .iter()
+        .zip(b4.remainder())
+        .map(|(x, y)| x * y)
+        .sum();
+    for (x, y) in a4.zip(b4) {
+        for k in 0..4 {
+            acc[k] += x[k] * y[k];
+        }
+    }
+    acc.iter().sum::<f64>() + tail
 }
 
 fn mean(v: &VecDeque<f64>) -> Option<f64> {
@@ -172,8 +254,6 @@ impl Detector {
             mwi_sum: 0.0,
             sq_ring: Ring::new(secs(0.150).max(1) as usize),
             loc_ring: Ring::new(history),
-            slope_ring: Ring::new(history),
-            mwi_ring: Ring::new(history),
             maxq: VecDeque::new(),
             half_window: secs(0.25),
             look_back: secs(0.180),
@@ -198,6 +278,11 @@ impl Detector {
             last_decay: 0,
             events: VecDeque::new(),
             prev_mwi: [0.0; 2],
+            bp_ring: Ring::new(history),
+            usual: Shape::new(2 * secs(TPL_HALF_S) as usize + 1),
+            other: Shape::new(2 * secs(TPL_HALF_S) as usize + 1),
+            tpl_half: secs(TPL_HALF_S),
+            last_r: None,
         })
     }
 
@@ -274,8 +359,7 @@ impl Detector {
         self.mwi_sum += sq - old;
         let mwi = (self.mwi_sum / self.mwi_len as f64).max(0.0);
         self.loc_ring.push(loc);
-        self.slope_ring.push(d.abs());
-        self.mwi_ring.push(mwi);
+        self.bp_ring.push(bp);
 
         if i < self.learn_until {
             self.learn_max = self.learn_max.max(mwi);
@@ -340,9 +424,13 @@ impl Detector {
 
     /// Steepest slope in the integration window that ends at the candidate.
     fn max_slope(&self, c: u64) -> f64 {
-        let start = c.saturating_sub(self.mwi_len as u64);
+        // The five-point derivative again, from the band-passed samples kept.
+        let start = c.saturating_sub(self.mwi_len as u64).max(4);
         (start..=c)
-            .filter_map(|j| self.slope_ring.get(j))
+            .filter_map(|j| {
+                let b = |k: u64| self.bp_ring.get(j - k);
+                Some((2.0 * b(0)? + b(1)? - b(3)? - 2.0 * b(4)?).abs() * self.fs / 8.0)
+            })
             .fold(0.0, f64::max)
     }
 
@@ -425,6 +513,129 @@ impl Detector {
         }
     }
 
+    /// The band-passed input around R peak `r`, the template's length (`None` where the
+    /// history does not reach).
+    fn segment(&self, r: u64) -> Option<Vec<f64>> {
+        let start = (r + self.delay_bp).checked_sub(self.tpl_half)?;
+        (0..self.usual.v.len() as u64)
+            .map(|k| self.bp_ring.get(start + k))
+            .collect()
+    }
+
+    /// A better R peak for a beat first placed at `r`, if the template says so: the current
+    /// place matches the usual QRS poorly (r < 0.7) and not the other recent shape either, and
+    /// another place within ±300 ms (after the last beat's refractory period, and already seen)
+    /// matches well (≥ 0.8) and clearly better (+0.25).
+    fn template_relocate(&self, r: u64, here: f64, base: f64) -> Option<(u64, f64)> {
+        if !self.usual.ready() || here >= 0.7 {
+            return None;
+        }
+        let reach = (TPL_SEARCH_S * self.fs) as u64;
+        let lo = (r.saturating_sub(reach)).max(self.last_r.map_or(0, |l| l + self.refractory));
+        let newest = self.n.saturating_sub(1 + self.delay_bp + self.tpl_half);
+        let hi = (r + reach).min(newest);
+        if hi <= lo {
+            return None;
+        }
+        // The stretch searched, contiguous, and the template's own sums: the input's sums then
+        // slide along it and only the cross product is summed anew at each place.
+        let start = (lo + self.delay_bp).checked_sub(self.tpl_half)?;
+        let y: Vec<f64> = (start..=hi + self.delay_bp + self.tpl_half)
+            .map(|j| self.bp_ring.get(j))
+            .collect::<Option<_>>()?;
+        let t = self.usual.v.as_slice();
+        let n = t.len();
+        let nf = n as f64;
+        let st: f64 = t.iter().sum();
+        let vt = t.iter().map(|v| v * v).sum::<f64>() - st * st / nf;
+        if vt <= 0.0 {
+            return None;
+        }
+        // Running sums of the input over the template's length, one per offset.
+        let mut sums = Vec::with_capacity(y.len() + 1 - n);
+        let (mut sy, mut syy) = y[..n]
+            .iter()
+            .fold((0.0, 0.0), |(a, b), v| (a + v, b + v * v));
+        sums.push((sy, syy));
+        for k in n..y.len() {
+            let (new, old) = (y[k], y[k - n]);
+            sy += new - old;
+            syy += new * new - old * old;
+            sums.push((sy, syy));
+        }
+        // Correlation at offset `off` into the stretch, if the amplitude is QRS-like (shape
+        // alone is not enough: a small wiggle can have the QRS's shape).
+        let corr = |off: usize| -> Option<f64> {
+            let (sy, syy) = sums[off];
+            let vy = syy - sy * sy / nf;
+            let amp = (vy.max(0.0) / vt).sqrt();
+            if !(0.5..=2.0).contains(&amp) {
+                return None;
+            }
+            Some((dot(t, &y[off..off + n]) - st * sy / nf) / (vt * vy).sqrt())
+        };
+        // Every other place first (5.6 ms at 360 Hz, well inside a 15 Hz cycle), then the
+        // neighbours of the best.
+        let span = (hi - lo) as usize;
+        let (mut best_off, mut best_c) = (None, here);
+        for off in (0..=span).step_by(2) {
+            if let Some(c) = corr(off)
+                && c > best_c
+            {
+                best_off = Some(off);
+                best_c = c;
+            }
+        }
+        let coarse = best_off?;
+        for off in [coarse.wrapping_sub(1), coarse + 1] {
+            if off <= span
+                && let Some(c) = corr(off)
+                && c > best_c
+            {
+                best_off = Some(off);
+                best_c = c;
+            }
+        }
+        let best = lo + best_off.unwrap_or(coarse) as u64;
+        if best == r || best_c < 0.8 || best_c < here + 0.25 {
+            return None;
+        }
+        // The template aligns the band-passed QRS; the R peak is the input's extreme of the
+        // template's polarity within ±30 ms of that place.
+        let sign = if self.polarity.abs() >= 0.5 {
+            self.polarity.signum()
+        } else {
+            1.0
+        };
+        let near = (0.03 * self.fs) as u64;
+        (best.saturating_sub(near)..=best + near)
+            .filter_map(|j| self.loc_ring.get(j).map(|v| (j, v - base)))
+            .max_by(|a, b| (sign * a.1).total_cmp(&(sign * b.1)))
+    }
+
+    /// Sorts a beat's segment into the usual or the other shape by its correlations with them.
+    /// A beat like neither starts the other shape afresh once that has missed eight beats in a
+    /// row (or is still forming); the shape that collects beats faster while the usual one is
+    /// still forming becomes the usual one.
+    fn learn_shape(&mut self, seg: &[f64], usual: f64, other: f64) {
+        if self.usual.beats == 0 || usual >= 0.8 {
+            self.usual.add(seg);
+            self.other.misses += 1;
+        } else if self.other.beats > 0 && other >= 0.8 {
+            self.other.add(seg);
+            self.other.misses = 0;
+        } else {
+            self.other.misses += 1;
+            if !self.other.ready() || self.other.misses >= 8 {
+                self.other = Shape::new(seg.len());
+                self.other.add(seg);
+            }
+        }
+        if !self.usual.ready() && self.other.beats > self.usual.beats {
+            std::mem::swap(&mut self.usual, &mut self.other);
+        }
+    }
+
     fn accept(&mut self, c: Candidate, search_back: bool, out: &mut Vec<Beat>) {
         // The QRS lies in the integration window before the candidate, shifted by the
         // band-pass delay; widen by 50 ms either side for the R peak of the input.
@@ -439,8 +650,12 @@ impl Detector {
             .filter_map(|j| self.loc_ring.get(j).map(|v| (j, v)))
             .collect();
         let mut sorted: Vec<f64> = vals.iter().map(|v| v.1).collect();
-        sorted.sort_by(f64::total_cmp);
-        let base = sorted.get(sorted.len() / 2).copied().unwrap_or(0.0);
+        let base = if sorted.is_empty() {
+            0.0
+        } else {
+            let mid = sorted.len() / 2;
+            *sorted.select_nth_unstable_by(mid, f64::total_cmp).1
+        };
         // In noise the largest deflection of the whole window can be a spike far from the QRS:
         // look for R only within ±60 ms of the steepest slope of the band-passed QRS (taken
         // back to the input's time by the band-pass and derivative delays).
@@ -473,6 +688,26 @@ impl Detector {
                 rv = v - base;
             }
         }
+        // In noise the integrator's peak can sit on an artefact next to the QRS. When the R
+        // found above looks like neither recent QRS shape and a place within 300 ms looks like
+        // the usual one, much better, the R peak is put there.
+        let seg = self.segment(r);
+        let like = |t: &Shape| seg.as_ref().and_then(|s| t.corr(s)).unwrap_or(-1.0);
+        let (usual, other) = (like(&self.usual), like(&self.other));
+        let moved = if self.other.beats > 0 && other >= 0.8 {
+            None
+        } else {
+            self.template_relocate(r, usual, base)
+        };
+        if let Some((j, v)) = moved {
+            r = j;
+            rv = v;
+            if let Some(s) = self.segment(r) {
+                self.usual.add(&s);
+            }
+        } else if let Some(s) = seg {
+            self.learn_shape(&s, usual, other);
+        }
         self.polarity = 0.6 * self.polarity + 0.4 * rv.signum();
         if let Some((last, _)) = self.last_qrs {
             let rr = c.index.saturating_sub(last) as f64;
@@ -504,6 +739,7 @@ impl Detector {
         };
         // The refractory, T-wave and search-back windows run from the integrator peak.
         self.last_qrs = Some((c.index, rv));
+        self.last_r = Some(r);
         self.since_qrs.clear();
         out.push(Beat {
             sample: r,
