@@ -1,8 +1,9 @@
 //! What is in the signal: beats ([`beats`]), the heart-rate readout ([`readout`]: detector,
 //! [`rate`] meter and [`quality`] check), the averaged beat ([`template`]), mains interference
-//! and band powers ([`mains`]).
+//! and band powers ([`mains`]); surface EMG ([`emg`]).
 
 pub mod beats;
+pub mod emg;
 pub mod mains;
 pub mod quality;
 pub mod rate;

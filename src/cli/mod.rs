@@ -3,6 +3,7 @@
 pub mod beats;
 pub mod bench;
 pub mod conform;
+pub mod emg;
 pub mod export_c;
 pub mod filter;
 pub mod measure;
@@ -74,6 +75,49 @@ pub enum Command {
     /// Write the chain as a self-contained C99 header (float32, Q15 or Q31) for firmware.
     #[command(name = "export-c")]
     ExportC(ExportCArgs),
+    /// Surface EMG of a recording: envelope and moving RMS (CSV), contractions with their
+    /// amplitude, mean and median frequency, the fatigue trend and %MVC (JSON).
+    #[command(after_help = CAUTION_HELP)]
+    Emg(EmgArgs),
+}
+
+/// Options of `leadline emg`.
+#[derive(Debug, Clone, Args)]
+pub struct EmgArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// Signal to analyse: 0-based index or name.
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// Resting baseline for the onset threshold, s: START,END (default: the quietest second).
+    #[arg(long, value_name = "START,END", value_delimiter = ',', num_args = 2)]
+    pub baseline: Option<Vec<f64>>,
+    /// A maximum voluntary contraction, s: START,END; each contraction's RMS is then also
+    /// given as % of it.
+    #[arg(long, value_name = "START,END", value_delimiter = ',', num_args = 2)]
+    pub mvc: Option<Vec<f64>>,
+    /// Linear envelope's low-pass corner, Hz (2–10).
+    #[arg(long, default_value_t = 6.0, value_name = "HZ")]
+    pub envelope_hz: f64,
+    /// Moving-RMS window, ms (50–250).
+    #[arg(long, default_value_t = 100.0, value_name = "MS")]
+    pub rms_ms: f64,
+    /// Onset threshold: baseline mean + K standard deviations.
+    #[arg(long, default_value_t = 3.0, value_name = "K")]
+    pub k: f64,
+    /// Band-pass corners, Hz: LOW,HIGH.
+    #[arg(long, value_name = "LOW,HIGH", value_delimiter = ',', num_args = 2, default_values_t = [20.0, 450.0])]
+    pub band: Vec<f64>,
+    /// Mains notch at this frequency and its harmonics in the band, Hz (50 or 60).
+    #[arg(long, value_name = "HZ")]
+    pub notch: Option<f64>,
+    /// CSV: time_s,envelope_uv,rms_uv.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// JSON: bursts (on_s, off_s, peak_uv, rms_uv, mean_hz, median_hz, pct_mvc),
+    /// median_hz_trend, baseline and threshold.
+    #[arg(long, value_name = "FILE")]
+    pub report: Option<PathBuf>,
 }
 
 /// Options of `leadline measure`.
@@ -1024,6 +1068,29 @@ pub struct SimulateArgs {
     /// rapid-alternating-bigeminy 120, bidirectional-systoles 90 bpm).
     #[arg(long, value_enum, default_value_t = RhythmArg::Sinus)]
     pub rhythm: RhythmArg,
+    /// A contracting muscle under the electrodes (surface EMG): contractions of --force % every
+    /// --contract-s + --rest-s seconds, the heart's signal reduced to --ecg-share. Use --fs 1000
+    /// or more.
+    #[arg(long)]
+    pub muscle: bool,
+    /// Contraction force, % of maximum (RMS at 100 %: --full-uv).
+    #[arg(long, default_value_t = 40.0, value_name = "PCT")]
+    pub force: f64,
+    /// RMS of a full-force contraction at the electrodes, µV.
+    #[arg(long, default_value_t = 600.0, value_name = "UV")]
+    pub full_uv: f64,
+    /// Length of each contraction, s.
+    #[arg(long, default_value_t = 2.0, value_name = "S")]
+    pub contract_s: f64,
+    /// Rest between contractions, s.
+    #[arg(long, default_value_t = 3.0, value_name = "S")]
+    pub rest_s: f64,
+    /// Share of the heart's signal that reaches the electrodes with --muscle (0–1).
+    #[arg(long, default_value_t = 0.15, value_name = "SHARE")]
+    pub ecg_share: f64,
+    /// Fall of the muscle's upper spectral corner per contraction, % (fatigue).
+    #[arg(long, default_value_t = 0.0, value_name = "PCT")]
+    pub fatigue: f64,
     /// Output format.
     #[arg(long, value_enum, default_value_t = SimFormat::Csv)]
     pub format: SimFormat,

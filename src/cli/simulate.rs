@@ -29,6 +29,15 @@ pub fn settings(a: &SimulateArgs) -> SynthSettings {
         inverted: a.inverted,
         lead_off: a.lead_off,
         rhythm: a.rhythm.rhythm(),
+        muscle: a.muscle.then_some(crate::source::muscle::MuscleSettings {
+            force_pct: a.force,
+            full_uv: a.full_uv,
+            on_s: a.contract_s,
+            rest_s: a.rest_s,
+            ecg_share: a.ecg_share,
+            fatigue_pct: a.fatigue,
+            ..Default::default()
+        }),
         ..SynthSettings::default()
     }
 }

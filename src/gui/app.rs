@@ -781,7 +781,7 @@ impl LeadlineApp {
                         self.source_error.as_deref(),
                     ) {
                         self.settings.net = match req {
-                            panels::network::NetRequest::Connect(spec) => Some(spec),
+                            panels::network::NetRequest::Connect(spec) => Some(*spec),
                             panels::network::NetRequest::Disconnect => None,
                         };
                         self.settings.serial = None;

@@ -7,6 +7,7 @@
 
 pub mod ecg_model;
 pub mod framing;
+pub mod muscle;
 pub mod net;
 pub mod replay;
 pub mod rhythm;

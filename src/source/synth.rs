@@ -18,6 +18,7 @@ use serde::{Deserialize, Serialize};
 use super::ecg_model::EcgModel;
 use crate::rng::Rng;
 use crate::scale::InputScale;
+use crate::source::muscle::{Muscle, MuscleSettings};
 use crate::source::rhythm::{Rhythm, ScheduledHeart};
 
 /// How much stronger mains coupling is with a mains charger on the laptop that reads the board
@@ -151,6 +152,9 @@ pub struct SynthSettings {
     pub front_end: FrontEnd,
     /// The heart's rhythm: the sinus model, or one of the standards' irregular-rhythm cases.
     pub rhythm: Rhythm,
+    /// A contracting muscle under the electrodes (surface EMG), with the heart's signal
+    /// reduced to its set share; `None` for an ECG.
+    pub muscle: Option<MuscleSettings>,
 }
 
 impl Default for SynthSettings {
@@ -176,6 +180,7 @@ impl Default for SynthSettings {
             lead_off: false,
             front_end: FrontEnd::default(),
             rhythm: Rhythm::Sinus,
+            muscle: None,
         }
     }
 }
@@ -242,6 +247,9 @@ impl SynthSettings {
                 return Err(SynthError::Level { name, value });
             }
         }
+        if let Some((name, value)) = self.muscle.as_ref().and_then(MuscleSettings::invalid) {
+            return Err(SynthError::Level { name, value });
+        }
         if !self.offset_mv.is_finite() {
             return Err(SynthError::Level {
                 name: "offset_mv",
@@ -274,6 +282,7 @@ struct ChannelState {
     /// AC-coupling high-pass state (previous input and output, V).
     couple_prev_in: f64,
     couple_prev_out: f64,
+    muscle: Option<Muscle>,
 }
 
 /// The running simulator. Produces interleaved ADC counts, frame by frame.
@@ -322,6 +331,9 @@ impl Synth {
                 noise_prev_out: 0.0,
                 couple_prev_in: 0.0,
                 couple_prev_out: 0.0,
+                muscle: settings
+                    .muscle
+                    .map(|m| Muscle::new(settings.fs_hz, m, rng.fork(300 + k as u64))),
             };
             // The coupling capacitor has charged to the offset (of either polarity) long ago.
             let polarity = if settings.inverted { -1.0 } else { 1.0 };
@@ -367,6 +379,17 @@ impl Synth {
         }
         for (k, ch) in self.channels.iter_mut().enumerate() {
             ch.offset_v = new.offset_mv * 1e-3 * (1.0 + 0.15 * k as f64);
+            match (new.muscle, &mut ch.muscle) {
+                (Some(m), Some(run)) => run.update(m),
+                (Some(m), None) => {
+                    ch.muscle = Some(Muscle::new(
+                        s.fs_hz,
+                        m,
+                        Rng::new(new.seed).fork(300 + k as u64),
+                    ));
+                }
+                (None, _) => ch.muscle = None,
+            }
         }
         self.scale = scale;
         let (fs, n, seed) = (s.fs_hz, s.channels, s.seed);
@@ -397,6 +420,16 @@ impl Synth {
     /// Sample indices of the most recent R events of the model (the truth for detector tests).
     pub fn r_events(&self) -> &std::collections::VecDeque<u64> {
         &self.r_events
+    }
+
+    /// Onsets and offsets (sample indices) of the muscle's recent contractions on channel 1:
+    /// the truth for EMG tests (empty without a muscle).
+    pub fn contractions(&self) -> Vec<(u64, u64)> {
+        self.channels
+            .first()
+            .and_then(|c| c.muscle.as_ref())
+            .map(|m| m.truth().iter().copied().collect())
+            .unwrap_or_default()
     }
 
     /// Samples (over all channels) that hit an ADC rail so far.
@@ -463,7 +496,12 @@ impl Synth {
             ch.noise_prev_in = white;
             let muscle_v = s.noise_uv * 1e-6 * mus_norm * ch.noise_prev_out;
 
-            let differential = ch.lead * ecg_v + resp_v + ch.drift_v + ch.offset_v;
+            let (heart_share, emg_v) = match &mut ch.muscle {
+                Some(m) => (s.muscle.map_or(1.0, |m| m.ecg_share), m.next_v()),
+                None => (1.0, 0.0),
+            };
+            let differential =
+                heart_share * ch.lead * ecg_v + emg_v + resp_v + ch.drift_v + ch.offset_v;
             let mut electrode_v = polarity * differential + mains_v + muscle_v;
             if s.lead_off {
                 let pickup = SQRT_2 * LEAD_OFF_MAINS_V * self.mains_phase.sin();

@@ -36,7 +36,7 @@ impl Default for NetPicker {
 #[derive(Debug, Clone, PartialEq)]
 pub enum NetRequest {
     /// Start this network source.
-    Connect(SourceSpec),
+    Connect(Box<SourceSpec>),
     /// Back to the simulator.
     Disconnect,
 }
@@ -111,7 +111,7 @@ pub fn show(
             .clicked()
         {
             match SourceSpec::parse(&text, p.rate_set.then_some(p.fs_hz), scale) {
-                Ok(spec) => req = Some(NetRequest::Connect(spec)),
+                Ok(spec) => req = Some(NetRequest::Connect(Box::new(spec))),
                 Err(e) => {
                     ui.colored_label(ui.visuals().error_fg_color, e.to_string());
                 }

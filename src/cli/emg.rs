@@ -1,0 +1,90 @@
+//! `leadline emg`: surface EMG of a recording — envelope and moving RMS as CSV, contractions and
+//! the fatigue trend as JSON.
+
+use std::fmt::Write as _;
+
+use anyhow::{Context, Result};
+use serde::Serialize;
+
+use super::{BadInput, EmgArgs};
+use crate::analysis::emg::{EmgAnalysis, EmgSettings, analyse};
+
+#[derive(Serialize)]
+struct Report<'a> {
+    input: String,
+    channel: usize,
+    channel_name: String,
+    duration_s: f64,
+    #[serde(flatten)]
+    analysis: &'a EmgAnalysis,
+    /// Advice on the input, if any (a rate under 1 kHz).
+    advice: Vec<String>,
+}
+
+fn pair(v: Option<&Vec<f64>>) -> Option<(f64, f64)> {
+    v.and_then(|v| (v.len() == 2).then(|| (v[0], v[1])))
+}
+
+/// Runs the command.
+///
+/// # Errors
+/// A bad or unreadable input, settings out of range, an unwritable output.
+pub fn run(a: &EmgArgs) -> Result<()> {
+    let (rec, ch) = a.src.load(&a.channel)?;
+    let x = &rec.channels[ch];
+    let fs = rec.fs_hz;
+    let settings = EmgSettings {
+        band_hz: (a.band[0], a.band.get(1).copied().unwrap_or(450.0)),
+        notch_hz: a.notch,
+        envelope_hz: a.envelope_hz,
+        rms_ms: a.rms_ms,
+        k_sd: a.k,
+        baseline_s: pair(a.baseline.as_ref()),
+        mvc_s: pair(a.mvc.as_ref()),
+        ..EmgSettings::default()
+    };
+    let an = analyse(x, fs, &settings).map_err(|e| BadInput(e.to_string()))?;
+    let mut advice = Vec::new();
+    if fs < 1000.0 {
+        advice.push(format!(
+            "{fs} Hz is under the 1 kHz advised for surface EMG: the band's upper corner is held at {:.0} Hz",
+            settings.band_hz.1.min(0.45 * fs)
+        ));
+    }
+    let mut csv = String::with_capacity(x.len() * 32);
+    csv.push_str("time_s,envelope_uv,rms_uv\n");
+    for (i, (e, r)) in an.envelope.iter().zip(&an.rms).enumerate() {
+        let _ = writeln!(csv, "{:.6},{e:.4},{r:.4}", i as f64 / fs);
+    }
+    std::fs::write(&a.out, csv).with_context(|| format!("cannot write {}", a.out.display()))?;
+    if let Some(path) = &a.report {
+        let doc = Report {
+            input: a.src.input.display().to_string(),
+            channel: ch,
+            channel_name: rec.names.get(ch).cloned().unwrap_or_default(),
+            duration_s: x.len() as f64 / fs,
+            analysis: &an,
+            advice: advice.clone(),
+        };
+        std::fs::write(path, serde_json::to_string_pretty(&doc)? + "\n")
+            .with_context(|| format!("cannot write {}", path.display()))?;
+    }
+    for m in &advice {
+        eprintln!("leadline: {m}");
+    }
+    let trend = an.median_hz_trend.as_ref().map_or(String::new(), |t| {
+        format!(
+            "; median frequency {:.1} → {:.1} Hz ({:+.1} %)",
+            t.first_hz, t.last_hz, t.change_pct
+        )
+    });
+    eprintln!(
+        "{} contractions in {:.1} s (threshold {:.1} µV over a baseline at {:.1}–{:.1} s){trend}",
+        an.bursts.len(),
+        x.len() as f64 / fs,
+        an.threshold_uv,
+        an.baseline_s.0,
+        an.baseline_s.1
+    );
+    Ok(())
+}
