@@ -49,6 +49,7 @@ pub mod recorder;
 pub mod rng;
 pub mod scale;
 pub mod setup;
+pub mod sound;
 pub mod source;
 pub mod store;
 pub mod wire;

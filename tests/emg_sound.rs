@@ -272,3 +272,170 @@ fn the_emg_command_writes_the_envelope_and_the_report() {
     assert_eq!(err.trim().lines().count(), 1, "{err}");
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// Onsets (s) of tones in a tone-only WAV: the first audible sample after 20 ms of silence.
+fn tone_onsets(samples: &[f32], rate: f64) -> Vec<f64> {
+    let quiet = (0.02 * rate) as usize;
+    let mut out = Vec::new();
+    let mut silent = quiet;
+    for (i, v) in samples.iter().enumerate() {
+        if v.abs() > 0.01 {
+            if silent >= quiet {
+                out.push(i as f64 / rate);
+            }
+            silent = 0;
+        } else {
+            silent += 1;
+        }
+    }
+    out
+}
+
+#[test]
+fn each_tone_starts_within_10_ms_of_its_beat_and_none_sound_while_unreliable() {
+    let dir = std::env::temp_dir().join(format!("leadline-sound-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    // 60 s of the simulator's ECG at 500 Hz with a 12 s burst of heavy broadband noise
+    // (400 µV RMS from 24 to 36 s): the readout must go unreliable there.
+    let fs = 500.0;
+    let settings = SynthSettings {
+        fs_hz: fs,
+        ..SynthSettings::default()
+    };
+    let mut synth = Synth::new(settings).unwrap();
+    let scale = synth.scale();
+    let mut counts = Vec::new();
+    synth.fill((60.0 * fs) as usize, &mut counts);
+    let mut rng = leadline::rng::Rng::new(9);
+    let mut csv = String::from("time_s,ch1\n");
+    for (i, &c) in counts.iter().enumerate() {
+        let t = i as f64 / fs;
+        let noise = if (24.0..36.0).contains(&t) {
+            400.0 * rng.normal()
+        } else {
+            0.0
+        };
+        csv.push_str(&format!(
+            "{t:.4},{:.6}\n",
+            (scale.counts_to_uv(c) + noise) / 1000.0
+        ));
+    }
+    let input = dir.join("ecg.csv");
+    std::fs::write(&input, csv).unwrap();
+    let bin = env!("CARGO_BIN_EXE_leadline");
+    let run = |args: &[&str]| {
+        let out = std::process::Command::new(bin)
+            .args(args)
+            .arg("--input")
+            .arg(&input)
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+    };
+    let p = |f: &str| dir.join(f).to_string_lossy().into_owned();
+    run(&[
+        "beats",
+        "--out",
+        &p("beats.csv"),
+        "--rate-out",
+        &p("rate.csv"),
+    ]);
+    run(&["sound", "--tone", "--out", &p("beats.wav")]);
+    let decided: Vec<f64> = std::fs::read_to_string(dir.join("beats.csv"))
+        .unwrap()
+        .lines()
+        .skip(1)
+        .map(|l| l.split(',').nth(4).unwrap().parse().unwrap())
+        .collect();
+    let unreliable: Vec<f64> = std::fs::read_to_string(dir.join("rate.csv"))
+        .unwrap()
+        .lines()
+        .skip(1)
+        .filter(|l| l.split(',').nth(2) == Some("unreliable"))
+        .map(|l| l.split(',').next().unwrap().parse().unwrap())
+        .collect();
+    assert!(
+        unreliable.len() >= 5,
+        "the noise burst must make the readout unreliable: {unreliable:?}"
+    );
+    let (rate, audio) =
+        leadline::sound::wav::read(&std::fs::read(dir.join("beats.wav")).unwrap()).unwrap();
+    let tones = tone_onsets(&audio, f64::from(rate));
+    let mut worst: f64 = 0.0;
+    for t in &tones {
+        let near = decided
+            .iter()
+            .map(|d| (d - t).abs())
+            .fold(f64::INFINITY, f64::min);
+        worst = worst.max(near);
+        assert!(
+            !unreliable.iter().any(|u| (*u..*u + 1.0).contains(t)),
+            "a tone at {t:.3} s while the readout was unreliable"
+        );
+    }
+    println!(
+        "{} tones for {} beats, worst start {:.2} ms from its beat's decided_s; {} s unreliable",
+        tones.len(),
+        decided.len(),
+        1e3 * worst,
+        unreliable.len()
+    );
+    assert!(worst <= 0.010, "{worst}");
+    // Clean stretches sound every beat: at least the beats outside the noisy part.
+    let clean = decided
+        .iter()
+        .filter(|d| !(23.0..38.0).contains(*d) && **d > 10.0)
+        .count();
+    assert!(
+        tones.len() >= clean,
+        "{} tones, {clean} clean beats",
+        tones.len()
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn the_signal_is_rendered_at_the_output_rate_under_the_limiter() {
+    let dir = std::env::temp_dir().join(format!("leadline-signal-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let input = dir.join("ecg.csv");
+    let bin = env!("CARGO_BIN_EXE_leadline");
+    let ok = std::process::Command::new(bin)
+        .args(["simulate", "--seconds", "5", "--out"])
+        .arg(&input)
+        .status()
+        .unwrap();
+    assert!(ok.success());
+    let out = std::process::Command::new(bin)
+        .args([
+            "sound",
+            "--signal",
+            "--signal-gain",
+            "50",
+            "--rate",
+            "44100",
+            "--input",
+        ])
+        .arg(&input)
+        .arg("--out")
+        .arg(dir.join("s.wav"))
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let (rate, audio) =
+        leadline::sound::wav::read(&std::fs::read(dir.join("s.wav")).unwrap()).unwrap();
+    assert_eq!(rate, 44_100);
+    // 5 s at 500 Hz: audio to the last sample's time (4.998 s).
+    assert_eq!(audio.len(), (2499.0 * 88.2) as usize + 1);
+    let peak = audio.iter().fold(0.0f32, |m, v| m.max(v.abs()));
+    assert!(peak > 0.5 && peak <= 0.9 + 1e-3, "{peak}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -12,6 +12,7 @@ pub mod record;
 pub mod response;
 pub mod simulate;
 pub mod sos;
+pub mod sound;
 pub mod spectrum;
 
 use std::path::PathBuf;
@@ -79,6 +80,46 @@ pub enum Command {
     /// amplitude, mean and median frequency, the fatigue trend and %MVC (JSON).
     #[command(after_help = CAUTION_HELP)]
     Emg(EmgArgs),
+    /// Render what the monitor would play to a WAV file: a tone on each beat when it is decided
+    /// (silent while the readout is unreliable) and/or the filtered signal.
+    #[command(after_help = CAUTION_HELP)]
+    Sound(SoundArgs),
+}
+
+/// Options of `leadline sound`.
+#[derive(Debug, Clone, Args)]
+pub struct SoundArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Signal to follow: 0-based index or name.
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// A tone on each beat (the default when neither --tone nor --signal is given).
+    #[arg(long)]
+    pub tone: bool,
+    /// The filtered signal itself.
+    #[arg(long)]
+    pub signal: bool,
+    /// Tone pitch, Hz (200–4000).
+    #[arg(long, default_value_t = 1000.0, value_name = "HZ")]
+    pub pitch: f64,
+    /// Tone volume, 0–1 of full scale.
+    #[arg(long, default_value_t = 0.3, value_name = "V")]
+    pub volume: f64,
+    /// Tone length, ms.
+    #[arg(long, default_value_t = 60.0, value_name = "MS")]
+    pub tone_ms: f64,
+    /// Signal gain: 1 mV is full scale × this (a limiter keeps peaks under 0.9).
+    #[arg(long, default_value_t = 1.0, value_name = "G")]
+    pub signal_gain: f64,
+    /// Output rate, Hz.
+    #[arg(long, default_value_t = crate::sound::DEFAULT_RATE_HZ, value_name = "HZ")]
+    pub rate: u32,
+    /// The WAV file (16-bit PCM mono).
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
 }
 
 /// Options of `leadline emg`.
