@@ -185,6 +185,8 @@ pub struct Snapshot {
     pub spectrum: Option<Arc<SpectrumFrame>>,
     /// Beats, heart rate and quality (None when the rate is outside 125–2000 Hz).
     pub beats: Option<BeatView>,
+    /// The EMG view, when on.
+    pub emg: Option<Arc<crate::analysis::emg::EmgView>>,
     /// Every channel is inverted before the chain.
     pub inverted: bool,
     /// Age of the newest sample in this snapshot when it was made, ms: from the source thread
@@ -216,4 +218,29 @@ pub enum Control {
     FrontEnd(Option<Vec<FrontEnd>>),
     /// Measure the built front end on the newest samples (up to 30 s) of the raw traces.
     Measure(crate::measure::Request),
+    /// Sound on (settings, the card's rate, where the audio goes; `None`: rendered and
+    /// discarded, for the bench) or off.
+    Sound(Option<SoundFeed>),
+    /// EMG view on (its settings) or off.
+    Emg(Option<crate::analysis::emg::EmgSettings>),
+}
+
+/// What the DSP thread needs to make sound.
+#[derive(Debug, Clone)]
+pub struct SoundFeed {
+    pub settings: crate::sound::SoundSettings,
+    pub rate_hz: f64,
+    pub tx: Option<crossbeam_channel::Sender<Vec<f32>>>,
+}
+
+impl PartialEq for SoundFeed {
+    fn eq(&self, o: &Self) -> bool {
+        self.settings == o.settings
+            && self.rate_hz == o.rate_hz
+            && match (&self.tx, &o.tx) {
+                (Some(a), Some(b)) => a.same_channel(b),
+                (None, None) => true,
+                _ => false,
+            }
+    }
 }

@@ -380,6 +380,12 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
     let mut invert = false;
     let mut rails: Vec<bool> = Vec::new();
     let mut measured: Option<Arc<crate::measure::Measured>> = None;
+    let mut sound: Option<(crate::sound::Renderer, Option<Sender<Vec<f32>>>)> = None;
+    let mut sound_feed: Option<crate::msg::SoundFeed> = None;
+    let mut emg: Option<crate::analysis::emg::EmgSettings> = None;
+    let mut emg_view: Option<Arc<crate::analysis::emg::EmgView>> = None;
+    let mut emg_at = Instant::now();
+    let mut audio: Vec<f32> = Vec::new();
 
     loop {
         if stop.load(Ordering::Relaxed) {
@@ -441,6 +447,15 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                                 .map_err(|e| e.to_string()),
                         }));
                     }
+                }
+                Control::Sound(feed) => {
+                    // Made afresh with the next block, at the stream's position.
+                    sound = None;
+                    sound_feed = feed;
+                }
+                Control::Emg(e) => {
+                    emg = e;
+                    emg_view = None;
                 }
                 // Simulator settings go straight to the source thread.
                 Control::Synth(_) => {}
@@ -515,6 +530,8 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     next_sample: block.first_sample,
                 });
                 beat_state = BeatState::new(block.fs_hz, follow.min(block.channels - 1));
+                // A new stream (rate, channels): the renderer starts again at its rate.
+                sound = None;
             }
             let Some(r) = state.as_mut() else { continue };
             if block.first_sample > r.next_sample {
@@ -597,6 +614,39 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
             if let Some(bs) = beat_state.as_mut() {
                 bs.process(&uv, &rails, r.channels, r);
             }
+            // Sound: the beats just decided, then the followed channel's filtered block.
+            if sound.is_none()
+                && let Some(f) = &sound_feed
+            {
+                // Beats count from the readout's start; the sound joins there.
+                let frames = (uv.len() / r.channels) as u64;
+                let from = beat_state
+                    .as_ref()
+                    .map_or(0, |b| b.readout.samples().saturating_sub(frames));
+                sound = Some((
+                    crate::sound::Renderer::joining(r.fs, f.rate_hz, f.settings, from),
+                    f.tx.clone(),
+                ));
+            }
+            if let Some((renderer, tx)) = sound.as_mut() {
+                if let Some(bs) = beat_state.as_ref() {
+                    let unreliable = matches!(
+                        bs.readout.shown(),
+                        crate::analysis::rate::RateState::Unreliable(_)
+                    );
+                    for b in &bs.found {
+                        renderer.beat(b.decided, unreliable);
+                    }
+                }
+                let ch = follow.min(r.channels - 1);
+                let own: Vec<f64> = filt.iter().skip(ch).step_by(r.channels).copied().collect();
+                audio.clear();
+                renderer.push(&own, &mut audio);
+                if let Some(tx) = tx {
+                    // A full queue: the card fell behind; this block is dropped.
+                    let _ = tx.try_send(std::mem::take(&mut audio));
+                }
+            }
             if let Some(tx) = &ports.record_tx {
                 let rec = RecordBlock {
                     first_sample: block.first_sample,
@@ -646,6 +696,17 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 }
             }
             let Some(r) = state.as_ref() else { continue };
+            // The EMG view, four times a second, over the newest 20 s of the followed channel.
+            if let Some(es) = &emg
+                && (emg_view.is_none() || now.duration_since(emg_at) >= Duration::from_millis(250))
+            {
+                let ch = follow.min(r.channels - 1);
+                let mut raw = Vec::new();
+                r.raw[ch].tail_into((20.0 * r.fs) as usize, &mut raw);
+                let t_end = r.next_sample as f64 / r.fs;
+                emg_view = Some(Arc::new(crate::analysis::emg::view(&raw, r.fs, t_end, es)));
+                emg_at = now;
+            }
             let newest_age_ms = newest_pending
                 .take()
                 .map_or(0.0, |t| now.duration_since(t).as_secs_f64() * 1e3);
@@ -655,6 +716,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     .as_ref()
                     .and_then(|b| b.readout.quality().scale_check()),
                 measured: measured.clone(),
+                emg: emg_view.clone(),
                 inverted: invert,
                 latency_ms: newest_age_ms,
                 ..snapshot(
@@ -709,6 +771,7 @@ fn snapshot(
         source_done: done,
         spectrum: spectrum.clone(),
         beats: None,
+        emg: None,
         scale_check: None,
         measured: None,
         inverted: false,

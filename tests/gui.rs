@@ -498,3 +498,77 @@ fn the_measure_view_measures_the_live_stream() {
     }
     assert!(h.query_by_label_contains("segments of").is_some());
 }
+
+#[test]
+fn emg_mode_sets_the_muscle_chain_and_shows_the_contractions() {
+    // The simulator as a muscle at 1 kHz: contractions at 2–4 s and 7–9 s.
+    let mut settings = Settings::default();
+    settings.synth.fs_hz = 1000.0;
+    settings.synth.muscle = Some(leadline::source::muscle::MuscleSettings::default());
+    let app = LeadlineApp::new(
+        settings,
+        Arc::new(|| {}),
+        AppOptions::default(),
+        Arc::new(Mutex::new(Ok(()))),
+    )
+    .unwrap();
+    let mut h = harness(app);
+    h.run_steps(3);
+    let ecg_chain = h.state().settings().chain;
+    h.get_by_label("EMG").click();
+    h.run_steps(2);
+    let c = h.state().settings().chain;
+    assert!(h.state().settings().emg_mode);
+    assert_eq!((c.highpass.corner_hz, c.lowpass.corner_hz), (20.0, 450.0));
+    assert!(c.notch.enabled);
+    // The DSP thread runs the EMG chain and finds the first contraction (2–4 s).
+    run_until(&mut h, "EMG chain applied", |a| {
+        a.view()
+            .snapshot
+            .as_ref()
+            .is_some_and(|s| s.chain.highpass.corner_hz == 20.0)
+    });
+    run_until(&mut h, "a contraction in the EMG view", |a| {
+        a.view()
+            .snapshot
+            .as_ref()
+            .and_then(|s| s.emg.as_ref())
+            .is_some_and(|v| v.bursts.iter().any(|b| b.off_s > b.on_s + 1.5))
+    });
+    let snap = h.state().view().snapshot.clone().unwrap();
+    let b = snap.emg.as_ref().unwrap().bursts[0];
+    assert!((b.on_s - 2.0).abs() < 0.1, "{b:?}");
+    assert!(h.query_by_label_contains("µV RMS").is_some());
+    // Back to ECG: the chain from before returns.
+    h.get_by_label("ECG").click();
+    h.run_steps(2);
+    assert_eq!(h.state().settings().chain, ecg_chain);
+    assert!(!h.state().settings().emg_mode);
+}
+
+#[test]
+fn sound_without_a_sound_card_says_so_and_the_monitor_runs_on() {
+    // Tall enough for the side panel's Sound section to be on screen.
+    let mut h = harness_sized(app(), [1280.0, 2400.0]);
+    h.run_steps(3);
+    h.get_by_label("Sound").click();
+    h.run_steps(2);
+    h.get_by_label("Tone on each beat").click();
+    h.run_steps(3);
+    let frames = h
+        .state()
+        .view()
+        .snapshot
+        .as_ref()
+        .map_or(0, |s| s.stats.frames);
+    // This machine may or may not have a card: either it plays, or it says there is none.
+    let said = h.query_by_label_contains("no sound device").is_some()
+        || h.query_by_label_contains("sound card at").is_some();
+    assert!(said, "the Sound section must say where the sound goes");
+    run_until(&mut h, "frames keep arriving", |a| {
+        a.view()
+            .snapshot
+            .as_ref()
+            .is_some_and(|s| s.stats.frames > frames + 500)
+    });
+}

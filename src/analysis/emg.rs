@@ -476,6 +476,76 @@ pub fn analyse(x: &[f64], fs: f64, s: &EmgSettings) -> Result<EmgAnalysis, EmgEr
     })
 }
 
+/// The EMG analysis of the followed channel over the newest stretch (up to 20 s).
+#[derive(Debug, Clone, PartialEq)]
+pub struct EmgView {
+    /// Time of the first point, s since the stream started, and the spacing of the points, s.
+    pub t0_s: f64,
+    pub dt_s: f64,
+    /// Linear envelope and moving RMS, µV, reduced to about 2000 points.
+    pub envelope: Vec<f32>,
+    pub rms: Vec<f32>,
+    /// Contractions, with times since the stream started.
+    pub bursts: Vec<Burst>,
+    /// Onset threshold on the detector's signal, µV.
+    pub threshold_uv: f64,
+    /// (contraction midpoint s, median Hz), and the fitted change, %.
+    pub trend: Vec<(f64, f64)>,
+    pub trend_change_pct: Option<f64>,
+    /// Why there is no analysis (too short, a setting), if so.
+    pub error: Option<String>,
+}
+
+/// The monitor's EMG view of the newest `raw` samples (µV) ending at stream time `t_end_s`.
+pub fn view(raw: &[f64], fs: f64, t_end_s: f64, s: &EmgSettings) -> EmgView {
+    let t0 = t_end_s - raw.len() as f64 / fs;
+    let empty = |e: String| EmgView {
+        t0_s: t0,
+        dt_s: 1.0 / fs,
+        envelope: Vec::new(),
+        rms: Vec::new(),
+        bursts: Vec::new(),
+        threshold_uv: 0.0,
+        trend: Vec::new(),
+        trend_change_pct: None,
+        error: Some(e),
+    };
+    if raw.len() < (2.0 * fs) as usize {
+        return empty("EMG view: waiting for 2 s of signal".into());
+    }
+    match analyse(raw, fs, s) {
+        Ok(an) => {
+            let step = (raw.len() / 2000).max(1);
+            let reduce = |v: &[f64]| -> Vec<f32> {
+                v.chunks(step)
+                    .map(|c| c.iter().copied().fold(f64::MIN, f64::max) as f32)
+                    .collect()
+            };
+            let shift = |b: &Burst| Burst {
+                on_s: b.on_s + t0,
+                off_s: b.off_s + t0,
+                ..*b
+            };
+            EmgView {
+                t0_s: t0,
+                dt_s: step as f64 / fs,
+                envelope: reduce(&an.envelope),
+                rms: reduce(&an.rms),
+                bursts: an.bursts.iter().map(shift).collect(),
+                threshold_uv: an.threshold_uv,
+                trend: an
+                    .median_hz_trend
+                    .as_ref()
+                    .map(|t| t.points.iter().map(|p| (p.0 + t0, p.1)).collect())
+                    .unwrap_or_default(),
+                trend_change_pct: an.median_hz_trend.as_ref().map(|t| t.change_pct),
+                error: None,
+            }
+        }
+        Err(e) => empty(e.to_string()),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -968,6 +968,10 @@ pub struct MonitorArgs {
     /// per frame, latency, CPU and memory; the last line is JSON.
     #[arg(long, value_name = "SECONDS")]
     pub bench: Option<f64>,
+    /// With --bench: the beat tone and the signal's sound on (rendered and discarded when
+    /// there is no sound card), to measure what sound costs.
+    #[arg(long, requires = "bench")]
+    pub bench_sound: bool,
     /// Start with the traces frozen (with --bench: the idle cost).
     #[arg(long)]
     pub paused: bool,
@@ -994,6 +998,8 @@ pub enum StartView {
     Parts,
     /// Measuring the built front end.
     Measure,
+    /// Surface EMG (switches the monitor to EMG: the 20–450 Hz chain and the EMG view).
+    Emg,
     /// Traces only.
     Traces,
     /// Measurement preset: simulator at 1 kHz, 1 channel, 10 s window, spectrum strip.

@@ -33,6 +33,8 @@ pub struct AppOptions {
     pub bench_view: String,
     /// Where the bench report goes.
     pub bench_report: Arc<Mutex<Option<super::bench::BenchReport>>>,
+    /// Sound on during the bench (rendered and discarded without a card).
+    pub bench_sound: bool,
 }
 
 type Shot = Arc<Mutex<Option<Arc<egui::ColorImage>>>>;
@@ -57,6 +59,7 @@ pub struct LeadlineApp {
     front_end: panels::front_end::FrontEndPanel,
     net: panels::network::NetPicker,
     measure: panels::measure::MeasureView,
+    sound: panels::sound::SoundPanel,
     /// Why the last source did not start (a port in use, say).
     source_error: Option<String>,
     file_path: String,
@@ -128,6 +131,20 @@ impl LeadlineApp {
             .bench_s
             .map(|s| super::bench::BenchRun::new(s, &opts.bench_view, paused));
         let file_path = settings_file_path(&settings);
+        if settings.emg_mode {
+            let notch = settings.chain.notch;
+            pipeline.control(Control::Emg(Some(crate::analysis::emg::EmgSettings {
+                notch_hz: notch.enabled.then_some(notch.mains_hz),
+                ..Default::default()
+            })));
+        }
+        let mut sound = panels::sound::SoundPanel::default();
+        if opts.bench_sound {
+            sound.discard = true;
+            sound.settings.tone = true;
+            sound.settings.signal = true;
+            pipeline.control(sound.control());
+        }
         Ok(Self {
             settings,
             view: View::default(),
@@ -147,6 +164,7 @@ impl LeadlineApp {
             front_end: Default::default(),
             net: Default::default(),
             measure: Default::default(),
+            sound,
             source_error: None,
             file_path,
             parts: Default::default(),
@@ -160,6 +178,34 @@ impl LeadlineApp {
             help_open: false,
             app_ms: (0.0, None),
         })
+    }
+
+    /// Switches between heart (ECG) and muscle (EMG) signals: the chain preset, the view and
+    /// the EMG analysis in the DSP thread.
+    pub fn set_emg_mode(&mut self, on: bool, fs: f64) {
+        self.settings.emg_mode = on;
+        if on {
+            if self.settings.ecg_chain.is_none() {
+                self.settings.ecg_chain = Some(self.settings.chain);
+            }
+            self.settings.chain = super::state::emg_chain(&self.settings.chain, fs);
+            self.settings.lower = LowerView::Muscle;
+            let notch = self.settings.chain.notch;
+            self.pending
+                .push(Control::Emg(Some(crate::analysis::emg::EmgSettings {
+                    notch_hz: notch.enabled.then_some(notch.mains_hz),
+                    ..Default::default()
+                })));
+        } else {
+            if let Some(c) = self.settings.ecg_chain.take() {
+                self.settings.chain = c;
+            }
+            if self.settings.lower == LowerView::Muscle {
+                self.settings.lower = LowerView::Beats;
+            }
+            self.pending.push(Control::Emg(None));
+        }
+        self.pending.push(Control::Chain(self.settings.chain));
     }
 
     /// Current settings (tests read them).
@@ -662,10 +708,18 @@ impl LeadlineApp {
                     }
                 }
                 let beats = self.view.snapshot.as_ref().and_then(|s| s.beats.as_ref());
+                let emg = self.view.snapshot.as_ref().and_then(|s| s.emg.as_deref());
+                let emg_mode = self.settings.emg_mode;
                 ui.allocate_ui_with_layout(
                     egui::vec2(ui.available_width(), 44.0),
                     egui::Layout::right_to_left(egui::Align::Center),
-                    |ui| panels::beats::rate_readout(ui, beats),
+                    |ui| {
+                        if emg_mode {
+                            panels::muscle::readout(ui, emg);
+                        } else {
+                            panels::beats::rate_readout(ui, beats);
+                        }
+                    },
                 );
             });
         });
@@ -841,6 +895,13 @@ impl LeadlineApp {
                                 self.pending.push(c);
                             }
                         });
+                    egui::CollapsingHeader::new(egui::RichText::new("Sound").heading())
+                        .default_open(false)
+                        .show(ui, |ui| {
+                            if let Some(c) = panels::sound::show(ui, &mut self.sound) {
+                                self.pending.push(c);
+                            }
+                        });
                     egui::CollapsingHeader::new(egui::RichText::new("Recording").heading())
                         .default_open(true)
                         .show(ui, |ui| {
@@ -892,6 +953,15 @@ impl LeadlineApp {
                 }
             });
             ui.horizontal(|ui| {
+                let was = self.settings.emg_mode;
+                ui.selectable_value(&mut self.settings.emg_mode, false, "ECG")
+                    .on_hover_text("Heart signals: the ECG chain, beats and heart rate.");
+                ui.selectable_value(&mut self.settings.emg_mode, true, "EMG")
+                    .on_hover_text("Muscle signals: a 20–450 Hz band-pass with the mains notch, the envelope, contractions and the median-frequency trend. Use 1 kHz or more.");
+                if was != self.settings.emg_mode {
+                    self.set_emg_mode(self.settings.emg_mode, fs);
+                }
+                ui.separator();
                 ui.selectable_value(&mut self.settings.lower, LowerView::Beats, "Beats")
                     .on_hover_text("The averaged beat before and after the chain, HRV and the RR tachogram.");
                 ui.selectable_value(&mut self.settings.lower, LowerView::Spectrum, "Spectrum")
@@ -904,6 +974,10 @@ impl LeadlineApp {
                     .on_hover_text("The chain built from standard parts: resistors from an E series, your capacitors, the tolerance spread.");
                 ui.selectable_value(&mut self.settings.lower, LowerView::Measure, "Measure")
                     .on_hover_text("Measure the built front end on the live stream: response from a stimulus channel, a stepped sine, noise, CMRR.");
+                if self.settings.emg_mode {
+                    ui.selectable_value(&mut self.settings.lower, LowerView::Muscle, "Muscle")
+                        .on_hover_text("Envelope, moving RMS and contractions of the followed channel, with each contraction's median frequency.");
+                }
                 ui.selectable_value(&mut self.settings.lower, LowerView::Hidden, "Traces only")
                     .on_hover_text("Hide the lower strip: the traces take the whole height.");
             });
@@ -942,6 +1016,10 @@ impl LeadlineApp {
                     ) {
                         self.pending.push(c);
                     }
+                }
+                LowerView::Muscle => {
+                    let v = self.view.snapshot.as_ref().and_then(|s| s.emg.as_deref());
+                    panels::muscle::show(ui, v, fs);
                 }
                 LowerView::Hidden => {}
             }

@@ -97,6 +97,7 @@ pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
             crate::cli::StartView::Response => state::LowerView::Response,
             crate::cli::StartView::Parts => state::LowerView::Parts,
             crate::cli::StartView::Measure => state::LowerView::Measure,
+            crate::cli::StartView::Emg => state::LowerView::Muscle,
             crate::cli::StartView::Traces => state::LowerView::Hidden,
             crate::cli::StartView::Default | crate::cli::StartView::Heavy => {
                 state::LowerView::Spectrum
@@ -115,6 +116,17 @@ pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
             settings.window_s = if heavy { 30.0 } else { 10.0 };
             settings.display_hz = 30.0;
             settings.synth.validate()?;
+        }
+        if v == crate::cli::StartView::Emg {
+            // The simulator becomes a contracting muscle (at 1 kHz unless told otherwise).
+            if settings.serial.is_none() && settings.file.is_none() && settings.net.is_none() {
+                settings.synth.muscle = Some(crate::source::muscle::MuscleSettings::default());
+                settings.synth.fs_hz = args.fs.unwrap_or(1000.0);
+                settings.synth.validate()?;
+            }
+            settings.emg_mode = true;
+            settings.ecg_chain = Some(settings.chain);
+            settings.chain = state::emg_chain(&settings.chain, settings.synth.fs_hz);
         }
     }
     Ok(settings)
@@ -147,8 +159,9 @@ pub fn run(args: &MonitorArgs) -> Result<()> {
             Some(crate::cli::StartView::Heavy) => "heavy".into(),
             Some(crate::cli::StartView::Default) | None => "default".into(),
             Some(other) => format!("{other:?}").to_lowercase(),
-        },
+        } + if args.bench_sound { "+sound" } else { "" },
         bench_report: Arc::default(),
+        bench_sound: args.bench_sound,
     };
     if let Some(b) = args.bench
         && !(b.is_finite() && b > 0.0)

@@ -22,6 +22,8 @@ pub enum LowerView {
     Parts,
     /// Measuring the built front end: response, stepped sine, noise, CMRR.
     Measure,
+    /// Surface EMG: envelope, moving RMS, contractions, median-frequency trend.
+    Muscle,
     /// Nothing: the traces take the whole height.
     Hidden,
 }
@@ -35,6 +37,7 @@ impl LowerView {
             LowerView::Response => "response",
             LowerView::Parts => "parts",
             LowerView::Measure => "measure",
+            LowerView::Muscle => "emg",
             LowerView::Hidden => "traces",
         }
     }
@@ -46,6 +49,7 @@ impl LowerView {
             "response" => LowerView::Response,
             "parts" => LowerView::Parts,
             "measure" => LowerView::Measure,
+            "emg" => LowerView::Muscle,
             "traces" => LowerView::Hidden,
             _ => LowerView::Spectrum,
         }
@@ -104,6 +108,22 @@ pub struct Settings {
     pub lower: LowerView,
     /// Anti-aliased lines (costly with software OpenGL).
     pub smooth_lines: bool,
+    /// Muscle signals (EMG) instead of the heart's: the 20–450 Hz chain and the EMG view.
+    pub emg_mode: bool,
+    /// The chain in force before EMG mode, restored when it ends.
+    pub ecg_chain: Option<ChainSettings>,
+}
+
+/// The EMG preset: 20–450 Hz band-pass (2nd-order Butterworth each side; SENIAM, Hermens et
+/// al. 2000, see `analysis::emg`) with the mains notch of `current` kept on, harmonics too. The
+/// upper corner is held under 0.45·fs.
+pub fn emg_chain(current: &ChainSettings, fs: f64) -> ChainSettings {
+    let mut c = ChainSettings::band(Some((20.0, 2)), Some((450.0f64.min(0.45 * fs), 2)));
+    c.notch = current.notch;
+    c.notch.enabled = true;
+    // Mains harmonics fall inside the EMG band: notch the first three of them too.
+    c.notch.harmonics = c.notch.harmonics.max(3);
+    c
 }
 
 impl Default for Settings {
@@ -124,6 +144,8 @@ impl Default for Settings {
             fixed_range_uv: 0.0,
             sweep: false,
             lower: LowerView::Spectrum,
+            emg_mode: false,
+            ecg_chain: None,
             smooth_lines: false,
         }
     }
@@ -163,6 +185,8 @@ impl Settings {
             sweep: s.view.sweep,
             lower: LowerView::from_name(&s.view.lower),
             smooth_lines: s.view.smooth_lines,
+            emg_mode: false,
+            ecg_chain: None,
         })
     }
 

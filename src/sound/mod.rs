@@ -103,6 +103,19 @@ impl Renderer {
         }
     }
 
+    /// A renderer joining a stream whose first `consumed` samples went by unheard (sound
+    /// switched on mid-stream): beat indices count from the stream's start.
+    pub fn joining(in_fs: f64, out_fs: f64, settings: SoundSettings, consumed: u64) -> Self {
+        let mut r = Self::new(in_fs, out_fs, settings);
+        r.consumed = consumed;
+        r.produced = if consumed == 0 {
+            0
+        } else {
+            ((consumed - 1) as f64 * out_fs / in_fs).floor() as u64 + 1
+        };
+        r
+    }
+
     /// New settings from the next sample.
     pub fn set(&mut self, settings: SoundSettings) {
         self.settings = settings.clamped();

@@ -32,7 +32,7 @@ pub fn show(ui: &mut egui::Ui, chain: &mut ChainSettings, fs_hz: f64) -> bool {
         .on_hover_text("Removes baseline wander and electrode drift below the corner.");
     ui.add_enabled_ui(chain.highpass.enabled, |ui| {
         ui.add(
-            egui::Slider::new(&mut chain.highpass.corner_hz, 0.05..=5.0)
+            egui::Slider::new(&mut chain.highpass.corner_hz, 0.05..=50.0)
                 .logarithmic(true)
                 .text("High-pass corner")
                 .suffix(" Hz")

@@ -95,6 +95,31 @@ pub fn show(ui: &mut egui::Ui, s: &mut SynthSettings) -> Changed {
         .response
         .on_hover_text("The monitor standards' irregular-rhythm cases, made by the simulator: the readout should show the rate in brackets (±10 % or ±5 bpm).");
     ui.separator();
+    let mut muscle = s.muscle.is_some();
+    ui.checkbox(&mut muscle, "Muscle under the electrodes (EMG)")
+        .on_hover_text("Surface-EMG-like contractions (2 s on, 3 s off) with a little of the heart's signal: switch the monitor to EMG to analyse them. Use 1 kHz or more.");
+    if muscle != s.muscle.is_some() {
+        s.muscle = muscle.then(crate::source::muscle::MuscleSettings::default);
+    }
+    if let Some(m) = s.muscle.as_mut() {
+        ui.add(
+            egui::Slider::new(&mut m.force_pct, 0.0..=100.0)
+                .text("Force")
+                .suffix(" % of max")
+                .max_decimals(0),
+        )
+        .on_hover_text("Contraction force: the contraction's RMS is this share of 600 µV.");
+        ui.add(
+            egui::Slider::new(&mut m.fatigue_pct, 0.0..=10.0)
+                .text("Fatigue")
+                .suffix(" % per contraction")
+                .max_decimals(1),
+        )
+        .on_hover_text(
+            "Each contraction's spectrum lower than the last: the median frequency falls.",
+        );
+    }
+    ui.separator();
     let mut restart = false;
     egui::ComboBox::from_label("Sample rate")
         .selected_text(format!("{} Hz", s.fs_hz))
