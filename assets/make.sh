@@ -17,6 +17,7 @@ shot spectrum 12 --view spectrum
 shot beats 20 --view beats
 shot response 6 --view response
 shot parts 6 --view parts
+shot emg 14 --view emg
 printf '[view]\ntheme = "light"\nlower = "beats"\n[synth]\nchannels = 3\n' > "$cfg/light.toml"
 shot light 20 --config "$cfg/light.toml"
 python3 assets/board_stream.py 40 "$cfg/pty" &

@@ -223,6 +223,8 @@ pub enum Control {
     Sound(Option<SoundFeed>),
     /// EMG view on (its settings) or off.
     Emg(Option<crate::analysis::emg::EmgSettings>),
+    /// A mark in the EMG view (rest, maximum contraction, clear).
+    EmgMark(crate::analysis::emg::Mark),
 }
 
 /// What the DSP thread needs to make sound.

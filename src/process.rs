@@ -385,6 +385,7 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
     let mut emg: Option<crate::analysis::emg::EmgSettings> = None;
     let mut emg_view: Option<Arc<crate::analysis::emg::EmgView>> = None;
     let mut emg_at = Instant::now();
+    let mut emg_error: Option<String> = None;
     let mut audio: Vec<f32> = Vec::new();
 
     loop {
@@ -454,8 +455,30 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                     sound_feed = feed;
                 }
                 Control::Emg(e) => {
-                    emg = e;
+                    // The marks made so far stay unless the new settings bring their own.
+                    let keep = emg.map(|o| (o.baseline_uv, o.mvc_rms_uv));
+                    emg = e.map(|mut n| {
+                        if let Some((b, m)) = keep {
+                            n.baseline_uv = n.baseline_uv.or(b);
+                            n.mvc_rms_uv = n.mvc_rms_uv.or(m);
+                        }
+                        n
+                    });
                     emg_view = None;
+                }
+                Control::EmgMark(m) => {
+                    if let (Some(es), Some(r)) = (emg.as_mut(), state.as_ref()) {
+                        let ch = follow.min(r.channels - 1);
+                        let mut raw = Vec::new();
+                        r.raw[ch].tail_into((20.0 * r.fs) as usize, &mut raw);
+                        let result = crate::analysis::emg::mark(&raw, r.fs, es, m);
+                        emg_view = None;
+                        if let Err(e) = result {
+                            emg_error = Some(e.to_string());
+                        } else {
+                            emg_error = None;
+                        }
+                    }
                 }
                 // Simulator settings go straight to the source thread.
                 Control::Synth(_) => {}
@@ -704,7 +727,9 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
                 let mut raw = Vec::new();
                 r.raw[ch].tail_into((20.0 * r.fs) as usize, &mut raw);
                 let t_end = r.next_sample as f64 / r.fs;
-                emg_view = Some(Arc::new(crate::analysis::emg::view(&raw, r.fs, t_end, es)));
+                let mut v = crate::analysis::emg::view(&raw, r.fs, t_end, es);
+                v.note = emg_error.clone();
+                emg_view = Some(Arc::new(v));
                 emg_at = now;
             }
             let newest_age_ms = newest_pending

@@ -539,6 +539,16 @@ fn emg_mode_sets_the_muscle_chain_and_shows_the_contractions() {
     let b = snap.emg.as_ref().unwrap().bursts[0];
     assert!((b.on_s - 2.0).abs() < 0.1, "{b:?}");
     assert!(h.query_by_label_contains("µV RMS").is_some());
+    // The newest contraction marked as the maximum: it reads 100 % MVC.
+    h.get_by_label("Newest contraction = maximum").click();
+    run_until(&mut h, "% MVC in the EMG view", |a| {
+        a.view()
+            .snapshot
+            .as_ref()
+            .and_then(|s| s.emg.as_ref())
+            .and_then(|v| v.bursts.first().and_then(|b| b.pct_mvc))
+            .is_some_and(|p| (p - 100.0).abs() < 1.0)
+    });
     // Back to ECG: the chain from before returns.
     h.get_by_label("ECG").click();
     h.run_steps(2);

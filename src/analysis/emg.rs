@@ -46,6 +46,11 @@ pub struct EmgSettings {
     pub baseline_s: Option<(f64, f64)>,
     /// The maximum voluntary contraction, s (start, end), for %MVC.
     pub mvc_s: Option<(f64, f64)>,
+    /// A resting baseline measured before, (mean, SD) of the detector's signal, µV: used
+    /// instead of `baseline_s` (the monitor keeps the rest the user marked this way).
+    pub baseline_uv: Option<(f64, f64)>,
+    /// A maximum contraction's RMS measured before, µV: used instead of `mvc_s`.
+    pub mvc_rms_uv: Option<f64>,
 }
 
 impl Default for EmgSettings {
@@ -61,6 +66,8 @@ impl Default for EmgSettings {
             min_off_ms: 50.0,
             baseline_s: None,
             mvc_s: None,
+            baseline_uv: None,
+            mvc_rms_uv: None,
         }
     }
 }
@@ -365,8 +372,14 @@ pub fn analyse(x: &[f64], fs: f64, s: &EmgSettings) -> Result<EmgAnalysis, EmgEr
         None => quietest(&det, fs.round() as usize),
     };
     let base = &det[b0..b1];
-    let mean = base.iter().sum::<f64>() / base.len() as f64;
-    let sd = (base.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / base.len() as f64).sqrt();
+    let (mean, sd) = match s.baseline_uv {
+        Some(b) if s.baseline_s.is_none() => b,
+        _ => {
+            let m = base.iter().sum::<f64>() / base.len() as f64;
+            let v = base.iter().map(|v| (v - m).powi(2)).sum::<f64>() / base.len() as f64;
+            (m, v.sqrt())
+        }
+    };
     let thr = mean + s.k_sd * sd;
     let ms = |m: f64| ((m * 1e-3 * fs).round() as usize).max(1);
     let mvc_rms = match s.mvc_s {
@@ -375,7 +388,7 @@ pub fn analyse(x: &[f64], fs: f64, s: &EmgSettings) -> Result<EmgAnalysis, EmgEr
             let seg = &filtered[a..b];
             Some((seg.iter().map(|v| v * v).sum::<f64>() / seg.len() as f64).sqrt())
         }
-        None => None,
+        None => s.mvc_rms_uv,
     };
     // The threshold crossing lags the start of activity by the rise through k·SD: the onset is
     // taken back (at most 50 ms) to where the detector last sat within 1 SD of the baseline
@@ -494,6 +507,52 @@ pub struct EmgView {
     pub trend_change_pct: Option<f64>,
     /// Why there is no analysis (too short, a setting), if so.
     pub error: Option<String>,
+    /// The settings it was made with (marks included).
+    pub settings: EmgSettings,
+    /// A message about the last mark (e.g. no contraction to take as the maximum).
+    pub note: Option<String>,
+}
+
+/// What the user marks in the monitor's EMG view.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Mark {
+    /// The newest second is rest: its level becomes the baseline.
+    Rest,
+    /// The newest contraction is the maximum: its RMS becomes 100 % MVC.
+    Mvc,
+    /// Back to the quietest second and no MVC.
+    Clear,
+}
+
+/// Applies a mark to the settings from the newest `raw` samples (µV).
+///
+/// # Errors
+/// Too little signal, or (MVC) no contraction in it, as one line.
+pub fn mark(raw: &[f64], fs: f64, s: &mut EmgSettings, m: Mark) -> Result<(), EmgError> {
+    match m {
+        Mark::Clear => {
+            s.baseline_uv = None;
+            s.mvc_rms_uv = None;
+        }
+        Mark::Rest => {
+            let end = raw.len() as f64 / fs;
+            let probe = EmgSettings {
+                baseline_s: Some(((end - 1.0).max(0.0), end)),
+                baseline_uv: None,
+                ..*s
+            };
+            let an = analyse(raw, fs, &probe)?;
+            s.baseline_uv = Some((an.baseline_mean_uv, an.baseline_sd_uv));
+        }
+        Mark::Mvc => {
+            let an = analyse(raw, fs, s)?;
+            let b = an.bursts.last().ok_or_else(|| {
+                EmgError::TooShort("no contraction in view to take as the maximum".into())
+            })?;
+            s.mvc_rms_uv = Some(b.rms_uv);
+        }
+    }
+    Ok(())
 }
 
 /// The monitor's EMG view of the newest `raw` samples (µV) ending at stream time `t_end_s`.
@@ -509,6 +568,8 @@ pub fn view(raw: &[f64], fs: f64, t_end_s: f64, s: &EmgSettings) -> EmgView {
         trend: Vec::new(),
         trend_change_pct: None,
         error: Some(e),
+        settings: *s,
+        note: None,
     };
     if raw.len() < (2.0 * fs) as usize {
         return empty("EMG view: waiting for 2 s of signal".into());
@@ -540,6 +601,8 @@ pub fn view(raw: &[f64], fs: f64, t_end_s: f64, s: &EmgSettings) -> EmgView {
                     .unwrap_or_default(),
                 trend_change_pct: an.median_hz_trend.as_ref().map(|t| t.change_pct),
                 error: None,
+                settings: *s,
+                note: None,
             }
         }
         Err(e) => empty(e.to_string()),

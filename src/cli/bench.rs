@@ -407,6 +407,63 @@ fn measure() -> Result<MeasureFigures> {
     })
 }
 
+#[derive(Debug, Serialize)]
+struct SoundFigures {
+    stream_s: f64,
+    render_ms: f64,
+    core_pct: f64,
+    emg_view_ms: f64,
+}
+
+fn sound() -> Result<SoundFigures> {
+    let fs = 1000.0;
+    let seconds = 60.0;
+    let s = crate::source::SynthSettings {
+        fs_hz: fs,
+        muscle: Some(crate::source::muscle::MuscleSettings::default()),
+        ..Default::default()
+    };
+    let mut synth = crate::source::Synth::new(s)?;
+    let scale = synth.scale();
+    let mut c = Vec::new();
+    synth.fill((seconds * fs) as usize, &mut c);
+    let x: Vec<f64> = c.iter().map(|&v| scale.counts_to_uv(v)).collect();
+    let settings = crate::sound::SoundSettings {
+        tone: true,
+        signal: true,
+        ..Default::default()
+    };
+    let mut best = f64::INFINITY;
+    let mut audio = Vec::new();
+    for _ in 0..3 {
+        let mut r = crate::sound::Renderer::new(fs, 48_000.0, settings);
+        let t0 = Instant::now();
+        for (k, block) in x.chunks(10).enumerate() {
+            // A beat every 0.8 s, as at 75 bpm.
+            if k % 80 == 0 {
+                r.beat((k * 10) as u64, false);
+            }
+            audio.clear();
+            r.push(block, &mut audio);
+        }
+        best = best.min(t0.elapsed().as_secs_f64() * 1e3);
+    }
+    let tail = &x[x.len() - (20.0 * fs) as usize..];
+    let mut emg_best = f64::INFINITY;
+    for _ in 0..3 {
+        let t0 = Instant::now();
+        let v = crate::analysis::emg::view(tail, fs, seconds, &Default::default());
+        emg_best = emg_best.min(t0.elapsed().as_secs_f64() * 1e3);
+        std::hint::black_box(v);
+    }
+    Ok(SoundFigures {
+        stream_s: seconds,
+        render_ms: best,
+        core_pct: 100.0 * best / (seconds * 1e3),
+        emg_view_ms: emg_best,
+    })
+}
+
 /// Runs the command.
 ///
 /// # Errors
@@ -466,6 +523,19 @@ pub fn run(a: &BenchArgs) -> Result<()> {
             println!(
                 "UDP datagrams decoded and reordered: {:.0} frames/s of 8 channels = {:.0} × the heaviest stream (8 × 4 kHz)",
                 f.frames_per_s, f.times_heaviest
+            );
+            println!("{}", serde_json::to_string(&f)?);
+        }
+        BenchWhat::Sound => {
+            let f = sound()?;
+            println!(
+                "sound for 60 s of a 1 kHz stream (tone on every beat and the signal, 48 kHz): {:.1} ms = {:.3} % of a core",
+                f.render_ms, f.core_pct
+            );
+            println!(
+                "EMG view of 20 s at 1 kHz: {:.2} ms an update (4 a second: {:.2} % of a core)",
+                f.emg_view_ms,
+                f.emg_view_ms * 4.0 / 10.0
             );
             println!("{}", serde_json::to_string(&f)?);
         }

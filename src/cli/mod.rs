@@ -724,6 +724,9 @@ pub enum BenchWhat {
     Net,
     /// `measure response` on a 60 s two-channel 1 kHz recording (the analysis, in process).
     Measure,
+    /// Sound: the renderer (beat tone and signal, 48 kHz) on 60 s of a 1 kHz stream in 10 ms
+    /// blocks, as the DSP thread runs it; and the EMG view of 20 s at 1 kHz.
+    Sound,
 }
 
 /// Options of `leadline bench`.

@@ -60,6 +60,7 @@ pub struct LeadlineApp {
     net: panels::network::NetPicker,
     measure: panels::measure::MeasureView,
     sound: panels::sound::SoundPanel,
+    emg: crate::analysis::emg::EmgSettings,
     /// Why the last source did not start (a port in use, say).
     source_error: Option<String>,
     file_path: String,
@@ -131,12 +132,11 @@ impl LeadlineApp {
             .bench_s
             .map(|s| super::bench::BenchRun::new(s, &opts.bench_view, paused));
         let file_path = settings_file_path(&settings);
+        let mut emg = crate::analysis::emg::EmgSettings::default();
         if settings.emg_mode {
             let notch = settings.chain.notch;
-            pipeline.control(Control::Emg(Some(crate::analysis::emg::EmgSettings {
-                notch_hz: notch.enabled.then_some(notch.mains_hz),
-                ..Default::default()
-            })));
+            emg.notch_hz = notch.enabled.then_some(notch.mains_hz);
+            pipeline.control(Control::Emg(Some(emg)));
         }
         let mut sound = panels::sound::SoundPanel::default();
         if opts.bench_sound {
@@ -165,6 +165,7 @@ impl LeadlineApp {
             net: Default::default(),
             measure: Default::default(),
             sound,
+            emg,
             source_error: None,
             file_path,
             parts: Default::default(),
@@ -1018,8 +1019,12 @@ impl LeadlineApp {
                     }
                 }
                 LowerView::Muscle => {
-                    let v = self.view.snapshot.as_ref().and_then(|s| s.emg.as_deref());
-                    panels::muscle::show(ui, v, fs);
+                    let snap = self.view.snapshot.as_ref();
+                    let v = snap.and_then(|s| s.emg.as_deref());
+                    let trace = snap.and_then(|s| s.traces.get(self.settings.channel.min(s.traces.len().saturating_sub(1)))).map(|t| &t.filtered);
+                    if let Some(c) = panels::muscle::show(ui, v, trace, &mut self.emg, fs) {
+                        self.pending.push(c);
+                    }
                 }
                 LowerView::Hidden => {}
             }

@@ -6,7 +6,8 @@ use eframe::egui;
 use egui_plot::{HLine, Legend, Line, Plot, PlotPoints, Points, Polygon};
 
 use super::trace::{FILTERED_COLOUR, RAW_COLOUR};
-use crate::analysis::emg::EmgView;
+use crate::analysis::emg::{EmgSettings, EmgView, Mark};
+use crate::msg::{Columns, Control};
 
 /// Contraction shading: a translucent violet of the project's palette.
 const BURST_FILL: egui::Color32 = egui::Color32::from_rgba_premultiplied(70, 40, 90, 60);
@@ -41,8 +42,81 @@ pub fn readout(ui: &mut egui::Ui, view: Option<&EmgView>) {
     });
 }
 
-/// Draws the view. `fs`: the stream's rate (a rate under 1 kHz is advised against).
-pub fn show(ui: &mut egui::Ui, view: Option<&EmgView>, fs: f64) {
+/// The analysis settings and the marks: returns the control to send when something changed.
+fn controls(ui: &mut egui::Ui, s: &mut EmgSettings, view: Option<&EmgView>) -> Option<Control> {
+    let before = *s;
+    let mut out = None;
+    ui.horizontal(|ui| {
+        ui.add(
+            egui::Slider::new(&mut s.envelope_hz, 2.0..=10.0)
+                .text("envelope low-pass, Hz")
+                .max_decimals(1),
+        )
+        .on_hover_text("Linear envelope: full-wave rectified, then this low-pass (zero phase).");
+        ui.add(
+            egui::Slider::new(&mut s.rms_ms, 50.0..=250.0)
+                .text("RMS window, ms")
+                .max_decimals(0),
+        );
+        ui.add(
+            egui::Slider::new(&mut s.k_sd, 1.0..=8.0)
+                .text("threshold, SD")
+                .max_decimals(1),
+        )
+        .on_hover_text(
+            "Onset threshold: the resting baseline's mean + this many standard deviations.",
+        );
+    });
+    ui.horizontal(|ui| {
+        let marked = view.map(|v| v.settings);
+        if ui
+            .button("Rest now")
+            .on_hover_text("The newest second is rest: its level becomes the baseline for the threshold (by default the quietest second in view).")
+            .clicked()
+        {
+            out = Some(Control::EmgMark(Mark::Rest));
+        }
+        if ui
+            .button("Newest contraction = maximum")
+            .on_hover_text("Its RMS becomes 100 % MVC; every contraction is then also given as % MVC.")
+            .clicked()
+        {
+            out = Some(Control::EmgMark(Mark::Mvc));
+        }
+        if marked.is_some_and(|m| m.baseline_uv.is_some() || m.mvc_rms_uv.is_some())
+            && ui.button("Clear marks").clicked()
+        {
+            out = Some(Control::EmgMark(Mark::Clear));
+        }
+        if let Some(m) = marked {
+            let rest = m.baseline_uv.map_or("baseline: quietest second".to_string(), |b| {
+                format!("baseline marked: {:.1} ± {:.1} µV", b.0, b.1)
+            });
+            let mvc = m
+                .mvc_rms_uv
+                .map_or(String::new(), |r| format!(" · MVC {r:.0} µV RMS"));
+            ui.weak(rest + &mvc);
+        }
+    });
+    if let Some(n) = view.and_then(|v| v.note.as_ref()) {
+        ui.colored_label(egui::Color32::from_rgb(230, 170, 70), n);
+    }
+    if *s != before {
+        out = Some(Control::Emg(Some(*s)));
+    }
+    out
+}
+
+/// Draws the view. `fs`: the stream's rate (a rate under 1 kHz is advised against); `trace`:
+/// the followed channel after the chain. Returns a control when a setting or a mark changed.
+pub fn show(
+    ui: &mut egui::Ui,
+    view: Option<&EmgView>,
+    trace: Option<&Columns>,
+    settings: &mut EmgSettings,
+    fs: f64,
+) -> Option<Control> {
+    let control = controls(ui, settings, view);
     if fs > 0.0 && fs < 1000.0 {
         ui.colored_label(
             egui::Color32::from_rgb(230, 170, 70),
@@ -51,22 +125,23 @@ pub fn show(ui: &mut egui::Ui, view: Option<&EmgView>, fs: f64) {
     }
     let Some(v) = view else {
         ui.label("Waiting for the EMG analysis…");
-        return;
+        return control;
     };
     if let Some(e) = &v.error {
         ui.label(e);
-        return;
+        return control;
     }
     let last = v.bursts.last();
     ui.label(match last {
         Some(b) => format!(
-            "{} contractions in view · newest {:.2} s long, RMS {:.0} µV, peak {:.0} µV, mean {} Hz, median {} Hz{}",
+            "{} contractions in view · newest {:.2} s long, RMS {:.0} µV, peak {:.0} µV, mean {} Hz, median {} Hz{}{}",
             v.bursts.len(),
             b.off_s - b.on_s,
             b.rms_uv,
             b.peak_uv,
             b.mean_hz.map_or("—".into(), |f| format!("{f:.0}")),
             b.median_hz.map_or("—".into(), |f| format!("{f:.0}")),
+            b.pct_mvc.map_or(String::new(), |p| format!(", {p:.0} % MVC")),
             v.trend_change_pct
                 .map_or(String::new(), |c| format!(" · median frequency trend {c:+.1} %"))
         ),
@@ -82,6 +157,24 @@ pub fn show(ui: &mut egui::Ui, view: Option<&EmgView>, fs: f64) {
                 .collect()
         };
         let top = v.rms.iter().copied().fold(0.0f32, f32::max).max(1.0) as f64;
+        // The rectified signal itself, faint, behind: the largest |value| of each display column.
+        let signal: Vec<[f64; 2]> = trace
+            .map(|c| {
+                c.min
+                    .iter()
+                    .zip(&c.max)
+                    .enumerate()
+                    .map(|(i, (lo, hi))| {
+                        [
+                            c.t0_s + (i as f64 + 0.5) * c.dt_s,
+                            f64::from(lo.abs().max(hi.abs())),
+                        ]
+                    })
+                    .filter(|p| p[0] >= v.t0_s)
+                    .collect()
+            })
+            .unwrap_or_default();
+        let t_end = v.t0_s + v.rms.len() as f64 * v.dt_s;
         Plot::new("emg-envelope")
             .width(0.68 * width)
             .height(height)
@@ -108,6 +201,13 @@ pub fn show(ui: &mut egui::Ui, view: Option<&EmgView>, fs: f64) {
                         .stroke(egui::Stroke::NONE),
                     );
                 }
+                pu.line(
+                    Line::new("|signal| after the filters", PlotPoints::new(signal))
+                        .color(egui::Color32::from_rgba_unmultiplied(0, 168, 150, 45)),
+                );
+                // Scaled to the RMS: the signal's peaks may leave the top.
+                pu.set_plot_bounds_y(-0.05 * top..=1.6 * top);
+                pu.set_plot_bounds_x(v.t0_s..=t_end);
                 pu.line(Line::new("moving RMS", PlotPoints::new(pts(&v.rms))).color(RAW_COLOUR));
                 pu.line(
                     Line::new("linear envelope", PlotPoints::new(pts(&v.envelope)))
@@ -138,4 +238,5 @@ pub fn show(ui: &mut egui::Ui, view: Option<&EmgView>, fs: f64) {
                 pu.line(Line::new("", PlotPoints::new(trend)).color(TREND_COLOUR));
             });
     });
+    control
 }
