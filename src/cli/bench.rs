@@ -78,15 +78,28 @@ fn best_of<F: FnMut(&mut [f64])>(runs: usize, input: &[f64], mut f: F) -> f64 {
         .fold(f64::INFINITY, f64::min)
 }
 
+/// Figures of the functions the product runs: `leadline filter` (causal: `filter_settled`,
+/// zero-phase: `zero_phase`), the DSP thread (`process_interleaved` on its blocks), the
+/// detector's band-pass (`process_channel` in blocks of 64), and for comparison the same chain
+/// sample by sample and a hand-written direct-form loop.
 #[derive(Serialize)]
 struct DspFigures {
     samples: usize,
     sections: usize,
     fs_hz: f64,
-    samples_per_s: f64,
+    /// `leadline filter` causal, one pass over the whole signal.
+    filter_samples_per_s: f64,
+    /// `leadline filter --zero-phase`: forward and backward with edge padding (input samples/s).
+    zero_phase_samples_per_s: f64,
+    /// The DSP thread, 1 channel at 1 kHz in 10 ms blocks (10 frames: frame by frame).
+    live_1ch_samples_per_s: f64,
+    /// The DSP thread, 8 channels at 2 kHz in 10 ms blocks (20 frames × 8: the kernel).
+    live_8ch_samples_per_s: f64,
+    /// The detector's band-pass: one channel in blocks of 64.
     block64_samples_per_s: f64,
+    /// The same chain sample by sample (the biquad crate's sections, no kernel).
+    per_sample_samples_per_s: f64,
     direct_loop_samples_per_s: f64,
-    chain_vs_direct: f64,
 }
 
 fn dsp(samples: usize) -> Result<DspFigures> {
@@ -94,15 +107,39 @@ fn dsp(samples: usize) -> Result<DspFigures> {
     let settings = bench_chain();
     let sections = settings.design(fs)?;
     let input = bench_signal(samples, fs);
-    let one_pass = best_of(3, &input, |buf| {
-        let mut chain =
-            Chain::new(settings, fs, 1).unwrap_or_else(|_| unreachable!("designed above"));
-        chain.process_channel(0, buf);
+    let filter = best_of(3, &input, |buf| {
+        crate::dsp::chain::filter_settled(&sections, buf);
     });
+    let zero_phase = best_of(3, &input, |buf| {
+        black_box(crate::dsp::chain::zero_phase(&sections, buf).unwrap_or_default());
+    });
+    let live = |channels: usize, frames: usize| {
+        let inter: Vec<f64> = input
+            .iter()
+            .take(samples / channels * channels)
+            .copied()
+            .collect();
+        best_of(3, &inter, |buf| {
+            let mut chain = Chain::new(settings, fs, channels)
+                .unwrap_or_else(|_| unreachable!("designed above"));
+            for b in buf.chunks_mut(frames * channels) {
+                chain.process_interleaved(b);
+            }
+        })
+    };
+    let live1 = live(1, 10);
+    let live8 = live(8, 20);
     let blocks = best_of(3, &input, |buf| {
         let mut chain =
             Chain::new(settings, fs, 1).unwrap_or_else(|_| unreachable!("designed above"));
         for b in buf.chunks_mut(64) {
+            chain.process_channel(0, b);
+        }
+    });
+    let per_sample = best_of(3, &input, |buf| {
+        let mut chain =
+            Chain::new(settings, fs, 1).unwrap_or_else(|_| unreachable!("designed above"));
+        for b in buf.chunks_mut(1) {
             chain.process_channel(0, b);
         }
     });
@@ -112,10 +149,13 @@ fn dsp(samples: usize) -> Result<DspFigures> {
         samples,
         sections: sections.len(),
         fs_hz: fs,
-        samples_per_s: n / one_pass,
+        filter_samples_per_s: n / filter,
+        zero_phase_samples_per_s: n / zero_phase,
+        live_1ch_samples_per_s: n / live1,
+        live_8ch_samples_per_s: (samples / 8 * 8) as f64 / live8,
         block64_samples_per_s: n / blocks,
+        per_sample_samples_per_s: n / per_sample,
         direct_loop_samples_per_s: n / direct,
-        chain_vs_direct: direct / one_pass,
     })
 }
 
@@ -473,21 +513,33 @@ pub fn run(a: &BenchArgs) -> Result<()> {
         BenchWhat::Dsp => {
             let f = dsp(a.samples)?;
             println!(
-                "chain of {} sections at {} Hz over {} samples:",
+                "chain of {} sections at {} Hz over {} samples (M samples/s):",
                 f.sections, f.fs_hz, f.samples
             );
-            println!(
-                "  one pass          {:8.1} M samples/s",
-                f.samples_per_s / 1e6
-            );
-            println!(
-                "  blocks of 64      {:8.1} M samples/s",
-                f.block64_samples_per_s / 1e6
-            );
-            println!(
-                "  hand-written loop {:8.1} M samples/s",
-                f.direct_loop_samples_per_s / 1e6
-            );
+            let rows = [
+                (
+                    "leadline filter, causal (filter_settled)",
+                    f.filter_samples_per_s,
+                ),
+                (
+                    "leadline filter --zero-phase (zero_phase)",
+                    f.zero_phase_samples_per_s,
+                ),
+                (
+                    "DSP thread, 1 ch, 10-frame blocks",
+                    f.live_1ch_samples_per_s,
+                ),
+                (
+                    "DSP thread, 8 ch, 20-frame blocks",
+                    f.live_8ch_samples_per_s,
+                ),
+                ("detector band-pass, blocks of 64", f.block64_samples_per_s),
+                ("sample by sample, no kernel", f.per_sample_samples_per_s),
+                ("hand-written direct-form loop", f.direct_loop_samples_per_s),
+            ];
+            for (what, v) in rows {
+                println!("  {what:<44} {:8.1}", v / 1e6);
+            }
             println!("{}", serde_json::to_string(&f)?);
         }
         BenchWhat::Beats => {

@@ -432,9 +432,14 @@ pub struct Chain {
     settings: ChainSettings,
     design: Vec<Section>,
     channels: Vec<Cascade>,
+    /// One channel's samples, gathered from an interleaved block.
+    scratch: Vec<f64>,
 }
 
 impl Chain {
+    /// Interleaved blocks of at least this many frames take the block kernel.
+    pub const KERNEL_FRAMES: usize = 16;
+
     /// A chain for `channels` channels at `fs_hz`.
     ///
     /// # Errors
@@ -446,6 +451,7 @@ impl Chain {
             settings,
             channels: (0..channels).map(|_| Cascade::new(&design, 0.0)).collect(),
             design,
+            scratch: Vec::new(),
         })
     }
 
@@ -503,17 +509,41 @@ impl Chain {
         }
     }
 
-    /// Filters one interleaved frame-major block in place.
+    /// Filters one interleaved frame-major block in place (the DSP thread's call). A block of
+    /// at least [`Self::KERNEL_FRAMES`] frames goes channel by channel through the block kernel
+    /// (bit-identical to sample by sample); a shorter one frame by frame, where the kernel's
+    /// fill and drain and the gathering of a channel cost more than they save (`leadline bench
+    /// dsp` measures both).
     pub fn process_interleaved(&mut self, data: &mut [f64]) {
         let n = self.channels.len();
         if n == 0 {
             return;
         }
-        for frame in data.chunks_exact_mut(n) {
-            for (x, c) in frame.iter_mut().zip(&mut self.channels) {
-                *x = c.run(*x);
+        let frames = data.len() / n;
+        if frames < Self::KERNEL_FRAMES {
+            for frame in data.chunks_exact_mut(n) {
+                for (x, c) in frame.iter_mut().zip(&mut self.channels) {
+                    *x = c.run(*x);
+                }
+            }
+            return;
+        }
+        if n == 1 {
+            self.channels[0].process_block(data);
+            return;
+        }
+        let mut lane = std::mem::take(&mut self.scratch);
+        lane.resize(frames, 0.0);
+        for (k, c) in self.channels.iter_mut().enumerate() {
+            for (v, frame) in lane.iter_mut().zip(data.chunks_exact(n)) {
+                *v = frame[k];
+            }
+            c.process_block(&mut lane);
+            for (v, frame) in lane.iter().zip(data.chunks_exact_mut(n)) {
+                frame[k] = *v;
             }
         }
+        self.scratch = lane;
     }
 }
 
@@ -525,23 +555,20 @@ pub struct TooShort {
     pub padlen: usize,
 }
 
-/// Filters `x` in place with a fresh cascade (zero initial state), one pass.
+/// Filters `x` in place with a fresh cascade (zero initial state), one pass, on the block
+/// kernels.
 pub fn filter_once(sections: &[Section], x: &mut [f64]) {
     let mut c = Cascade::new(sections, 0.0);
     c.sections.iter_mut().for_each(|s| s.reset_state());
-    for v in x {
-        *v = c.run(*v);
-    }
+    c.process_block(x);
 }
 
 /// Filters `x` in place, one pass, starting in the steady state of its first sample, so a DC
-/// offset in a recording does not ring through the high-pass at the start.
+/// offset in a recording does not ring through the high-pass at the start. Runs on the block
+/// kernels (`leadline filter`).
 pub fn filter_settled(sections: &[Section], x: &mut [f64]) {
     let Some(&first) = x.first() else { return };
-    let mut c = Cascade::new(sections, first);
-    for v in x {
-        *v = c.run(*v);
-    }
+    Cascade::new(sections, first).process_block(x);
 }
 
 /// Edge padding used by [`zero_phase`]: 3 × (2·sections + 1 − trailing zero taps), as
@@ -568,15 +595,9 @@ pub fn zero_phase(sections: &[Section], x: &[f64]) -> Result<Vec<f64>, TooShort>
     ext.extend((1..=padlen).rev().map(|i| 2.0 * x[0] - x[i]));
     ext.extend_from_slice(x);
     ext.extend((1..=padlen).map(|i| 2.0 * x[n - 1] - x[n - 1 - i]));
-    let mut forward = Cascade::new(sections, ext[0]);
-    for v in ext.iter_mut() {
-        *v = forward.run(*v);
-    }
+    Cascade::new(sections, ext[0]).process_block(&mut ext);
     ext.reverse();
-    let mut backward = Cascade::new(sections, ext[0]);
-    for v in ext.iter_mut() {
-        *v = backward.run(*v);
-    }
+    Cascade::new(sections, ext[0]).process_block(&mut ext);
     ext.reverse();
     Ok(ext[padlen..padlen + n].to_vec())
 }
@@ -639,14 +660,22 @@ mod tests {
                     sections.len()
                 );
             }
-            // Interleaved channels: each channel as if alone.
-            let mut chain = Chain::new(settings, fs, 3).unwrap();
-            let mut inter: Vec<f64> = x.iter().flat_map(|&v| [v, -v, 0.5 * v]).collect();
-            for chunk in inter.chunks_mut(3 * 50) {
-                chain.process_interleaved(chunk);
+            // Interleaved channels: each channel as if alone, in blocks that take the block
+            // kernel (50 frames) and blocks that go frame by frame (5 frames).
+            for frames in [50, 5, Chain::KERNEL_FRAMES] {
+                let mut chain = Chain::new(settings, fs, 3).unwrap();
+                let mut inter: Vec<f64> = x.iter().flat_map(|&v| [v, -v, 0.5 * v]).collect();
+                for chunk in inter.chunks_mut(3 * frames) {
+                    chain.process_interleaved(chunk);
+                }
+                let ch0: Vec<f64> = inter.iter().step_by(3).copied().collect();
+                assert_eq!(ch0, reference, "interleaved, {frames} frames a block");
+                let ch1: Vec<f64> = inter.iter().skip(1).step_by(3).map(|v| -v).collect();
+                assert_eq!(
+                    ch1, reference,
+                    "interleaved channel 2, {frames} frames a block"
+                );
             }
-            let ch0: Vec<f64> = inter.iter().step_by(3).copied().collect();
-            assert_eq!(ch0, reference, "interleaved");
         }
     }
 

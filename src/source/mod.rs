@@ -1,7 +1,7 @@
 //! Where samples come from. Each source is a thread body that pushes [`crate::msg::RawBlock`]s.
 //!
 //! - [`synth`]: the built-in simulator (default), with [`ecg_model`] for the sinus waveform and
-//!   [`rhythm`] for the standards' irregular-rhythm cases.
+//!   [`rhythm`] for the standards' irregular-rhythm cases, [`muscle`] for surface EMG.
 //! - [`serial`]: a board on a serial port; [`net`]: a Wi-Fi board over UDP or TCP;
 //!   [`replay`]: a recording streamed as a device. [`framing`]: what the board sources share.
 
