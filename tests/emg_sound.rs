@@ -8,6 +8,25 @@ use leadline::dsp::chain::zero_phase;
 use leadline::source::muscle::MuscleSettings;
 use leadline::source::{Synth, SynthSettings};
 
+/// Runs the leadline binary and returns its output, failing the test with its stderr unless it
+/// succeeded.
+fn leadline_ok<I, S>(args: I) -> std::process::Output
+where
+    I: IntoIterator<Item = S>,
+    S: AsRef<std::ffi::OsStr>,
+{
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_leadline"))
+        .args(args)
+        .output()
+        .unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    out
+}
+
 fn fixture() -> serde_json::Value {
     let text = std::fs::read_to_string(concat!(
         env!("CARGO_MANIFEST_DIR"),
@@ -212,35 +231,29 @@ fn the_emg_command_writes_the_envelope_and_the_report() {
     let dir = std::env::temp_dir().join(format!("leadline-emg-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let input = dir.join("emg.csv");
-    let bin = env!("CARGO_BIN_EXE_leadline");
-    let ok = std::process::Command::new(bin)
-        .args([
-            "simulate",
-            "--fs",
-            "1000",
-            "--seconds",
-            "12",
-            "--muscle",
-            "--out",
-        ])
-        .arg(&input)
-        .status()
-        .unwrap();
-    assert!(ok.success());
-    let out = std::process::Command::new(bin)
-        .args(["emg", "--notch", "50", "--input"])
-        .arg(&input)
-        .arg("--out")
-        .arg(dir.join("env.csv"))
-        .arg("--report")
-        .arg(dir.join("emg.json"))
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    let p = |f: &str| dir.join(f).to_string_lossy().into_owned();
+    let input_s = p("emg.csv");
+    leadline_ok([
+        "simulate",
+        "--fs",
+        "1000",
+        "--seconds",
+        "12",
+        "--muscle",
+        "--out",
+        &input_s,
+    ]);
+    leadline_ok([
+        "emg",
+        "--notch",
+        "50",
+        "--input",
+        &input_s,
+        "--out",
+        &p("env.csv"),
+        "--report",
+        &p("emg.json"),
+    ]);
     let csv = std::fs::read_to_string(dir.join("env.csv")).unwrap();
     assert!(csv.starts_with("time_s,envelope_uv,rms_uv\n"));
     assert_eq!(csv.lines().count(), 12_001);
@@ -260,7 +273,7 @@ fn the_emg_command_writes_the_envelope_and_the_report() {
     );
     assert!(r["median_hz_trend"].is_object());
     // A bad setting is one line and exit 2.
-    let bad = std::process::Command::new(bin)
+    let bad = std::process::Command::new(env!("CARGO_BIN_EXE_leadline"))
         .args(["emg", "--envelope-hz", "30", "--input"])
         .arg(&input)
         .arg("--out")
@@ -322,19 +335,10 @@ fn each_tone_starts_within_10_ms_of_its_beat_and_none_sound_while_unreliable() {
     }
     let input = dir.join("ecg.csv");
     std::fs::write(&input, csv).unwrap();
-    let bin = env!("CARGO_BIN_EXE_leadline");
     let run = |args: &[&str]| {
-        let out = std::process::Command::new(bin)
-            .args(args)
-            .arg("--input")
-            .arg(&input)
-            .output()
-            .unwrap();
-        assert!(
-            out.status.success(),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
-        );
+        let mut all: Vec<std::ffi::OsString> = args.iter().map(Into::into).collect();
+        all.extend(["--input".into(), input.clone().into_os_string()]);
+        leadline_ok(all);
     };
     let p = |f: &str| dir.join(f).to_string_lossy().into_owned();
     run(&[
@@ -402,34 +406,21 @@ fn each_tone_starts_within_10_ms_of_its_beat_and_none_sound_while_unreliable() {
 fn the_signal_is_rendered_at_the_output_rate_under_the_limiter() {
     let dir = std::env::temp_dir().join(format!("leadline-signal-{}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
-    let input = dir.join("ecg.csv");
-    let bin = env!("CARGO_BIN_EXE_leadline");
-    let ok = std::process::Command::new(bin)
-        .args(["simulate", "--seconds", "5", "--out"])
-        .arg(&input)
-        .status()
-        .unwrap();
-    assert!(ok.success());
-    let out = std::process::Command::new(bin)
-        .args([
-            "sound",
-            "--signal",
-            "--signal-gain",
-            "50",
-            "--rate",
-            "44100",
-            "--input",
-        ])
-        .arg(&input)
-        .arg("--out")
-        .arg(dir.join("s.wav"))
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
+    let p = |f: &str| dir.join(f).to_string_lossy().into_owned();
+    let input = p("ecg.csv");
+    leadline_ok(["simulate", "--seconds", "5", "--out", &input]);
+    leadline_ok([
+        "sound",
+        "--signal",
+        "--signal-gain",
+        "50",
+        "--rate",
+        "44100",
+        "--input",
+        &input,
+        "--out",
+        &p("s.wav"),
+    ]);
     let (rate, audio) =
         leadline::sound::wav::read(&std::fs::read(dir.join("s.wav")).unwrap()).unwrap();
     assert_eq!(rate, 44_100);

@@ -363,7 +363,7 @@ fn record_exits_1_when_nothing_arrived() {
 
 #[test]
 fn the_caution_is_in_the_help_of_every_command_that_meets_a_person() {
-    for cmd in ["monitor", "record", "simulate"] {
+    for cmd in ["monitor", "record", "simulate", "measure", "emg", "sound"] {
         let o = leadline(&[cmd, "--help"]);
         let text = String::from_utf8_lossy(&o.stdout);
         assert!(
