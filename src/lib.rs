@@ -36,6 +36,7 @@
 
 pub mod analog;
 pub mod analysis;
+pub mod chan;
 pub mod cli;
 pub mod conform;
 pub mod dsp;

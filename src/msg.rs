@@ -169,6 +169,9 @@ pub struct Snapshot {
     pub traces: Vec<ChannelTrace>,
     /// The chain the DSP thread is running now.
     pub chain: ChainSettings,
+    /// Its sections at the stream's rate, in processing order: the views draw the chain that
+    /// runs instead of designing it again.
+    pub sections: Arc<[crate::dsp::Section]>,
     /// Why the last requested chain was refused, if it was.
     pub chain_error: Option<String>,
     /// Input scale in force on the followed channel (None for sources that deliver µV).

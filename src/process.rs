@@ -6,12 +6,13 @@ use std::sync::Arc;
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant};
 
-use crossbeam_channel::{Receiver, RecvTimeoutError, Sender, TrySendError};
+use crossbeam_channel::{Receiver, RecvTimeoutError, Sender};
 
 use crate::analysis::beats::Beat;
 use crate::analysis::mains;
 use crate::analysis::readout::{RateSample, Readout};
 use crate::analysis::template::TemplateBuilder;
+use crate::chan::send_blocking;
 use crate::dsp::chain::{Chain, ChainSettings};
 use crate::dsp::spectrum::{Psd, Welch, segment_for};
 use crate::msg::{
@@ -19,7 +20,6 @@ use crate::msg::{
     SpectrumFrame, Stats,
 };
 use crate::scale::{self, FrontEnd, InputScale};
-use crate::source::run::send_blocking;
 
 /// About one column per pixel of a wide trace; the GUI never draws more points than this.
 pub const TARGET_COLUMNS: usize = 1200;
@@ -395,10 +395,14 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
         while let Ok(c) = ports.control_rx.try_recv() {
             match c {
                 Control::Chain(s) => {
-                    chain = s;
+                    // A chain that cannot be built is refused: the last good one keeps running
+                    // (and is the one a new stream starts with), and the error is shown.
                     match state.as_mut().map(|r| r.chain.retune(s)) {
                         Some(Err(e)) => chain_error = Some(e.to_string()),
-                        _ => chain_error = None,
+                        _ => {
+                            chain = s;
+                            chain_error = None;
+                        }
                     }
                 }
                 Control::Window(w) => {
@@ -790,6 +794,7 @@ fn snapshot(
             })
             .collect(),
         chain: *r.chain.settings(),
+        sections: r.chain.sections().into(),
         chain_error: chain_error.clone(),
         scale,
         stats: stats.clone(),
@@ -807,20 +812,10 @@ fn snapshot(
 /// Display path policy: never wait for the GUI; when it has not taken the previous snapshot,
 /// drop that one (counted) and offer the new one.
 fn offer(ports: &DspPorts, snap: Snapshot, stats: &mut Stats) {
-    let mut snap = snap;
-    loop {
-        match ports.snapshot_tx.try_send(snap) {
-            Ok(()) => return,
-            Err(TrySendError::Full(back)) => {
-                if ports.snapshot_drain.try_recv().is_ok() {
-                    stats.snapshots_dropped += 1;
-                }
-                snap = back;
-                snap.stats.snapshots_dropped = stats.snapshots_dropped;
-            }
-            Err(TrySendError::Disconnected(_)) => return,
-        }
-    }
+    crate::chan::offer_newest(&ports.snapshot_tx, &ports.snapshot_drain, snap, |s| {
+        stats.snapshots_dropped += 1;
+        s.stats.snapshots_dropped = stats.snapshots_dropped;
+    });
 }
 
 #[cfg(test)]

@@ -97,6 +97,8 @@ fn a_chain_sent_while_running_is_applied_and_a_bad_one_reported() {
                     s.chain.lowpass.corner_hz, 25.0,
                     "the good chain keeps running"
                 );
+                // The snapshot carries the sections that run: the good chain's.
+                assert_eq!(&*s.sections, &chain.design(s.fs_hz).unwrap()[..]);
                 return;
             }
         }

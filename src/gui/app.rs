@@ -989,7 +989,8 @@ impl LeadlineApp {
                 }
                 LowerView::Spectrum => {
                     let frame = self.view.snapshot.as_ref().and_then(|s| s.spectrum.as_ref());
-                    let sections = self.settings.chain.design(fs).ok();
+                    // The sections the DSP thread runs (no design per frame).
+                    let sections = self.view.snapshot.as_ref().map(|s| Arc::clone(&s.sections));
                     if let Some(c) = panels::spectrum::show(ui, frame, sections.as_deref(), &mut self.spectrum) {
                         self.pending.push(c);
                     }
@@ -1003,8 +1004,8 @@ impl LeadlineApp {
                 }
                 LowerView::Measure => {
                     self.parts.update(&self.settings.chain, fs);
-                    let sections = self.settings.chain.design(fs).ok();
                     let snap = self.view.snapshot.as_ref();
+                    let sections = snap.map(|s| Arc::clone(&s.sections));
                     let n = snap.map_or(1, |s| s.traces.len());
                     if let Some(c) = panels::measure::show(
                         ui,

@@ -19,8 +19,8 @@ use std::time::{Duration, Instant};
 use crossbeam_channel::Sender;
 
 use super::framing::{Blocker, Decoding};
-use super::run::send_blocking;
 use super::serial::{SerialStatus, StreamEnd, read_stream};
+use crate::chan::send_blocking;
 use crate::msg::RawBlock;
 use crate::scale::InputScale;
 use crate::wire::reorder::{Reorder, ReorderStats};

@@ -10,7 +10,7 @@ use std::time::{Duration, Instant};
 
 use crossbeam_channel::{Receiver, Sender};
 
-use super::run::send_blocking;
+use crate::chan::send_blocking;
 use crate::msg::{RawBlock, SampleUnit};
 use crate::store::{self, ReadOptions};
 

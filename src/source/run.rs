@@ -3,7 +3,9 @@
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant};
 
-use crossbeam_channel::{Receiver, SendTimeoutError, Sender};
+use crossbeam_channel::{Receiver, Sender};
+
+use crate::chan::send_blocking;
 
 use super::synth::{Synth, SynthSettings};
 use crate::msg::{RawBlock, SampleUnit};
@@ -179,23 +181,8 @@ pub enum Pacing {
 /// Blocks are 10 ms of samples: small enough for a responsive display, large enough to keep
 /// per-block overhead negligible.
 const BLOCK_S: f64 = 0.010;
-/// Longest the thread waits before looking at the stop flag again.
+/// Longest the simulator sleeps before looking at the stop flag again.
 const POLL: Duration = Duration::from_millis(20);
-
-/// Sends `block` downstream, waiting while the DSP side is busy (this path never drops).
-/// Returns false when the pipeline is stopping or the receiver is gone.
-pub fn send_blocking<T>(tx: &Sender<T>, mut item: T, stop: &AtomicBool) -> bool {
-    loop {
-        if stop.load(Ordering::Relaxed) {
-            return false;
-        }
-        match tx.send_timeout(item, POLL) {
-            Ok(()) => return true,
-            Err(SendTimeoutError::Timeout(back)) => item = back,
-            Err(SendTimeoutError::Disconnected(_)) => return false,
-        }
-    }
-}
 
 /// Runs the simulator until `stop` is set, the receiver hangs up, or `limit_frames` frames have
 /// been produced. New settings arriving on `settings_rx` apply from the next block.

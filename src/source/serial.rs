@@ -15,7 +15,7 @@ use std::time::{Duration, Instant};
 use crossbeam_channel::Sender;
 
 use super::framing::{Blocker, Decoding};
-use super::run::send_blocking;
+use crate::chan::send_blocking;
 use crate::msg::RawBlock;
 use crate::scale::InputScale;
 use crate::wire::{Format, Frame, WireStats};
