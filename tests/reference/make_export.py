@@ -1,5 +1,5 @@
 #!/usr/bin/env python3
-"""Reference fixture for the exported C filters (tests/export_c.rs), made with scipy.signal.
+"""Reference fixture for the exported C filters (tests/it/export_c.rs), made with scipy.signal.
 
 Writes export.json: the chain 0.5 Hz Butterworth high-pass (order 2) + 50 Hz notch (Q 30, iirnotch)
 + 40 Hz Butterworth low-pass (order 4) at 1000 Hz as scipy sos rows, a deterministic test input

@@ -4,7 +4,7 @@
 Writes filters.json: for a grid of Butterworth orders 1-8, corners 0.05 Hz .. 0.45 fs and sample
 rates 125-4000 Hz, scipy.signal.butter(..., output='sos') sections, sosfreqz responses, and sosfilt /
 sosfiltfilt outputs of a deterministic test signal; scipy.signal.iirnotch coefficients and responses.
-The test signal is defined in test_signal() and re-implemented bit for bit in tests/dsp_reference.rs.
+The test signal is defined in test_signal() and re-implemented bit for bit in tests/it/dsp_reference.rs.
 
 Run:  python3 tests/reference/make_filters.py [OUT_DIR]     (scipy and numpy versions: requirements.txt)
 """

@@ -1,7 +1,7 @@
 #!/usr/bin/env python3
 """Reference fixture for `leadline measure response`, made with scipy.signal.
 
-White noise (the LCG below, re-implemented bit for bit in tests/measure.rs) through a known
+White noise (the LCG below, re-implemented bit for bit in tests/it/measure.rs) through a known
 front end (scipy.signal.butter high-pass 1 Hz order 2 and low-pass 40 Hz order 4, gain 100) at
 1 kHz for 120 s; scipy.signal.csd / welch / coherence with nperseg 16384 and their defaults
 (periodic Hann, 50 % overlap, detrend constant, one-sided density) give H1 = Pxy/Pxx and the

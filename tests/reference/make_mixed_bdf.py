@@ -1,5 +1,5 @@
 """Writes a BDF+ file whose signals have different rates (1000, 800, 500, 975 and 999 Hz, and
-units µV, mV and %) with pyedflib, and what pyedflib reads back from it, for tests/cli.rs.
+units µV, mV and %) with pyedflib, and what pyedflib reads back from it, for tests/it/cli.rs.
 
 Reference library: pyedflib (EDFlib by Teunis van Beelen, https://pypi.org/project/pyEDFlib/).
 The signals are invented (sines and ramps), not a recording.

@@ -3,7 +3,7 @@
 Hann, 50 % overlap, detrend='constant', scaling='density', one-sided).
 
 Writes spectrum.json: the PSD of a deterministic test signal (the LCG noise and sines of
-test_signal(), re-implemented in tests/spectrum.rs) for segment lengths 256, 1024, 4096 and 16384.
+test_signal(), re-implemented in tests/it/spectrum.rs) for segment lengths 256, 1024, 4096 and 16384.
 
 Run:  python3 tests/reference/make_spectrum.py [OUT_DIR]
 """

@@ -1,6 +1,6 @@
 """Reads an EDF/EDF+/BDF file with general-purpose readers and prints what they see as JSON.
 
-Used by tests/record.rs to check leadline's files against outside readers:
+Used by tests/it/record.rs to check leadline's files against outside readers:
 - pyedflib (EDFlib by Teunis van Beelen, https://pypi.org/project/pyEDFlib/)
 - edfio (https://pypi.org/project/edfio/)
 

@@ -3,19 +3,13 @@
 #![allow(clippy::unwrap_used)]
 
 use std::path::PathBuf;
-use std::process::Command;
 
 fn leadline(args: &[&str]) -> std::process::Output {
-    Command::new(env!("CARGO_BIN_EXE_leadline"))
-        .args(args)
-        .output()
-        .unwrap()
+    crate::common::leadline(args)
 }
 
 fn tmp(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("leadline-cli-{}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
-    d.join(name)
+    crate::common::tmp("cli", name)
 }
 
 #[test]

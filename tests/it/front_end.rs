@@ -18,9 +18,7 @@ fn leadline(args: &[&str]) -> std::process::Output {
 }
 
 fn tmp(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("leadline-fe-{}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
-    d.join(name)
+    crate::common::tmp("fe", name)
 }
 
 fn stderr(o: &std::process::Output) -> String {
@@ -167,7 +165,7 @@ fn notch_auto_finds_60_hz_and_takes_30_db_off_the_line() {
     assert!(said.contains("mains measured at 60.0"), "{said}");
     assert!(said.contains("notch 60.0"), "{said}");
     // Power of the 60 Hz line: the PSD summed over ±0.5 Hz around it (Welch, our spectrum
-    // command; its agreement with scipy.signal.welch is checked in tests/spectrum.rs).
+    // command; its agreement with scipy.signal.welch is checked in tests/it/spectrum.rs).
     let line = |file: &PathBuf| {
         let psd = tmp("line-psd.csv");
         let o = leadline(&[

@@ -14,9 +14,7 @@ use leadline::store::edf::{self, EdfKind};
 use leadline::store::{self, Event, ReadOptions, Recording};
 
 fn tmp(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("leadline-record-{}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
-    d.join(name)
+    crate::common::tmp("record", name)
 }
 
 /// The CI venv's Python (tests/reference/check.sh makes it), if present.

@@ -112,9 +112,7 @@ fn space_freezes_and_the_freeze_button_resumes() {
 }
 
 fn tmp(name: &str) -> std::path::PathBuf {
-    let d = std::env::temp_dir().join(format!("leadline-gui-{}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
-    d.join(name)
+    crate::common::tmp("gui", name)
 }
 
 fn run_until(h: &mut Harness<'static, LeadlineApp>, what: &str, f: impl Fn(&LeadlineApp) -> bool) {

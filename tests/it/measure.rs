@@ -110,7 +110,7 @@ fn white_noise_through_a_known_front_end_matches_scipy_and_the_truth() {
 fn ten_sine_steps_give_each_gain_within_a_tenth_of_a_db() {
     // A generator stepped by hand through ten frequencies, 3 s each, 1000 µV peak, into the
     // front end; each gain against the design's |H| (dsp::response, checked against
-    // scipy.signal.sosfreqz in tests/dsp_reference.rs).
+    // scipy.signal.sosfreqz in tests/it/dsp_reference.rs).
     let fs = 1000.0;
     let chain = ChainSettings {
         highpass: HighPass {

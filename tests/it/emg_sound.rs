@@ -8,24 +8,7 @@ use leadline::dsp::chain::zero_phase;
 use leadline::source::muscle::MuscleSettings;
 use leadline::source::{Synth, SynthSettings};
 
-/// Runs the leadline binary and returns its output, failing the test with its stderr unless it
-/// succeeded.
-fn leadline_ok<I, S>(args: I) -> std::process::Output
-where
-    I: IntoIterator<Item = S>,
-    S: AsRef<std::ffi::OsStr>,
-{
-    let out = std::process::Command::new(env!("CARGO_BIN_EXE_leadline"))
-        .args(args)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    out
-}
+use crate::common::leadline_ok;
 
 fn fixture() -> serde_json::Value {
     let text = std::fs::read_to_string(concat!(

@@ -1,0 +1,39 @@
+//! What the test modules share.
+// Helpers unwrap: a panic is the failure report.
+#![allow(clippy::unwrap_used, dead_code)]
+
+use std::path::PathBuf;
+
+/// A file `name` in this run's scratch folder for `area` (created).
+pub fn tmp(area: &str, name: &str) -> PathBuf {
+    let d = std::env::temp_dir().join(format!("leadline-{area}-{}", std::process::id()));
+    std::fs::create_dir_all(&d).unwrap();
+    d.join(name)
+}
+
+/// Runs the leadline binary with `args` and returns its output.
+pub fn leadline<I, S>(args: I) -> std::process::Output
+where
+    I: IntoIterator<Item = S>,
+    S: AsRef<std::ffi::OsStr>,
+{
+    std::process::Command::new(env!("CARGO_BIN_EXE_leadline"))
+        .args(args)
+        .output()
+        .unwrap()
+}
+
+/// Runs the leadline binary and fails the test with its stderr unless it succeeded.
+pub fn leadline_ok<I, S>(args: I) -> std::process::Output
+where
+    I: IntoIterator<Item = S>,
+    S: AsRef<std::ffi::OsStr>,
+{
+    let out = leadline(args);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    out
+}

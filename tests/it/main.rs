@@ -1,0 +1,24 @@
+//! The integration tests in one binary (linking each file as its own binary was a large part of
+//! a build on two cores). Each module is one area; `common` holds what they share. The timing
+//! tests that must not share the process with others stay binaries of their own:
+//! `tests/serial.rs` (pty, 60 s), `tests/net.rs` (UDP and TCP, 60 s) and `tests/soak.rs`
+//! (2 minutes; it measures the process's memory).
+
+mod common;
+
+mod analog;
+mod beats_mitdb;
+mod beats_sim;
+mod cli;
+mod dsp_reference;
+mod emg_sound;
+mod export_c;
+mod front_end;
+mod gui;
+mod heart_rate;
+mod measure;
+mod pipeline;
+mod record;
+mod spectrum;
+mod synth;
+mod wire;
