@@ -5,20 +5,18 @@
 //! display. A write that fails (disk full, drive removed) stops the recording with a message in
 //! [`RecorderStatus`]; blocks keep being taken, so the monitor runs on.
 
-use std::fmt::Write as _;
-use std::fs::File;
-use std::io::{BufWriter, Write as _};
 use std::path::{Path, PathBuf};
 use std::sync::atomic::{AtomicBool, Ordering};
 use std::sync::{Arc, Mutex};
-use std::time::{Duration, Instant};
+use std::time::Duration;
 
 use crossbeam_channel::{Receiver, select};
 
 use crate::msg::RecordBlock;
-use crate::store::csv::{event_line, time_text};
+use crate::store::csv::CsvSink;
 use crate::store::edf::{EdfKind, EdfSpec, EdfWriter, GAP};
-use crate::store::{Event, StoreError};
+use crate::store::raw::RawSink;
+use crate::store::{Sink, StoreError};
 
 /// File formats the recorder writes, named by extension.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -127,26 +125,10 @@ pub struct RecorderStatus {
 /// Shared status.
 pub type StatusHandle = Arc<Mutex<RecorderStatus>>;
 
-enum Sink {
-    Edf(EdfWriter),
-    Text {
-        w: BufWriter<File>,
-        bytes: u64,
-        line: String,
-        last_flush: Instant,
-    },
-    Raw {
-        w: BufWriter<File>,
-        f32: bool,
-        bytes: u64,
-        last_flush: Instant,
-    },
-}
-
 struct Active {
     req: RecordRequest,
     format: RecordFormat,
-    sink: Option<Sink>,
+    sink: Option<Box<dyn Sink>>,
     /// Frames written.
     frames: u64,
     fs_hz: f64,
@@ -158,10 +140,6 @@ struct Active {
     next_sample: Option<u64>,
     /// The rate the file's times count in (the stream's, or the whole rate EDF stores).
     time_fs: f64,
-}
-
-fn io(path: &Path) -> impl Fn(std::io::Error) -> StoreError + '_ {
-    move |e| StoreError::io(path, e)
 }
 
 impl Active {
@@ -210,37 +188,19 @@ impl Active {
                         ),
                     );
                 }
-                Sink::Edf(w)
+                Box::new(w) as Box<dyn Sink>
             }
             RecordFormat::Csv => {
-                let f = File::create(&path).map_err(io(&path))?;
-                let mut line = String::from("# leadline recording; values in ");
-                line.push_str(match self.req.values {
+                let note = match self.req.values {
                     RecordValues::Received => "the source's own units (counts)",
                     _ if self.req.csv_uv_per_unit == 1.0 => "uV (input-referred)",
                     _ if self.req.csv_uv_per_unit == 1e6 => "V (input-referred)",
                     _ => "mV (input-referred)",
-                });
-                line.push_str("\ntime_s");
-                for k in 1..=b.channels {
-                    let _ = write!(line, ",ch{k}");
-                }
-                line.push('\n');
-                Sink::Text {
-                    w: BufWriter::new(f),
-                    bytes: 0,
-                    line,
-                    last_flush: Instant::now(),
-                }
+                };
+                Box::new(CsvSink::create(&path, b.fs_hz, b.channels, note)?)
             }
             RecordFormat::F32 | RecordFormat::F64 => {
-                let f = File::create(&path).map_err(io(&path))?;
-                Sink::Raw {
-                    w: BufWriter::new(f),
-                    f32: self.format == RecordFormat::F32,
-                    bytes: 0,
-                    last_flush: Instant::now(),
-                }
+                Box::new(RawSink::create(&path, self.format == RecordFormat::F32)?)
             }
         };
         self.sink = Some(sink);
@@ -265,16 +225,7 @@ impl Active {
             return;
         };
         self.markers += 1;
-        match sink {
-            Sink::Edf(w) => w.annotate(t, None, text),
-            Sink::Text { line, .. } => line.push_str(&event_line(&Event {
-                onset_s: t,
-                duration_s: None,
-                text: text.to_string(),
-            })),
-            // Raw files have nowhere to put text.
-            Sink::Raw { .. } => {}
-        }
+        sink.note(t, text);
     }
 
     fn write(&mut self, b: &RecordBlock) -> Result<(), StoreError> {
@@ -305,127 +256,52 @@ impl Active {
             RecordValues::Received => &b.received,
         };
         let frames = (values.len() / b.channels.max(1)) as u64;
+        if self.req.values == RecordValues::Received
+            && matches!(self.format, RecordFormat::Edf | RecordFormat::Bdf)
+        {
+            return Err(StoreError::malformed(
+                &path,
+                "EDF/BDF store input-referred µV; counts go to .csv, .f32 or .f64",
+            ));
+        }
         let Some(sink) = self.sink.as_mut() else {
             return Ok(());
         };
-        match sink {
-            Sink::Edf(w) => {
-                if b.gap_before {
-                    w.annotate(now, None, GAP);
-                }
-                if let Some(n) = &lost_note {
-                    w.annotate(now, None, n);
-                }
-                if self.req.values == RecordValues::Received {
-                    return Err(StoreError::malformed(
-                        &path,
-                        "EDF/BDF store input-referred µV; counts go to .csv, .f32 or .f64",
-                    ));
-                }
-                w.push(values)?;
+        for text in [b.gap_before.then(|| GAP.to_string()), lost_note]
+            .into_iter()
+            .flatten()
+        {
+            sink.note(now, &text);
+        }
+        // CSV and raw files are in the unit asked for (counts as received); EDF in µV.
+        let k = match self.format {
+            RecordFormat::Csv | RecordFormat::F32 | RecordFormat::F64
+                if self.req.values != RecordValues::Received =>
+            {
+                1.0 / self.req.csv_uv_per_unit
             }
-            Sink::Text {
-                w,
-                bytes,
-                line,
-                last_flush,
-            } => {
-                for text in [b.gap_before.then(|| GAP.to_string()), lost_note.clone()]
-                    .into_iter()
-                    .flatten()
-                {
-                    line.push_str(&event_line(&Event {
-                        onset_s: now,
-                        duration_s: None,
-                        text,
-                    }));
-                }
-                let k = if self.req.values == RecordValues::Received {
-                    1.0
-                } else {
-                    1.0 / self.req.csv_uv_per_unit
-                };
-                for (i, frame) in values.chunks_exact(b.channels.max(1)).enumerate() {
-                    line.push_str(&time_text(self.frames + i as u64, b.fs_hz));
-                    for v in frame {
-                        let _ = write!(line, ",{}", v * k);
-                    }
-                    line.push('\n');
-                }
-                w.write_all(line.as_bytes()).map_err(io(&path))?;
-                *bytes += line.len() as u64;
-                line.clear();
-                // Data reach the OS at least once a second.
-                if last_flush.elapsed() >= Duration::from_millis(500) {
-                    w.flush().map_err(io(&path))?;
-                    *last_flush = Instant::now();
-                }
-            }
-            Sink::Raw {
-                w,
-                f32,
-                bytes,
-                last_flush,
-            } => {
-                let k = if self.req.values == RecordValues::Received {
-                    1.0
-                } else {
-                    1.0 / self.req.csv_uv_per_unit
-                };
-                let mut buf = Vec::with_capacity(values.len() * 8);
-                for v in values {
-                    if *f32 {
-                        buf.extend_from_slice(&((v * k) as f32).to_le_bytes());
-                    } else {
-                        buf.extend_from_slice(&(v * k).to_le_bytes());
-                    }
-                }
-                w.write_all(&buf).map_err(io(&path))?;
-                *bytes += buf.len() as u64;
-                if last_flush.elapsed() >= Duration::from_millis(500) {
-                    w.flush().map_err(io(&path))?;
-                    *last_flush = Instant::now();
-                }
-            }
+            _ => 1.0,
+        };
+        if k == 1.0 {
+            sink.push(values)?;
+        } else {
+            let scaled: Vec<f64> = values.iter().map(|v| v * k).collect();
+            sink.push(&scaled)?;
         }
         self.frames += frames;
         Ok(())
     }
 
     fn bytes(&self) -> u64 {
-        match &self.sink {
-            Some(Sink::Edf(w)) => w.bytes(),
-            Some(Sink::Text { bytes, .. } | Sink::Raw { bytes, .. }) => *bytes,
-            None => 0,
-        }
+        self.sink.as_ref().map_or(0, |s| s.bytes())
     }
 
     fn clipped(&self) -> u64 {
-        match &self.sink {
-            Some(Sink::Edf(w)) => w.clipped(),
-            _ => 0,
-        }
+        self.sink.as_ref().map_or(0, |s| s.clipped())
     }
 
     fn finish(self) -> Result<u64, StoreError> {
-        let path = self.req.path.clone();
-        match self.sink {
-            Some(Sink::Edf(w)) => w.finish().map(|s| s.bytes),
-            Some(Sink::Text {
-                mut w, bytes, line, ..
-            }) => {
-                w.write_all(line.as_bytes()).map_err(io(&path))?;
-                w.flush().map_err(io(&path))?;
-                w.get_ref().sync_all().map_err(io(&path))?;
-                Ok(bytes + line.len() as u64)
-            }
-            Some(Sink::Raw { mut w, bytes, .. }) => {
-                w.flush().map_err(io(&path))?;
-                w.get_ref().sync_all().map_err(io(&path))?;
-                Ok(bytes)
-            }
-            None => Ok(0),
-        }
+        self.sink.map_or(Ok(0), |s| s.finish())
     }
 }
 
@@ -628,7 +504,7 @@ mod tests {
             }
             std::thread::sleep(Duration::from_millis(100));
             ctx.send(RecorderCommand::Stop).unwrap();
-            let t = Instant::now();
+            let t = std::time::Instant::now();
             while status.lock().unwrap().active.is_some() && t.elapsed() < Duration::from_secs(5) {
                 std::thread::sleep(Duration::from_millis(10));
             }

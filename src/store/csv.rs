@@ -335,6 +335,99 @@ pub fn write(path: &Path, rec: &Recording, unit: FileUnit) -> Result<(), StoreEr
     w.flush().map_err(|e| StoreError::io(path, e))
 }
 
+/// A CSV recording being written: a header, then `time_s,ch1,…` rows and event lines, flushed
+/// to the OS at least every half second.
+pub struct CsvSink {
+    w: std::io::BufWriter<std::fs::File>,
+    path: std::path::PathBuf,
+    fs: f64,
+    channels: usize,
+    frames: u64,
+    bytes: u64,
+    line: String,
+    last_flush: std::time::Instant,
+}
+
+impl CsvSink {
+    /// Creates `path` for `channels` channels at `fs`, the first line saying what the values
+    /// are (`unit_note`, e.g. "uV (input-referred)").
+    ///
+    /// # Errors
+    /// The file cannot be created.
+    pub fn create(
+        path: &std::path::Path,
+        fs: f64,
+        channels: usize,
+        unit_note: &str,
+    ) -> Result<Self, StoreError> {
+        use std::fmt::Write as _;
+        let f = std::fs::File::create(path).map_err(|e| StoreError::io(path, e))?;
+        let mut line = format!("# leadline recording; values in {unit_note}\ntime_s");
+        for k in 1..=channels {
+            let _ = write!(line, ",ch{k}");
+        }
+        line.push('\n');
+        Ok(Self {
+            w: std::io::BufWriter::new(f),
+            path: path.to_path_buf(),
+            fs,
+            channels: channels.max(1),
+            frames: 0,
+            bytes: 0,
+            line,
+            last_flush: std::time::Instant::now(),
+        })
+    }
+}
+
+impl super::Sink for CsvSink {
+    fn push(&mut self, frames: &[f64]) -> Result<(), StoreError> {
+        use std::fmt::Write as _;
+        use std::io::Write as _;
+        for frame in frames.chunks_exact(self.channels) {
+            self.line.push_str(&time_text(self.frames, self.fs));
+            for v in frame {
+                let _ = write!(self.line, ",{v}");
+            }
+            self.line.push('\n');
+            self.frames += 1;
+        }
+        self.w
+            .write_all(self.line.as_bytes())
+            .map_err(|e| StoreError::io(&self.path, e))?;
+        self.bytes += self.line.len() as u64;
+        self.line.clear();
+        // Data reach the OS at least once a second.
+        if self.last_flush.elapsed() >= std::time::Duration::from_millis(500) {
+            self.w.flush().map_err(|e| StoreError::io(&self.path, e))?;
+            self.last_flush = std::time::Instant::now();
+        }
+        Ok(())
+    }
+
+    fn note(&mut self, t_s: f64, text: &str) {
+        self.line.push_str(&event_line(&Event {
+            onset_s: t_s,
+            duration_s: None,
+            text: text.to_string(),
+        }));
+    }
+
+    fn bytes(&self) -> u64 {
+        self.bytes
+    }
+
+    fn finish(mut self: Box<Self>) -> Result<u64, StoreError> {
+        use std::io::Write as _;
+        let path = self.path.clone();
+        let io = |e| StoreError::io(&path, e);
+        self.w.write_all(self.line.as_bytes()).map_err(io)?;
+        self.w.flush().map_err(io)?;
+        self.w.get_ref().sync_all().map_err(io)?;
+        Ok(self.bytes + self.line.len() as u64)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -896,6 +896,28 @@ fn parse_tals(b: &[u8], out: &mut Vec<Event>) {
     }
 }
 
+impl super::Sink for EdfWriter {
+    fn push(&mut self, frames: &[f64]) -> Result<(), StoreError> {
+        EdfWriter::push(self, frames)
+    }
+
+    fn note(&mut self, t_s: f64, text: &str) {
+        self.annotate(t_s, None, text);
+    }
+
+    fn bytes(&self) -> u64 {
+        EdfWriter::bytes(self)
+    }
+
+    fn clipped(&self) -> u64 {
+        EdfWriter::clipped(self)
+    }
+
+    fn finish(self: Box<Self>) -> Result<u64, StoreError> {
+        EdfWriter::finish(*self).map(|s| s.bytes)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -10,7 +10,10 @@
 pub mod csv;
 pub mod edf;
 pub mod raw;
+pub mod sink;
 pub mod wfdb;
+
+pub use sink::Sink;
 
 use std::path::Path;
 

@@ -91,3 +91,70 @@ pub fn write(path: &Path, rec: &Recording, kind: Sample, unit: FileUnit) -> Resu
     }
     w.flush().map_err(|e| StoreError::io(path, e))
 }
+
+/// A raw recording being written: little-endian f32 or f64 values, frame after frame, flushed
+/// to the OS at least every half second. Raw files have nowhere to put notes.
+pub struct RawSink {
+    w: std::io::BufWriter<std::fs::File>,
+    path: std::path::PathBuf,
+    f32: bool,
+    bytes: u64,
+    last_flush: std::time::Instant,
+}
+
+impl RawSink {
+    /// Creates `path` for f32 (`f32`) or f64 values.
+    ///
+    /// # Errors
+    /// The file cannot be created.
+    pub fn create(path: &std::path::Path, f32: bool) -> Result<Self, StoreError> {
+        let f = std::fs::File::create(path).map_err(|e| StoreError::io(path, e))?;
+        Ok(Self {
+            w: std::io::BufWriter::new(f),
+            path: path.to_path_buf(),
+            f32,
+            bytes: 0,
+            last_flush: std::time::Instant::now(),
+        })
+    }
+}
+
+impl super::Sink for RawSink {
+    fn push(&mut self, frames: &[f64]) -> Result<(), StoreError> {
+        use std::io::Write as _;
+        let mut buf = Vec::with_capacity(frames.len() * 8);
+        for v in frames {
+            if self.f32 {
+                buf.extend_from_slice(&(*v as f32).to_le_bytes());
+            } else {
+                buf.extend_from_slice(&v.to_le_bytes());
+            }
+        }
+        self.w
+            .write_all(&buf)
+            .map_err(|e| StoreError::io(&self.path, e))?;
+        self.bytes += buf.len() as u64;
+        if self.last_flush.elapsed() >= std::time::Duration::from_millis(500) {
+            self.w.flush().map_err(|e| StoreError::io(&self.path, e))?;
+            self.last_flush = std::time::Instant::now();
+        }
+        Ok(())
+    }
+
+    fn note(&mut self, _t_s: f64, _text: &str) {}
+
+    fn bytes(&self) -> u64 {
+        self.bytes
+    }
+
+    fn finish(mut self: Box<Self>) -> Result<u64, StoreError> {
+        use std::io::Write as _;
+        let path = self.path.clone();
+        self.w.flush().map_err(|e| StoreError::io(&path, e))?;
+        self.w
+            .get_ref()
+            .sync_all()
+            .map_err(|e| StoreError::io(&path, e))?;
+        Ok(self.bytes)
+    }
+}
