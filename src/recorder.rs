@@ -267,7 +267,7 @@ impl Active {
         let Some(sink) = self.sink.as_mut() else {
             return Ok(());
         };
-        for text in [b.gap_before.then(|| GAP.to_string()), lost_note]
+        for text in [b.gap_before.then(|| GAP.to_string()), lost_note.clone()]
             .into_iter()
             .flatten()
         {
