@@ -9,7 +9,6 @@ use crate::analysis::template::Template;
 use crate::dsp::chain::ChainSettings;
 use crate::dsp::spectrum::Psd;
 use crate::scale::{FrontEnd, InputScale};
-use crate::source::SynthSettings;
 
 /// What the numbers in a [`RawBlock`] are.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -202,8 +201,6 @@ pub struct Snapshot {
 pub enum Control {
     /// Run this chain from now on (state is kept where the structure allows).
     Chain(ChainSettings),
-    /// New simulator settings (levels, rate, switches).
-    Synth(Box<SynthSettings>),
     /// Display window length, s (2–30).
     Window(f64),
     /// Stop sending snapshots (the data still flow to the recorder) or resume.

@@ -254,17 +254,15 @@ impl Pipeline {
         })
     }
 
-    /// Sends a control message to the thread it concerns.
+    /// Sends a control message to the DSP thread.
     pub fn control(&self, c: Control) {
         // A send fails only when the thread has ended; then there is nothing left to control.
-        match c {
-            Control::Synth(s) => {
-                let _ = self.synth_tx.send(*s);
-            }
-            other => {
-                let _ = self.control_tx.send(other);
-            }
-        }
+        let _ = self.control_tx.send(c);
+    }
+
+    /// New simulator settings, straight to the source thread (applied live).
+    pub fn synth(&self, s: SynthSettings) {
+        let _ = self.synth_tx.send(s);
     }
 
     /// The newest snapshot, if one arrived since the last call (older ones are skipped).

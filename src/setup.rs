@@ -379,7 +379,7 @@ impl Setup {
 
 /// Where the last setup is kept between runs.
 pub fn last_setup_path() -> Option<PathBuf> {
-    crate::gui::state::config_dir().map(|d| d.join("last-setup.toml"))
+    config_dir().map(|d| d.join("last-setup.toml"))
 }
 
 fn one_line(s: &str) -> String {
@@ -440,6 +440,26 @@ fn line_of(text: &str, dotted: &str) -> Option<usize> {
         }
     }
     None
+}
+
+static CONFIG_DIR_OVERRIDE: std::sync::Mutex<Option<PathBuf>> = std::sync::Mutex::new(None);
+
+/// Uses `dir` instead of the user's configuration folder (tests, portable set-ups).
+pub fn set_config_dir_override(dir: PathBuf) {
+    if let Ok(mut g) = CONFIG_DIR_OVERRIDE.lock() {
+        *g = Some(dir);
+    }
+}
+
+/// The folder for leadline's own files (the last setup, the caution marker): `$XDG_CONFIG_HOME/leadline` or `~/.config/leadline`.
+pub fn config_dir() -> Option<PathBuf> {
+    if let Some(d) = CONFIG_DIR_OVERRIDE.lock().ok().and_then(|g| g.clone()) {
+        return Some(d);
+    }
+    if let Some(x) = std::env::var_os("XDG_CONFIG_HOME").filter(|v| !v.is_empty()) {
+        return Some(PathBuf::from(x).join("leadline"));
+    }
+    std::env::var_os("HOME").map(|h| PathBuf::from(h).join(".config").join("leadline"))
 }
 
 #[cfg(test)]

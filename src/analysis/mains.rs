@@ -259,3 +259,17 @@ pub fn analyse(x_uv: &[f64], fs: f64, psd: &Psd) -> Result<MainsReport, MainsErr
         prominence_db,
     })
 }
+impl MainsReport {
+    /// The notch `current` moved to what this measurement asks for, if it asks for a change
+    /// bigger than 0.05 Hz or other harmonics (the automatic notch).
+    pub fn notch_for(&self, current: &crate::dsp::Notch) -> Option<crate::dsp::Notch> {
+        let (hz, harmonics) = self.notch_hz()?;
+        ((hz - current.mains_hz).abs() > 0.05 || harmonics != current.harmonics).then_some(
+            crate::dsp::Notch {
+                mains_hz: hz,
+                harmonics,
+                ..*current
+            },
+        )
+    }
+}

@@ -84,19 +84,6 @@ impl Default for Notch {
     }
 }
 
-impl Notch {
-    /// This notch moved to what a mains measurement asks for, if it asks for a change bigger
-    /// than 0.05 Hz or other harmonics.
-    pub fn following(&self, report: &crate::analysis::mains::MainsReport) -> Option<Notch> {
-        let (hz, harmonics) = report.notch_hz()?;
-        ((hz - self.mains_hz).abs() > 0.05 || harmonics != self.harmonics).then_some(Notch {
-            mains_hz: hz,
-            harmonics,
-            ..*self
-        })
-    }
-}
-
 /// The whole chain as the user sets it.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(default)]

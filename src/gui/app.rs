@@ -928,8 +928,7 @@ impl LeadlineApp {
                                 self.settings.channel.min(self.settings.synth.channels - 1);
                             self.restart_source();
                         } else if changed.live {
-                            self.pending
-                                .push(Control::Synth(Box::new(self.settings.synth.clone())));
+                            self.pipeline.synth(self.settings.synth.clone());
                         }
                     }
                 });

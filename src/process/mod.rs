@@ -251,8 +251,6 @@ impl Dsp {
                     e.view = None;
                 }
             }
-            // Simulator settings go straight to the source thread.
-            Control::Synth(_) => {}
         }
     }
 
@@ -460,7 +458,7 @@ impl Dsp {
                 .frame
                 .as_ref()
                 .and_then(|f| f.mains_raw.as_ref())
-                .and_then(|m| self.chain.notch.following(m))
+                .and_then(|m| m.notch_for(&self.chain.notch))
         {
             let mut next_chain = self.chain;
             next_chain.notch = next;
