@@ -38,6 +38,9 @@ pub struct AppOptions {
 }
 
 type Shot = Arc<Mutex<Option<Arc<egui::ColorImage>>>>;
+/// What a file job reports: the message for the Files section, or the error.
+type JobResult = Result<String, String>;
+type JobSender = crossbeam_channel::Sender<JobResult>;
 
 /// The monitor.
 pub struct LeadlineApp {
@@ -60,6 +63,9 @@ pub struct LeadlineApp {
     net: panels::network::NetPicker,
     measure: panels::measure::MeasureView,
     sound: panels::sound::SoundPanel,
+    /// Slow file work (setup save, C export, PNGs) runs on a worker thread and reports here.
+    jobs: (JobSender, crossbeam_channel::Receiver<JobResult>),
+    jobs_running: usize,
     emg: crate::analysis::emg::EmgSettings,
     /// Why the last source did not start (a port in use, say).
     source_error: Option<String>,
@@ -165,6 +171,8 @@ impl LeadlineApp {
             net: Default::default(),
             measure: Default::default(),
             sound,
+            jobs: crossbeam_channel::unbounded(),
+            jobs_running: 0,
             emg,
             source_error: None,
             file_path,
@@ -459,12 +467,16 @@ impl LeadlineApp {
                 }),
                 Err(e) => Err(e.to_string()),
             },
-            FilesAction::SaveSetup(p) => self
-                .settings
-                .to_setup()
-                .save(&p)
-                .map(|()| format!("saved {}", p.display()))
-                .map_err(|e| e.to_string()),
+            FilesAction::SaveSetup(p) => {
+                let setup = self.settings.to_setup();
+                self.spawn_job(move || {
+                    setup
+                        .save(&p)
+                        .map(|()| format!("saved {}", p.display()))
+                        .map_err(|e| e.to_string())
+                });
+                return;
+            }
             FilesAction::ExportC {
                 path,
                 format,
@@ -476,20 +488,42 @@ impl LeadlineApp {
                     prefix,
                     format,
                 };
-                self.settings
-                    .chain
-                    .design(fs)
-                    .map_err(|e| e.to_string())
-                    .and_then(|sections| {
-                        crate::export::c_header::header(&sections, &info).map_err(|e| e.to_string())
-                    })
-                    .and_then(|text| {
-                        std::fs::write(&path, text).map_err(|e| format!("{}: {e}", path.display()))
-                    })
-                    .map(|()| format!("wrote {} ({} at {fs} Hz)", path.display(), format.name()))
+                match self.settings.chain.design(fs) {
+                    Ok(sections) => {
+                        self.spawn_job(move || {
+                            crate::export::c_header::header(&sections, &info)
+                                .map_err(|e| e.to_string())
+                                .and_then(|text| {
+                                    std::fs::write(&path, text)
+                                        .map_err(|e| format!("{}: {e}", path.display()))
+                                })
+                                .map(|()| {
+                                    format!(
+                                        "wrote {} ({} at {fs} Hz)",
+                                        path.display(),
+                                        format.name()
+                                    )
+                                })
+                        });
+                        return;
+                    }
+                    Err(e) => Err(e.to_string()),
+                }
             }
-            FilesAction::TracePng(p) => self.trace_png(&p),
-            FilesAction::SpectrumPng(p) => self.spectrum_png(&p),
+            FilesAction::TracePng(p) => match self.trace_png_job(p) {
+                Ok(job) => {
+                    self.spawn_job(job);
+                    return;
+                }
+                Err(e) => Err(e),
+            },
+            FilesAction::SpectrumPng(p) => match self.spectrum_png_job(p) {
+                Ok(job) => {
+                    self.spawn_job(job);
+                    return;
+                }
+                Err(e) => Err(e),
+            },
         };
         match result {
             Ok(m) => {
@@ -507,58 +541,100 @@ impl LeadlineApp {
     ///
     /// # Errors
     /// A message when there is nothing yet or the file cannot be written.
-    pub fn trace_png(&self, path: &std::path::Path) -> Result<String, String> {
-        use crate::export::plot_png::{TraceLine, trace_png};
+    /// Runs `job` on a worker thread; its message lands in the Files section when it is done.
+    fn spawn_job(&mut self, job: impl FnOnce() -> Result<String, String> + Send + 'static) {
+        let tx = self.jobs.0.clone();
+        self.jobs_running += 1;
+        self.files.message = "working…".into();
+        self.files.failed = false;
+        let back = tx.clone();
+        if let Err(e) = std::thread::Builder::new()
+            .name("leadline-files".into())
+            .spawn(move || {
+                let _ = tx.send(job());
+            })
+        {
+            let _ = back.send(Err(format!("could not start the file job: {e}")));
+        }
+    }
+
+    /// Takes the messages of finished jobs.
+    fn collect_jobs(&mut self) {
+        while let Ok(r) = self.jobs.1.try_recv() {
+            self.jobs_running = self.jobs_running.saturating_sub(1);
+            match r {
+                Ok(m) => {
+                    self.files.message = m;
+                    self.files.failed = false;
+                }
+                Err(m) => {
+                    self.files.message = m;
+                    self.files.failed = true;
+                }
+            }
+        }
+    }
+
+    /// The trace PNG as a job: the data it needs are copied now, the drawing runs later.
+    fn trace_png_job(
+        &self,
+        path: std::path::PathBuf,
+    ) -> Result<impl FnOnce() -> Result<String, String> + Send + 'static, String> {
         let snap = self.view.snapshot.as_ref().ok_or("no samples yet")?;
         let ch = self
             .settings
             .channel
             .min(snap.traces.len().saturating_sub(1));
-        let t = snap.traces.get(ch).ok_or("no samples yet")?;
-        let (k, unit) = match self.settings.unit {
-            TraceUnit::Microvolts => (1.0, "µV"),
-            TraceUnit::Millivolts => (1e3, "mV"),
-        };
+        let t = snap.traces.get(ch).ok_or("no samples yet")?.clone();
+        // µV per display unit.
+        let (k, unit) = (
+            1.0 / self.settings.unit.factor(),
+            self.settings.unit.symbol(),
+        );
         let title = format!(
             "ch{} at {} Hz — chain {}",
             ch + 1,
             snap.fs_hz,
             self.settings.chain.describe()
         );
-        let raw = panels::trace::RAW_COLOUR;
-        trace_png(
-            path,
-            &[
-                TraceLine {
-                    label: "before the chain",
-                    rgb: (raw.r(), raw.g(), raw.b()),
-                    columns: &t.raw,
-                },
-                TraceLine {
-                    label: "after the chain",
-                    // The screen colour, darkened for a white page.
-                    rgb: (0, 126, 112),
-                    columns: &t.filtered,
-                },
-            ],
-            (unit, k),
-            &self.markers,
-            &title,
-        )
-        .map(|()| format!("saved {}", path.display()))
-        .map_err(|e| e.to_string())
+        let markers = self.markers.clone();
+        Ok(move || {
+            use crate::export::plot_png::{TraceLine, trace_png};
+            let raw = super::plot::RAW_COLOUR;
+            trace_png(
+                &path,
+                &[
+                    TraceLine {
+                        label: "before the chain",
+                        rgb: (raw.r(), raw.g(), raw.b()),
+                        columns: &t.raw,
+                    },
+                    TraceLine {
+                        label: "after the chain",
+                        // The screen colour, darkened for a white page.
+                        rgb: (0, 126, 112),
+                        columns: &t.filtered,
+                    },
+                ],
+                (unit, k),
+                &markers,
+                &title,
+            )
+            .map(|()| format!("saved {}", path.display()))
+            .map_err(|e| e.to_string())
+        })
     }
 
-    /// Writes the latest spectrum (after the chain) as a PNG.
-    ///
-    /// # Errors
-    /// A message when there is no spectrum yet or the file cannot be written.
-    pub fn spectrum_png(&self, path: &std::path::Path) -> Result<String, String> {
+    /// The spectrum PNG as a job.
+    fn spectrum_png_job(
+        &self,
+        path: std::path::PathBuf,
+    ) -> Result<impl FnOnce() -> Result<String, String> + Send + 'static, String> {
         let f = self
             .view
             .snapshot
             .as_ref()
-            .and_then(|s| s.spectrum.as_ref())
+            .and_then(|s| s.spectrum.clone())
             .ok_or("no spectrum yet (it needs a few seconds of signal)")?;
         let title = format!(
             "ch{} after the chain {}, Welch over {:.0} s at {} Hz",
@@ -567,9 +643,11 @@ impl LeadlineApp {
             f.seconds,
             f.fs_hz
         );
-        crate::export::plot_png::psd_png(path, &f.filtered, f.mains_filtered.as_ref(), &title)
-            .map(|()| format!("saved {}", path.display()))
-            .map_err(|e| e.to_string())
+        Ok(move || {
+            crate::export::plot_png::psd_png(&path, &f.filtered, f.mains_filtered.as_ref(), &title)
+                .map(|()| format!("saved {}", path.display()))
+                .map_err(|e| e.to_string())
+        })
     }
 
     /// Writes the setup to the configuration folder when it changed (at most every 2 s).
@@ -605,23 +683,9 @@ impl LeadlineApp {
         }
     }
 
-    /// Draws the whole window and queues the resulting Controls.
-    pub fn show(&mut self, ui: &mut egui::Ui) {
-        self.keys(&ui.ctx().clone());
-        let fs = self
-            .view
-            .snapshot
-            .as_ref()
-            .map_or(self.settings.synth.fs_hz, |s| s.fs_hz);
-
-        // Panels draw no background of their own: the window is cleared to the panel colour
-        // anyway, and with software OpenGL every full-window layer costs CPU at each frame.
-        let style = ui.style().clone();
-        let bare = |f: egui::Frame| f.fill(egui::Color32::TRANSPARENT);
-        egui::Panel::top("top-bar")
-            .frame(bare(egui::Frame::side_top_panel(&style)))
-            .show(ui, |ui| {
-            ui.horizontal(|ui| {
+    /// The top bar: freeze, record, marker, help, theme, window, unit, channel and the readout.
+    fn top_bar(&mut self, ui: &mut egui::Ui) {
+        ui.horizontal(|ui| {
                 ui.label(egui::RichText::new("leadline").strong().size(18.0));
                 ui.separator();
                 let label = if !self.trace.follow {
@@ -723,33 +787,30 @@ impl LeadlineApp {
                     },
                 );
             });
-        });
+    }
 
-        egui::Panel::bottom("status-bar")
-            .frame(bare(egui::Frame::side_top_panel(&style)))
-            .show(ui, |ui| {
-                let rec = self.pipeline.recorder_status();
-                panels::status::show(
-                    ui,
-                    &self.view,
-                    self.pipeline.label(),
-                    self.paused,
-                    rec.as_ref(),
-                );
-                if let Some(st) = self.pipeline.serial_status() {
-                    panels::status::serial_line(ui, &st);
-                }
-                if let Some(st) = self.pipeline.net_status() {
-                    panels::status::net_line(ui, &st);
-                }
-                panels::caution::reminder(ui);
-            });
+    /// The status bar: the stream's counters, the link's state and the caution reminder.
+    fn status_bar(&mut self, ui: &mut egui::Ui) {
+        let rec = self.pipeline.recorder_status();
+        panels::status::show(
+            ui,
+            &self.view,
+            self.pipeline.label(),
+            self.paused,
+            rec.as_ref(),
+        );
+        if let Some(st) = self.pipeline.serial_status() {
+            panels::status::serial_line(ui, &st);
+        }
+        if let Some(st) = self.pipeline.net_status() {
+            panels::status::net_line(ui, &st);
+        }
+        panels::caution::reminder(ui);
+    }
 
-        egui::Panel::left("controls")
-            .frame(bare(egui::Frame::side_top_panel(&style)))
-            .default_size(300.0)
-            .show(ui, |ui| {
-                egui::ScrollArea::vertical().show(ui, |ui| {
+    /// The side panel: filters, source, front end, display, sound, recording, files, simulator.
+    fn side_panel(&mut self, ui: &mut egui::Ui, fs: f64) {
+        egui::ScrollArea::vertical().show(ui, |ui| {
                     ui.heading("Filters");
                 let inverted = self.view.snapshot.as_ref().is_some_and(|s| s.inverted);
                 let mut flip = inverted;
@@ -932,27 +993,31 @@ impl LeadlineApp {
                         }
                     }
                 });
-            });
+    }
 
-        self.response.update(&self.settings.chain, fs);
-        egui::CentralPanel::default_margins()
-            .frame(bare(egui::Frame::central_panel(&style)))
-            .show(ui, |ui| {
-            let total = ui.available_height();
-            let lower_h = if self.settings.lower == LowerView::Hidden {
-                0.0
-            } else {
-                (0.42 * total).clamp(150.0, 360.0)
-            };
-            let trace_h = total - lower_h - 30.0;
-            ui.allocate_ui(egui::vec2(ui.available_width(), trace_h), |ui| {
-                let ev = panels::trace::show(ui, &self.view, &self.settings, &self.markers, &mut self.trace);
-                if ev.left_live && !self.paused {
-                    self.paused = true;
-                    self.pending.push(Control::DisplayPaused(true));
-                }
-            });
-            ui.horizontal(|ui| {
+    /// The traces and the lower strip under them.
+    fn central(&mut self, ui: &mut egui::Ui, fs: f64) {
+        let total = ui.available_height();
+        let lower_h = if self.settings.lower == LowerView::Hidden {
+            0.0
+        } else {
+            (0.42 * total).clamp(150.0, 360.0)
+        };
+        let trace_h = total - lower_h - 30.0;
+        ui.allocate_ui(egui::vec2(ui.available_width(), trace_h), |ui| {
+            let ev = panels::trace::show(
+                ui,
+                &self.view,
+                &self.settings,
+                &self.markers,
+                &mut self.trace,
+            );
+            if ev.left_live && !self.paused {
+                self.paused = true;
+                self.pending.push(Control::DisplayPaused(true));
+            }
+        });
+        ui.horizontal(|ui| {
                 let was = self.settings.emg_mode;
                 ui.selectable_value(&mut self.settings.emg_mode, false, "ECG")
                     .on_hover_text("Heart signals: the ECG chain, beats and heart rate.");
@@ -981,54 +1046,115 @@ impl LeadlineApp {
                 ui.selectable_value(&mut self.settings.lower, LowerView::Hidden, "Traces only")
                     .on_hover_text("Hide the lower strip: the traces take the whole height.");
             });
-            match self.settings.lower {
-                LowerView::Response => {
-                    self.parts.update(&self.settings.chain, fs);
-                    panels::response::show(ui, &self.response, &self.settings.chain, panels::trace::FILTERED_COLOUR, self.parts.stages());
-                }
-                LowerView::Spectrum => {
-                    let frame = self.view.snapshot.as_ref().and_then(|s| s.spectrum.as_ref());
-                    // The sections the DSP thread runs (no design per frame).
-                    let sections = self.view.snapshot.as_ref().map(|s| Arc::clone(&s.sections));
-                    if let Some(c) = panels::spectrum::show(ui, frame, sections.as_deref(), &mut self.spectrum) {
-                        self.pending.push(c);
-                    }
-                }
-                LowerView::Beats => {
-                    let b = self.view.snapshot.as_ref().and_then(|s| s.beats.as_ref());
-                    panels::beats::show(ui, b, fs);
-                }
-                LowerView::Parts => {
-                    panels::parts::show(ui, &mut self.parts, &self.settings.chain, fs);
-                }
-                LowerView::Measure => {
-                    self.parts.update(&self.settings.chain, fs);
-                    let snap = self.view.snapshot.as_ref();
-                    let sections = snap.map(|s| Arc::clone(&s.sections));
-                    let n = snap.map_or(1, |s| s.traces.len());
-                    if let Some(c) = panels::measure::show(
-                        ui,
-                        &mut self.measure,
-                        snap.and_then(|s| s.measured.as_ref()),
-                        sections.as_deref(),
-                        self.parts.stages(),
-                        n,
-                        fs,
-                    ) {
-                        self.pending.push(c);
-                    }
-                }
-                LowerView::Muscle => {
-                    let snap = self.view.snapshot.as_ref();
-                    let v = snap.and_then(|s| s.emg.as_deref());
-                    let trace = snap.and_then(|s| s.traces.get(self.settings.channel.min(s.traces.len().saturating_sub(1)))).map(|t| &t.filtered);
-                    if let Some(c) = panels::muscle::show(ui, v, trace, &mut self.emg, fs) {
-                        self.pending.push(c);
-                    }
-                }
-                LowerView::Hidden => {}
+        match self.settings.lower {
+            LowerView::Response => {
+                self.parts.update(&self.settings.chain, fs);
+                panels::response::show(
+                    ui,
+                    &self.response,
+                    &self.settings.chain,
+                    super::plot::FILTERED_COLOUR,
+                    self.parts.stages(),
+                );
             }
-        });
+            LowerView::Spectrum => {
+                let frame = self
+                    .view
+                    .snapshot
+                    .as_ref()
+                    .and_then(|s| s.spectrum.as_ref());
+                // The sections the DSP thread runs (no design per frame).
+                let sections = self.view.snapshot.as_ref().map(|s| Arc::clone(&s.sections));
+                if let Some(c) =
+                    panels::spectrum::show(ui, frame, sections.as_deref(), &mut self.spectrum)
+                {
+                    self.pending.push(c);
+                }
+            }
+            LowerView::Beats => {
+                let b = self.view.snapshot.as_ref().and_then(|s| s.beats.as_ref());
+                panels::beats::show(ui, b, fs);
+            }
+            LowerView::Parts => {
+                panels::parts::show(ui, &mut self.parts, &self.settings.chain, fs);
+            }
+            LowerView::Measure => {
+                self.parts.update(&self.settings.chain, fs);
+                let snap = self.view.snapshot.as_ref();
+                let sections = snap.map(|s| Arc::clone(&s.sections));
+                let n = snap.map_or(1, |s| s.traces.len());
+                if let Some(c) = panels::measure::show(
+                    ui,
+                    &mut self.measure,
+                    snap.and_then(|s| s.measured.as_ref()),
+                    sections.as_deref(),
+                    self.parts.stages(),
+                    n,
+                    fs,
+                ) {
+                    self.pending.push(c);
+                }
+            }
+            LowerView::Muscle => {
+                let snap = self.view.snapshot.as_ref();
+                let v = snap.and_then(|s| s.emg.as_deref());
+                let trace = snap
+                    .and_then(|s| {
+                        s.traces
+                            .get(self.settings.channel.min(s.traces.len().saturating_sub(1)))
+                    })
+                    .map(|t| &t.filtered);
+                if let Some(c) = panels::muscle::show(ui, v, trace, &mut self.emg, fs) {
+                    self.pending.push(c);
+                }
+            }
+            LowerView::Hidden => {}
+        }
+    }
+
+    /// Draws the whole window and queues the resulting Controls.
+    pub fn show(&mut self, ui: &mut egui::Ui) {
+        self.keys(&ui.ctx().clone());
+        self.collect_jobs();
+        if self.jobs_running > 0 {
+            // Nothing else may wake the window (frozen, no data) when a job finishes.
+            ui.ctx().request_repaint_after(Duration::from_millis(100));
+        }
+        let fs = self
+            .view
+            .snapshot
+            .as_ref()
+            .map_or(self.settings.synth.fs_hz, |s| s.fs_hz);
+
+        // Panels draw no background of their own: the window is cleared to the panel colour
+        // anyway, and with software OpenGL every full-window layer costs CPU at each frame.
+        let style = ui.style().clone();
+        let bare = |f: egui::Frame| f.fill(egui::Color32::TRANSPARENT);
+        egui::Panel::top("top-bar")
+            .frame(bare(egui::Frame::side_top_panel(&style)))
+            .show(ui, |ui| {
+                self.top_bar(ui);
+            });
+
+        egui::Panel::bottom("status-bar")
+            .frame(bare(egui::Frame::side_top_panel(&style)))
+            .show(ui, |ui| {
+                self.status_bar(ui);
+            });
+
+        egui::Panel::left("controls")
+            .frame(bare(egui::Frame::side_top_panel(&style)))
+            .default_size(300.0)
+            .show(ui, |ui| {
+                self.side_panel(ui, fs);
+            });
+
+        self.response.update(&self.settings.chain, fs);
+        egui::CentralPanel::default_margins()
+            .frame(bare(egui::Frame::central_panel(&style)))
+            .show(ui, |ui| {
+                self.central(ui, fs);
+            });
 
         panels::help::show(ui.ctx(), &mut self.help_open);
         if panels::caution::first_start(ui.ctx(), &mut self.caution_open) {

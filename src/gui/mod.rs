@@ -4,6 +4,7 @@
 pub mod app;
 pub mod bench;
 pub mod panels;
+pub mod plot;
 pub mod screenshot;
 pub mod state;
 

@@ -66,9 +66,30 @@ pub enum TraceUnit {
 impl TraceUnit {
     /// Factor from µV and the axis text.
     pub fn factor_and_label(self) -> (f64, &'static str) {
+        (self.factor(), self.axis_label())
+    }
+
+    /// Display units per µV.
+    pub fn factor(self) -> f64 {
         match self {
-            TraceUnit::Microvolts => (1.0, "µV at the electrodes"),
-            TraceUnit::Millivolts => (1e-3, "mV at the electrodes"),
+            TraceUnit::Microvolts => 1.0,
+            TraceUnit::Millivolts => 1e-3,
+        }
+    }
+
+    /// The unit's symbol.
+    pub fn symbol(self) -> &'static str {
+        match self {
+            TraceUnit::Microvolts => "µV",
+            TraceUnit::Millivolts => "mV",
+        }
+    }
+
+    /// The axis title.
+    fn axis_label(self) -> &'static str {
+        match self {
+            TraceUnit::Microvolts => "µV at the electrodes",
+            TraceUnit::Millivolts => "mV at the electrodes",
         }
     }
 }

@@ -181,6 +181,13 @@ fn setup_save_and_open_restore_the_chain_and_view() {
     h.run_steps(2);
     h.get_by_role_and_label(Role::Button, "Save").click();
     h.run_steps(2);
+    // Saving runs off the UI thread and reports in the Files section.
+    let deadline = Instant::now() + Duration::from_secs(10);
+    while h.query_by_label_contains("saved ").is_none() {
+        assert!(Instant::now() < deadline, "setup save did not report");
+        h.run_steps(1);
+        std::thread::sleep(Duration::from_millis(20));
+    }
     assert!(path.exists());
     let saved = h.state().settings().clone();
     h.state_mut().settings_mut().chain.lowpass.corner_hz = 100.0;
@@ -353,6 +360,13 @@ fn display_settings_and_the_trace_png_button() {
     h.run_steps(2);
     h.get_by_role_and_label(Role::Button, "Save trace").click();
     h.run_steps(2);
+    // The PNG is drawn off the UI thread; the Files section says when it is saved.
+    let deadline = Instant::now() + Duration::from_secs(20);
+    while h.query_by_label_contains("saved ").is_none() {
+        assert!(Instant::now() < deadline, "trace PNG did not report");
+        h.run_steps(1);
+        std::thread::sleep(Duration::from_millis(20));
+    }
     let bytes = std::fs::read(&png).unwrap();
     assert_eq!(&bytes[1..4], b"PNG");
 }

@@ -3,12 +3,9 @@
 
 use eframe::egui;
 
-/// The heart-rate readout's own colour: a light steel blue of the project's palette (amber and
-/// red keep their usual meaning for the warning states).
-pub const RATE_COLOUR: egui::Color32 = egui::Color32::from_rgb(60, 140, 210);
 use egui_plot::{Legend, Line, Plot, PlotPoints};
 
-use super::trace::{FILTERED_COLOUR, RAW_COLOUR};
+use crate::gui::plot::{FILTERED_COLOUR, RATE_COLOUR, RAW_COLOUR};
 use crate::msg::BeatView;
 
 /// The heart-rate readout: large, with its state in words.

@@ -5,8 +5,8 @@
 use eframe::egui;
 use egui_plot::{HLine, Legend, Line, Plot, PlotPoints, Points, Polygon};
 
-use super::trace::{FILTERED_COLOUR, RAW_COLOUR};
 use crate::analysis::emg::{EmgSettings, EmgView, Mark};
+use crate::gui::plot::{FILTERED_COLOUR, RATE_COLOUR, RAW_COLOUR};
 use crate::msg::{Columns, Control};
 
 /// Contraction shading: a translucent violet of the project's palette.
@@ -33,7 +33,7 @@ pub fn readout(ui: &mut egui::Ui, view: Option<&EmgView>) {
             egui::RichText::new(text)
                 .size(30.0)
                 .strong()
-                .color(super::beats::RATE_COLOUR),
+                .color(RATE_COLOUR),
         )
         .on_hover_text(
             "Moving RMS of the followed channel (window 100 ms), band-passed 20–450 Hz.",

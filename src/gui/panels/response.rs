@@ -2,7 +2,7 @@
 //! recomputed only when the chain or the rate changes.
 
 use eframe::egui;
-use egui_plot::{GridInput, GridMark, HoverPosition, Line, Plot, PlotPoints, VLine};
+use egui_plot::{GridMark, Line, Plot, PlotPoints, VLine};
 
 use crate::dsp::chain::ChainSettings;
 use crate::dsp::response::{self, Point, Summary};
@@ -75,55 +75,7 @@ impl ResponseCache {
     }
 }
 
-/// Grid for an axis in log10(Hz): a labelled line per decade, fainter lines at 2…9 × each decade.
-/// egui_plot fades lines and labels by `step_size` in pixels; the sizes given here are chosen so
-/// decades stay labelled on a narrow plot, not the true spacing.
-pub fn decade_spacer(input: GridInput) -> Vec<GridMark> {
-    let (lo, hi) = input.bounds;
-    let mut marks = Vec::new();
-    if !(lo.is_finite() && hi.is_finite()) || hi - lo > 40.0 {
-        return marks;
-    }
-    for d in (lo.floor() as i32)..=(hi.ceil() as i32) {
-        let base = d as f64;
-        if base >= lo && base <= hi {
-            marks.push(GridMark {
-                value: base,
-                step_size: 10.0,
-            });
-        }
-        for m in 2..10 {
-            let v = base + (m as f64).log10();
-            if v >= lo && v <= hi {
-                marks.push(GridMark {
-                    value: v,
-                    step_size: 0.6,
-                });
-            }
-        }
-    }
-    marks
-}
-
-/// Hover text for a plot whose x axis is frequency (log10 Hz when `log`): the series name, the
-/// frequency in Hz and the value with `unit`.
-pub fn hover_text(pos: &HoverPosition<'_>, log: bool, unit: &str) -> String {
-    let (name, p) = match pos {
-        HoverPosition::NearDataPoint {
-            plot_name,
-            position,
-            ..
-        } => (*plot_name, *position),
-        HoverPosition::Elsewhere { position } => ("", *position),
-    };
-    let f = if log { 10f64.powf(p.x) } else { p.x };
-    let head = if name.is_empty() {
-        String::new()
-    } else {
-        format!("{name}\n")
-    };
-    format!("{head}{f:.3} Hz\n{:.2}{unit}", p.y)
-}
+use crate::gui::plot::{decade_spacer, hover_text};
 
 fn hz_ticks(mark: GridMark, _range: &std::ops::RangeInclusive<f64>) -> String {
     let f = 10f64.powf(mark.value);

@@ -9,11 +9,10 @@ use egui_plot::{
     AxisHints, HPlacement, Line, LineStyle, Plot, PlotPoint, PlotPoints, Points, Text,
 };
 
-use super::response::decade_spacer;
-use super::trace::{FILTERED_COLOUR, RAW_COLOUR};
 use crate::analysis::mains::MainsReport;
 use crate::dsp::Section;
 use crate::dsp::response;
+use crate::gui::plot::{FILTERED_COLOUR, RAW_COLOUR, decade_spacer, hover_text};
 use crate::msg::{Control, SpectrumFrame};
 
 /// Colour of the held estimate.
@@ -261,7 +260,7 @@ pub fn show(
                     }
                 }),
         ])
-        .label_formatter(move |pos| Some(super::response::hover_text(pos, log, " dB")));
+        .label_formatter(move |pos| Some(hover_text(pos, log, " dB")));
     if log {
         plot = plot.x_grid_spacer(decade_spacer).x_axis_formatter(|m, _| {
             if (m.value - m.value.round()).abs() > 1e-6 {

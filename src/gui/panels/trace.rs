@@ -4,36 +4,10 @@ use eframe::egui;
 use egui_plot::{HLine, Legend, Line, Plot, PlotPoints, VLine};
 
 use crate::gui::state::{Settings, View};
-use crate::msg::Columns;
 
-/// Colour of the unfiltered trace.
-pub const RAW_COLOUR: egui::Color32 = egui::Color32::from_rgb(132, 146, 166);
-/// Colour of the filtered trace.
-pub const FILTERED_COLOUR: egui::Color32 = egui::Color32::from_rgb(0, 168, 150);
-
-/// Colour of the measurement cursors.
-pub const CURSOR_COLOUR: egui::Color32 = egui::Color32::from_rgb(230, 200, 60);
-
-/// Colour of event markers.
-pub const MARKER_COLOUR: egui::Color32 = egui::Color32::from_rgb(190, 90, 200);
-
-/// Colour of the beat markers.
-pub const BEAT_COLOUR: egui::Color32 = egui::Color32::from_rgba_premultiplied(120, 70, 40, 90);
-
-/// Turns min/max columns into one polyline that visits both ends of every column, so a column
-/// holding a QRS still reaches its full height at any zoom.
-pub fn column_points(c: &Columns, scale: f64) -> Vec<[f64; 2]> {
-    let mut pts = Vec::with_capacity(c.min.len() * 2);
-    for (i, (&lo, &hi)) in c.min.iter().zip(&c.max).enumerate() {
-        let x = c.t0_s + (i as f64 + 0.5) * c.dt_s;
-        let (a, b) = if i % 2 == 0 { (lo, hi) } else { (hi, lo) };
-        pts.push([x, a as f64 * scale]);
-        if hi != lo {
-            pts.push([x, b as f64 * scale]);
-        }
-    }
-    pts
-}
+use crate::gui::plot::{
+    BEAT_COLOUR, CURSOR_COLOUR, FILTERED_COLOUR, MARKER_COLOUR, RAW_COLOUR, column_points,
+};
 
 /// What the user has done to the traces: cursors, and whether the view follows the data.
 #[derive(Debug, Clone, PartialEq)]
@@ -82,10 +56,7 @@ impl TraceState {
     pub fn readout(&self, unit: super::super::state::TraceUnit) -> Option<String> {
         let (a, b) = (self.cursors[0]?, self.cursors[1]?);
         let (dt, dv, rate) = cursor_deltas(a, b);
-        let (k, u) = match unit {
-            super::super::state::TraceUnit::Microvolts => (1.0, "µV"),
-            super::super::state::TraceUnit::Millivolts => (1e-3, "mV"),
-        };
+        let (k, u) = (unit.factor(), unit.symbol());
         Some(format!(
             "Δt {:.1} ms · ΔV {:.3} {u}{}",
             dt * 1e3,
@@ -301,6 +272,7 @@ pub fn show(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::msg::Columns;
 
     #[test]
     fn cursor_deltas_give_the_rate_of_an_rr_interval() {
