@@ -1149,7 +1149,17 @@ impl LeadlineApp {
                 self.side_panel(ui, fs);
             });
 
-        self.response.update(&self.settings.chain, fs);
+        // The response of the chain that runs (the snapshot's sections), or of the one set
+        // before any stream.
+        match self.view.snapshot.as_ref() {
+            Some(snap) => self.response.update_running(
+                &snap.sections,
+                &snap.chain,
+                snap.fs_hz,
+                snap.chain_error.as_deref(),
+            ),
+            None => self.response.update(&self.settings.chain, fs),
+        }
         egui::CentralPanel::default_margins()
             .frame(bare(egui::Frame::central_panel(&style)))
             .show(ui, |ui| {

@@ -4,6 +4,7 @@
 use eframe::egui;
 use egui_plot::{GridMark, Line, Plot, PlotPoints, VLine};
 
+use crate::dsp::Section;
 use crate::dsp::chain::ChainSettings;
 use crate::dsp::response::{self, Point, Summary};
 
@@ -22,25 +23,16 @@ pub struct ResponseCache {
 }
 
 impl ResponseCache {
-    /// Recomputes when `chain` or `fs` differ from the cached ones.
+    /// Recomputes when `chain` or `fs` differ from the cached ones (before any stream: the
+    /// chain as set, designed here).
     pub fn update(&mut self, chain: &ChainSettings, fs: f64) {
         if self.key == Some((*chain, fs)) {
             return;
         }
-        self.key = Some((*chain, fs));
         match chain.design(fs) {
-            Ok(sections) => {
-                let freqs = response::log_frequencies(0.01, 0.499 * fs, POINTS);
-                self.points = response::evaluate(&sections, &freqs, fs);
-                self.summary = Some(response::summary(&sections, fs));
-                self.error = None;
-                use crate::conform::{Mode, check};
-                self.conform = check(chain, fs, Mode::Monitoring, false)
-                    .ok()
-                    .zip(check(chain, fs, Mode::Diagnostic, false).ok())
-                    .map(|(m, d)| [m, d]);
-            }
+            Ok(sections) => self.update_running(&sections, chain, fs, None),
             Err(e) => {
+                self.key = Some((*chain, fs));
                 self.points.clear();
                 self.summary = None;
                 self.conform = None;
@@ -49,11 +41,35 @@ impl ResponseCache {
         }
     }
 
+    /// Recomputes from the sections the DSP thread runs (`chain` at `fs`), when they changed;
+    /// `refused` is why the chain last asked for was not taken, if it was not.
+    pub fn update_running(
+        &mut self,
+        sections: &[Section],
+        chain: &ChainSettings,
+        fs: f64,
+        refused: Option<&str>,
+    ) {
+        self.error = refused.map(|e| format!("not applied: {e}"));
+        if self.key == Some((*chain, fs)) {
+            return;
+        }
+        self.key = Some((*chain, fs));
+        let freqs = response::log_frequencies(0.01, 0.499 * fs, POINTS);
+        self.points = response::evaluate(sections, &freqs, fs);
+        self.summary = Some(response::summary(sections, fs));
+        use crate::conform::{Mode, check};
+        self.conform = check(chain, fs, Mode::Monitoring, false)
+            .ok()
+            .zip(check(chain, fs, Mode::Diagnostic, false).ok())
+            .map(|(m, d)| [m, d]);
+    }
+
     /// The summary line: band edges and the delay the QRS sees.
     pub fn summary_text(&self) -> String {
         match (&self.summary, &self.error) {
-            (_, Some(e)) => e.clone(),
-            (Some(s), None) => {
+            (None, Some(e)) => e.clone(),
+            (Some(s), refused) => {
                 let lo = s
                     .low_3db_hz
                     .map_or("DC".to_string(), |f| format!("{f:.3} Hz"));
@@ -61,13 +77,16 @@ impl ResponseCache {
                     .high_3db_hz
                     .map_or("Nyquist".to_string(), |f| format!("{f:.1} Hz"));
                 format!(
-                    "−3 dB band {lo} … {hi} · peak gain {:.2} dB · group delay at 10 Hz {:.1} ms",
+                    "−3 dB band {lo} … {hi} · peak gain {:.2} dB · group delay at 10 Hz {:.1} ms{}",
                     if s.peak_db.abs() < 0.005 {
                         0.0
                     } else {
                         s.peak_db
                     },
-                    s.delay_10hz_s * 1e3
+                    s.delay_10hz_s * 1e3,
+                    refused
+                        .as_ref()
+                        .map_or(String::new(), |e| format!(" · {e}"))
                 )
             }
             (None, None) => String::new(),
