@@ -578,7 +578,13 @@ impl Detector {
         // neighbours of the best.
         let span = (hi - lo) as usize;
         let (mut best_off, mut best_c) = (None, here);
+        // A QRS that matches has, at the template's centre, a band-passed value of the
+        // template's size: places far below it are not worth the correlation.
+        let centre = t[n / 2].abs();
         for off in (0..=span).step_by(2) {
+            if y[off + n / 2].abs() < 0.3 * centre {
+                continue;
+            }
             if let Some(c) = corr(off)
                 && c > best_c
             {
