@@ -424,14 +424,24 @@ impl Detector {
 
     /// Steepest slope in the integration window that ends at the candidate.
     fn max_slope(&self, c: u64) -> f64 {
-        // The five-point derivative again, from the band-passed samples kept.
+        // The five-point derivative again, from the band-passed samples kept: the window is
+        // read once, then differenced.
         let start = c.saturating_sub(self.mwi_len as u64).max(4);
-        (start..=c)
-            .filter_map(|j| {
-                let b = |k: u64| self.bp_ring.get(j - k);
-                Some((2.0 * b(0)? + b(1)? - b(3)? - 2.0 * b(4)?).abs() * self.fs / 8.0)
-            })
-            .fold(0.0, f64::max)
+        let mut w = [0.0f64; 5];
+        let mut have = 0usize;
+        let mut best = 0.0f64;
+        for j in start - 4..=c {
+            let Some(v) = self.bp_ring.get(j) else {
+                have = 0;
+                continue;
+            };
+            w = [v, w[0], w[1], w[2], w[3]];
+            have += 1;
+            if have >= 5 {
+                best = best.max((2.0 * w[0] + w[1] - w[3] - 2.0 * w[4]).abs());
+            }
+        }
+        best * self.fs / 8.0
     }
 
     fn thr1(&self) -> f64 {
