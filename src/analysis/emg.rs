@@ -201,6 +201,24 @@ pub fn band_sections(s: &EmgSettings, fs: f64) -> Result<Vec<Section>, EmgError>
     Ok(v)
 }
 
+/// The band-pass (and notch) forward and backward over `x` extended by half a second of odd
+/// reflection at each end: a Q-30 mains notch rings for a few tenths of a second, longer than
+/// the filter's own edge padding, and at a record's ends that ringing would read as a
+/// contraction. The extension is cut off again.
+fn band_pass(sos: &[Section], x: &[f64], fs: f64) -> Result<Vec<f64>, EmgError> {
+    let n = x.len();
+    let pad = ((0.5 * fs) as usize).min(n.saturating_sub(1));
+    if n == 0 {
+        return Err(EmgError::TooShort("no samples".into()));
+    }
+    let mut ext = Vec::with_capacity(n + 2 * pad);
+    ext.extend((1..=pad).rev().map(|i| 2.0 * x[0] - x[i]));
+    ext.extend_from_slice(x);
+    ext.extend((1..=pad).map(|i| 2.0 * x[n - 1] - x[n - 1 - i]));
+    let y = zero_phase(sos, &ext).map_err(|e| EmgError::TooShort(e.to_string()))?;
+    Ok(y[pad..pad + n].to_vec())
+}
+
 fn lowpass_zero_phase(x: &[f64], hz: f64, fs: f64) -> Result<Vec<f64>, EmgError> {
     let sos = butterworth_lowpass(2, hz, fs).map_err(|e| EmgError::Setting(e.to_string()))?;
     zero_phase(&sos, x).map_err(|e| EmgError::TooShort(e.to_string()))
@@ -362,7 +380,7 @@ pub fn analyse(x: &[f64], fs: f64, s: &EmgSettings) -> Result<EmgAnalysis, EmgEr
         )));
     }
     let sos = band_sections(s, fs)?;
-    let filtered = zero_phase(&sos, x).map_err(|e| EmgError::TooShort(e.to_string()))?;
+    let filtered = band_pass(&sos, x, fs)?;
     let env = envelope(&filtered, s.envelope_hz, fs)?;
     let rms = moving_rms(&filtered, ((s.rms_ms * 1e-3 * fs).round() as usize).max(1));
     let det = envelope(&filtered, s.onset_hz.min(0.45 * fs), fs)?;
@@ -633,6 +651,25 @@ mod tests {
         let (mean, median) = mean_median_hz(&f, &p).unwrap();
         assert!((mean - 50.0).abs() < 1e-9);
         assert!((median - 49.5).abs() < 1.0, "{median}");
+    }
+
+    #[test]
+    fn a_record_of_rest_and_mains_has_no_contraction_at_its_ends() {
+        // 60 Hz pickup and a little noise, nothing else: the notch's ringing at the record's
+        // ends must not read as a contraction.
+        let fs = 2000.0;
+        let mut rng = crate::rng::Rng::new(5);
+        let x: Vec<f64> = (0..(6.0 * fs) as usize)
+            .map(|i| {
+                40.0 * (std::f64::consts::TAU * 60.0 * i as f64 / fs).sin() + 5.0 * rng.normal()
+            })
+            .collect();
+        let s = EmgSettings {
+            notch_hz: Some(60.0),
+            ..EmgSettings::default()
+        };
+        let an = analyse(&x, fs, &s).unwrap();
+        assert!(an.bursts.is_empty(), "{:?}", an.bursts);
     }
 
     #[test]
