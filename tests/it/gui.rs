@@ -449,7 +449,18 @@ fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
     );
     assert_eq!(gaps, 0);
     // The trace is in µV of the new board: 717 counts = 1000.977 µV (by hand, 10-bit 5 V ×1000).
-    let s = h.state().view().snapshot.clone().unwrap();
+    // The first snapshot at the new scale may hold a single new sample: wait for a tenth of a
+    // second of the new board's samples before reading the peak.
+    let deadline = Instant::now() + Duration::from_secs(15);
+    let s = loop {
+        h.run_steps(1);
+        let s = h.state().view().snapshot.clone().unwrap();
+        if s.stats.frames >= frames_after + 25 {
+            break s;
+        }
+        assert!(Instant::now() < deadline, "the stream stopped after the rescale");
+        std::thread::sleep(Duration::from_millis(30));
+    };
     let top = s.traces[0].raw.max.iter().copied().fold(f32::MIN, f32::max);
     assert!((f64::from(top) - 1_000.976_562_5).abs() < 0.01, "{top} µV");
     stop.store(true, std::sync::atomic::Ordering::Relaxed);
