@@ -16,7 +16,7 @@ use std::collections::BTreeMap;
 use serde::Serialize;
 
 use super::eseries::Series;
-use super::parts::Stage;
+use super::stage::{OpampNeed, Percentiles, Stage};
 use super::{C, cdiv, cmul};
 
 /// What a part is.
@@ -413,27 +413,6 @@ fn stage_response(topology: &str, parts: &[&Part], f: f64) -> C {
         Some(Err(v)) => (v, 0.0),
         None => (0.0, 0.0),
     }
-}
-
-/// Three percentiles of a figure over the tolerance draws.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
-pub struct Percentiles {
-    pub p5: f64,
-    pub p50: f64,
-    pub p95: f64,
-}
-
-/// What a stage asks of its op-amp.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
-pub struct OpampNeed {
-    /// Gain-bandwidth needed, Hz: 100 × Q × f0 for a Sallen–Key stage (common practice; the
-    /// "100 × Q × fc" rule of thumb is recalled from memory of TI's filter notes), 100 × f0 for a
-    /// follower after an RC section or a twin-T.
-    pub gbw_hz: f64,
-    /// Output offset from the input bias current through the DC resistance at the + input, mV.
-    pub offset_mv: f64,
-    /// The bias current assumed, A.
-    pub bias_current_a: f64,
 }
 
 /// The op-amp a stage needs (None for the in-amp stage).

@@ -1,6 +1,7 @@
 //! From chosen corners to real parts: E-series values ([`eseries`]), the circuits ([`rc`],
 //! [`sallen_key`], [`twin_t`], [`inamp`]), their exact s-domain responses, tolerance spreads by
-//! Monte Carlo ([`tolerance`]), a realisation of a whole chain ([`parts`]) and the gain budget
+//! Monte Carlo ([`tolerance`]), one built stage ([`stage`]), a realisation of a whole chain
+//! ([`parts`]), the realised circuit ([`circuit`]) and the gain budget
 //! ([`gain_budget`]). Values are in ohms, farads, hertz.
 
 pub mod circuit;
@@ -11,6 +12,7 @@ pub mod parts;
 pub mod rc;
 pub mod sallen_key;
 pub mod schematic;
+pub mod stage;
 pub mod tolerance;
 pub mod twin_t;
 

@@ -458,7 +458,10 @@ fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
         if s.stats.frames >= frames_after + 25 {
             break s;
         }
-        assert!(Instant::now() < deadline, "the stream stopped after the rescale");
+        assert!(
+            Instant::now() < deadline,
+            "the stream stopped after the rescale"
+        );
         std::thread::sleep(Duration::from_millis(30));
     };
     let top = s.traces[0].raw.max.iter().copied().fold(f32::MIN, f32::max);
