@@ -137,79 +137,10 @@ impl Pipeline {
                     .map_err(|e| PipelineError::Spawn("recorder", e))?,
             );
         }
-        let mut serial_status = None;
-        let mut net_status = None;
-        let (mut replay_tx, mut replay_status) = (None, None);
-        match cfg.source {
-            SourceSpec::File(spec) => {
-                let status: crate::source::replay::ReplayHandle = Default::default();
-                replay_status = Some(Arc::clone(&status));
-                // Replay commands are a few per second at most.
-                let (tx, rx) = unbounded();
-                replay_tx = Some(tx);
-                let stop = Arc::clone(&stop);
-                threads.push(
-                    std::thread::Builder::new()
-                        .name("leadline-replay".into())
-                        .spawn(move || crate::source::replay::run(spec, raw_tx, rx, &stop, status))
-                        .map_err(|e| PipelineError::Spawn("replay", e))?,
-                );
-                drop(synth_rx);
-            }
-            SourceSpec::Udp(spec) => {
-                // A port in use is reported at once, not from inside the thread.
-                let socket =
-                    crate::source::net::bind_udp(spec.bind).map_err(PipelineError::Source)?;
-                let status: crate::source::net::NetHandle = Default::default();
-                net_status = Some(Arc::clone(&status));
-                let stop = Arc::clone(&stop);
-                threads.push(
-                    std::thread::Builder::new()
-                        .name("leadline-udp".into())
-                        .spawn(move || {
-                            crate::source::net::run_udp(spec, socket, raw_tx, &stop, status)
-                        })
-                        .map_err(|e| PipelineError::Spawn("udp", e))?,
-                );
-                drop(synth_rx);
-            }
-            SourceSpec::Tcp(spec) => {
-                let status: crate::source::net::NetHandle = Default::default();
-                net_status = Some(Arc::clone(&status));
-                let stop = Arc::clone(&stop);
-                threads.push(
-                    std::thread::Builder::new()
-                        .name("leadline-tcp".into())
-                        .spawn(move || crate::source::net::run_tcp(spec, raw_tx, &stop, status))
-                        .map_err(|e| PipelineError::Spawn("tcp", e))?,
-                );
-                drop(synth_rx);
-            }
-            SourceSpec::Serial(spec) => {
-                let status: crate::source::serial::StatusHandle = Default::default();
-                serial_status = Some(Arc::clone(&status));
-                let stop = Arc::clone(&stop);
-                threads.push(
-                    std::thread::Builder::new()
-                        .name("leadline-serial".into())
-                        .spawn(move || crate::source::serial::run(spec, raw_tx, &stop, status))
-                        .map_err(|e| PipelineError::Spawn("serial", e))?,
-                );
-                drop(synth_rx);
-            }
-            SourceSpec::Synth(settings) => {
-                let limit = cfg.limit_s.map(|s| (s * settings.fs_hz).round() as u64);
-                let synth = Synth::new(settings)?;
-                let stop = Arc::clone(&stop);
-                let pacing = cfg.pacing;
-                threads.push(
-                    std::thread::Builder::new()
-                        .name("leadline-source".into())
-                        .spawn(move || run_synth(synth, raw_tx, synth_rx, &stop, pacing, limit))
-                        .map_err(|e| PipelineError::Spawn("source", e))?,
-                );
-            }
-        }
+        let limit = cfg.limit_s;
+        let (source_thread, links) =
+            spawn_source(cfg.source, raw_tx, synth_rx, &stop, cfg.pacing, limit)?;
+        threads.push(source_thread);
         let dsp_cfg = DspConfig {
             chain: cfg.chain,
             window_s: cfg.window_s,
@@ -245,10 +176,10 @@ impl Pipeline {
             stop,
             threads,
             label,
-            serial_status,
-            net_status,
-            replay_tx,
-            replay_status,
+            serial_status: links.serial_status,
+            net_status: links.net_status,
+            replay_tx: links.replay_tx,
+            replay_status: links.replay_status,
             recorder_tx,
             recorder_status,
         })
@@ -360,4 +291,82 @@ impl Drop for Pipeline {
     fn drop(&mut self) {
         self.shutdown();
     }
+}
+/// What the monitor keeps of a running source: its status and its command channel.
+#[derive(Default)]
+struct SourceLinks {
+    serial_status: Option<crate::source::serial::StatusHandle>,
+    net_status: Option<crate::source::net::NetHandle>,
+    replay_tx: Option<Sender<crate::source::replay::ReplayCommand>>,
+    replay_status: Option<crate::source::replay::ReplayHandle>,
+}
+
+/// Starts the source's thread.
+fn spawn_source(
+    source: SourceSpec,
+    raw_tx: Sender<crate::msg::RawBlock>,
+    synth_rx: Receiver<SynthSettings>,
+    stop: &Arc<AtomicBool>,
+    pacing: Pacing,
+    limit_s: Option<f64>,
+) -> Result<(JoinHandle<()>, SourceLinks), PipelineError> {
+    let mut links = SourceLinks::default();
+    let thread;
+    match source {
+        SourceSpec::File(spec) => {
+            let status: crate::source::replay::ReplayHandle = Default::default();
+            links.replay_status = Some(Arc::clone(&status));
+            // Replay commands are a few per second at most.
+            let (tx, rx) = unbounded();
+            links.replay_tx = Some(tx);
+            let stop = Arc::clone(stop);
+            thread = std::thread::Builder::new()
+                .name("leadline-replay".into())
+                .spawn(move || crate::source::replay::run(spec, raw_tx, rx, &stop, status))
+                .map_err(|e| PipelineError::Spawn("replay", e))?;
+            drop(synth_rx);
+        }
+        SourceSpec::Udp(spec) => {
+            // A port in use is reported at once, not from inside the thread.
+            let socket = crate::source::net::bind_udp(spec.bind).map_err(PipelineError::Source)?;
+            let status: crate::source::net::NetHandle = Default::default();
+            links.net_status = Some(Arc::clone(&status));
+            let stop = Arc::clone(stop);
+            thread = std::thread::Builder::new()
+                .name("leadline-udp".into())
+                .spawn(move || crate::source::net::run_udp(spec, socket, raw_tx, &stop, status))
+                .map_err(|e| PipelineError::Spawn("udp", e))?;
+            drop(synth_rx);
+        }
+        SourceSpec::Tcp(spec) => {
+            let status: crate::source::net::NetHandle = Default::default();
+            links.net_status = Some(Arc::clone(&status));
+            let stop = Arc::clone(stop);
+            thread = std::thread::Builder::new()
+                .name("leadline-tcp".into())
+                .spawn(move || crate::source::net::run_tcp(spec, raw_tx, &stop, status))
+                .map_err(|e| PipelineError::Spawn("tcp", e))?;
+            drop(synth_rx);
+        }
+        SourceSpec::Serial(spec) => {
+            let status: crate::source::serial::StatusHandle = Default::default();
+            links.serial_status = Some(Arc::clone(&status));
+            let stop = Arc::clone(stop);
+            thread = std::thread::Builder::new()
+                .name("leadline-serial".into())
+                .spawn(move || crate::source::serial::run(spec, raw_tx, &stop, status))
+                .map_err(|e| PipelineError::Spawn("serial", e))?;
+            drop(synth_rx);
+        }
+        SourceSpec::Synth(settings) => {
+            let limit = limit_s.map(|s| (s * settings.fs_hz).round() as u64);
+            let synth = Synth::new(settings)?;
+            let stop = Arc::clone(stop);
+            thread = std::thread::Builder::new()
+                .name("leadline-source".into())
+                .spawn(move || run_synth(synth, raw_tx, synth_rx, &stop, pacing, limit))
+                .map_err(|e| PipelineError::Spawn("source", e))?;
+        }
+    }
+    Ok((thread, links))
 }

@@ -160,68 +160,7 @@ pub fn realise(chain: &ChainSettings, opts: &PartsOptions) -> Result<Vec<Stage>,
     }
 
     for (topology, f0, q) in sections {
-        let mut best: Option<(f64, BTreeMap<&'static str, f64>)> = None;
-        let mut consider = |cost: f64, parts: BTreeMap<&'static str, f64>| {
-            if best.as_ref().is_none_or(|b| cost < b.0) {
-                best = Some((cost, parts));
-            }
-        };
-        match topology {
-            "rc-highpass" | "rc-lowpass" => {
-                for &c in &caps {
-                    let r = s.nearest(rc::r_for(f0, c));
-                    consider(r_cost(r), BTreeMap::from([("R", r), ("C", c)]));
-                }
-            }
-            "sallen-key-highpass" => {
-                let q = q.unwrap_or(std::f64::consts::FRAC_1_SQRT_2);
-                for &c in &caps {
-                    let (r1, r2) = sallen_key::highpass_resistors(f0, q, c);
-                    let (r1, r2) = (s.nearest(r1), s.nearest(r2));
-                    consider(
-                        r_cost(r1) + r_cost(r2),
-                        BTreeMap::from([("C1", c), ("C2", c), ("R1", r1), ("R2", r2)]),
-                    );
-                }
-            }
-            "sallen-key-lowpass" => {
-                let q = q.unwrap_or(std::f64::consts::FRAC_1_SQRT_2);
-                for &c2 in &caps {
-                    for &c1 in &caps {
-                        if let Some((r1, r2)) = sallen_key::lowpass_resistors(f0, q, c1, c2) {
-                            let (r1, r2) = (s.nearest(r1), s.nearest(r2));
-                            // Prefer a ratio near 4Q² (nearly equal resistors).
-                            let ratio_cost = 0.3 * (c1 / c2 / (4.0 * q * q)).ln().abs();
-                            consider(
-                                r_cost(r1) + r_cost(r2) + ratio_cost,
-                                BTreeMap::from([("C1", c1), ("C2", c2), ("R1", r1), ("R2", r2)]),
-                            );
-                        }
-                    }
-                }
-            }
-            _ => {
-                // A notch is only useful where it is put: each R of the twin-T is made of two
-                // series resistors (Ra + Rb) from the series, which lands within about 0.1 %.
-                let k = twin_t::k_for_q(q.unwrap_or(0.25));
-                for &c in &caps {
-                    let want = 1.0 / (std::f64::consts::TAU * f0 * c);
-                    let (ra, rb) = series_pair(s, want);
-                    let err = ((ra + rb) / want).ln().abs();
-                    consider(
-                        r_cost(want) + 50.0 * err,
-                        BTreeMap::from([
-                            ("R", ra + rb),
-                            ("Ra", ra),
-                            ("Rb", rb),
-                            ("C", c),
-                            ("k", k),
-                        ]),
-                    );
-                }
-            }
-        }
-        let Some((_, parts)) = best else {
+        let Some(parts) = choose(topology, f0, q, &caps, s) else {
             return Err(PartsError::NoCapacitor {
                 stage: format!("{topology} at {f0} Hz"),
                 caps: caps_text(&caps),
@@ -234,34 +173,106 @@ pub fn realise(chain: &ChainSettings, opts: &PartsOptions) -> Result<Vec<Stage>,
             parts,
             ..Stage::default()
         };
-        if topology == "twin-t" {
-            // The feedback fraction from two series resistors: k = Rk2 / (Rk1 + Rk2).
-            let k = stage.parts.get("k").copied().unwrap_or(0.0);
-            if k > 0.0 {
-                let (a, b) = s.best_pair((1.0 - k) / k);
-                let (rk2, rk1) = (a * 1e4, b * 1e4);
-                stage.parts.insert("Rk1", rk1);
-                stage.parts.insert("Rk2", rk2);
-                stage.parts.insert("k", rk2 / (rk1 + rk2));
-            } else {
-                // Passive (Q 0.25): the centre node to ground through the follower of 0 V.
-                stage.parts.insert("Rk1", 10e6);
-                stage.parts.insert("Rk2", 1.0);
-            }
-        }
-        if let Some((f, rq)) = stage.corner(&stage.parts) {
-            stage.realised_hz = Some(f);
-            stage.q = rq;
-            stage.error_pct = 100.0 * (f / f0 - 1.0);
-        }
-        stage.spread = Some(spread(&stage, &opts.tolerances));
-        stage.opamp = Some(super::circuit::opamp_need(&stage, opts.bias_current_a));
-        if topology == "twin-t" {
-            super::circuit::notch_tolerance(&mut stage, &opts.tolerances, f0);
-        }
+        finish(&mut stage, s, opts);
         add(stage);
     }
     Ok(out)
+}
+
+/// The cheapest parts (nearest series values, fewest odd values) for one section.
+fn choose(
+    topology: &'static str,
+    f0: f64,
+    q: Option<f64>,
+    caps: &[f64],
+    s: Series,
+) -> Option<BTreeMap<&'static str, f64>> {
+    let mut best: Option<(f64, BTreeMap<&'static str, f64>)> = None;
+    let mut consider = |cost: f64, parts: BTreeMap<&'static str, f64>| {
+        if best.as_ref().is_none_or(|b| cost < b.0) {
+            best = Some((cost, parts));
+        }
+    };
+    match topology {
+        "rc-highpass" | "rc-lowpass" => {
+            for &c in caps {
+                let r = s.nearest(rc::r_for(f0, c));
+                consider(r_cost(r), BTreeMap::from([("R", r), ("C", c)]));
+            }
+        }
+        "sallen-key-highpass" => {
+            let q = q.unwrap_or(std::f64::consts::FRAC_1_SQRT_2);
+            for &c in caps {
+                let (r1, r2) = sallen_key::highpass_resistors(f0, q, c);
+                let (r1, r2) = (s.nearest(r1), s.nearest(r2));
+                consider(
+                    r_cost(r1) + r_cost(r2),
+                    BTreeMap::from([("C1", c), ("C2", c), ("R1", r1), ("R2", r2)]),
+                );
+            }
+        }
+        "sallen-key-lowpass" => {
+            let q = q.unwrap_or(std::f64::consts::FRAC_1_SQRT_2);
+            for &c2 in caps {
+                for &c1 in caps {
+                    if let Some((r1, r2)) = sallen_key::lowpass_resistors(f0, q, c1, c2) {
+                        let (r1, r2) = (s.nearest(r1), s.nearest(r2));
+                        // Prefer a ratio near 4Q² (nearly equal resistors).
+                        let ratio_cost = 0.3 * (c1 / c2 / (4.0 * q * q)).ln().abs();
+                        consider(
+                            r_cost(r1) + r_cost(r2) + ratio_cost,
+                            BTreeMap::from([("C1", c1), ("C2", c2), ("R1", r1), ("R2", r2)]),
+                        );
+                    }
+                }
+            }
+        }
+        _ => {
+            // A notch is only useful where it is put: each R of the twin-T is made of two
+            // series resistors (Ra + Rb) from the series, which lands within about 0.1 %.
+            let k = twin_t::k_for_q(q.unwrap_or(0.25));
+            for &c in caps {
+                let want = 1.0 / (std::f64::consts::TAU * f0 * c);
+                let (ra, rb) = series_pair(s, want);
+                let err = ((ra + rb) / want).ln().abs();
+                consider(
+                    r_cost(want) + 50.0 * err,
+                    BTreeMap::from([("R", ra + rb), ("Ra", ra), ("Rb", rb), ("C", c), ("k", k)]),
+                );
+            }
+        }
+    }
+    best.map(|b| b.1)
+}
+
+/// The twin-T's divider, the realised corner, the spread, the op-amp and the notch figures.
+fn finish(stage: &mut Stage, s: Series, opts: &PartsOptions) {
+    let (topology, f0) = (stage.topology, stage.design_hz.unwrap_or(0.0));
+    if topology == "twin-t" {
+        // The feedback fraction from two series resistors: k = Rk2 / (Rk1 + Rk2).
+        let k = stage.parts.get("k").copied().unwrap_or(0.0);
+        if k > 0.0 {
+            let (a, b) = s.best_pair((1.0 - k) / k);
+            let (rk2, rk1) = (a * 1e4, b * 1e4);
+            stage.parts.insert("Rk1", rk1);
+            stage.parts.insert("Rk2", rk2);
+            stage.parts.insert("k", rk2 / (rk1 + rk2));
+        } else {
+            // Passive (Q 0.25): the centre node to ground through the follower of 0 V.
+            stage.parts.insert("Rk1", 10e6);
+            stage.parts.insert("Rk2", 1.0);
+        }
+    }
+    if let Some((f, rq)) = stage.corner(&stage.parts) {
+        stage.realised_hz = Some(f);
+        stage.q = rq;
+        stage.error_pct = 100.0 * (f / f0 - 1.0);
+    }
+    stage.spread = Some(spread(stage, &opts.tolerances));
+    stage.opamp = Some(super::circuit::opamp_need(stage, opts.bias_current_a));
+    if topology == "twin-t" {
+        super::circuit::notch_tolerance(stage, &opts.tolerances, f0);
+    }
 }
 
 fn perturbed(stage: &Stage, rng: &mut Rng, t: &Tolerances) -> BTreeMap<&'static str, f64> {

@@ -136,165 +136,18 @@ pub fn draw(c: &Circuit) -> Drawing {
         let cell = cell_width(topology);
         let mut pen = Pen { d: &mut d, x0 };
         x0 += cell;
-        let role = |r: &str, nth: usize| parts.iter().filter(|p| p.role == r).nth(nth).copied();
         pen.text(cell / 2.0, -80.0, stage_title(topology), true);
         if i == 0 {
             pen.text(0.0, y - 8.0, input.clone(), false);
         }
         pen.dot(0.0, y);
         match *topology {
-            "inamp-gain" => {
-                if let (Some(u), Some(rg)) = (role("U", 0), role("Rg", 0)) {
-                    pen.line(0.0, y, 60.0, y);
-                    pen.line(60.0, y - 30.0, 60.0, y + 30.0);
-                    pen.line(60.0, y - 30.0, 130.0, y);
-                    pen.line(60.0, y + 30.0, 130.0, y);
-                    pen.text(95.0, y - 46.0, u.designator.clone(), true);
-                    pen.text(95.0, y - 34.0, format!("in-amp, G = {:.2}", u.value), true);
-                    pen.line(130.0, y, cell, y);
-                    pen.resistor((75.0, y + 60.0), (115.0, y + 60.0), rg);
-                    pen.line(75.0, y + 60.0, 75.0, y + 24.0);
-                    pen.line(115.0, y + 60.0, 115.0, y + 12.0);
-                    pen.text(60.0, y + 95.0, "gain pins", false);
-                }
-            }
-            "rc-highpass" | "rc-lowpass" => {
-                let (series, shunt) = if *topology == "rc-highpass" {
-                    (role("C", 0), role("R", 0))
-                } else {
-                    (role("R", 0), role("C", 0))
-                };
-                if let (Some(s), Some(sh), Some(u)) = (series, shunt, role("U", 0)) {
-                    place(&mut pen, (0.0, y), (100.0, y), s);
-                    pen.dot(100.0, y);
-                    place(&mut pen, (100.0, y), (100.0, y + 80.0), sh);
-                    pen.ground(100.0, y + 80.0);
-                    pen.line(100.0, y, 160.0, y);
-                    pen.follower(160.0, y, u);
-                    pen.line(200.0, y, cell, y);
-                }
-            }
+            "inamp-gain" => inamp_cell(&mut pen, &parts, y, cell),
+            "rc-highpass" | "rc-lowpass" => rc_cell(&mut pen, &parts, y, cell, topology),
             "sallen-key-highpass" | "sallen-key-lowpass" => {
-                let hp = *topology == "sallen-key-highpass";
-                let (first, second, to_out, to_gnd) = if hp {
-                    (role("C1", 0), role("C2", 0), role("R1", 0), role("R2", 0))
-                } else {
-                    (role("R1", 0), role("R2", 0), role("C1", 0), role("C2", 0))
-                };
-                if let (Some(a), Some(b), Some(fb), Some(g), Some(u)) =
-                    (first, second, to_out, to_gnd, role("U", 0))
-                {
-                    place(&mut pen, (0.0, y), (70.0, y), a);
-                    pen.dot(70.0, y);
-                    place(&mut pen, (70.0, y), (140.0, y), b);
-                    pen.dot(140.0, y);
-                    place(&mut pen, (140.0, y), (140.0, y + 90.0), g);
-                    pen.ground(140.0, y + 90.0);
-                    pen.line(140.0, y, 160.0, y);
-                    pen.follower(160.0, y, u);
-                    pen.line(200.0, y, cell, y);
-                    pen.dot(215.0, y);
-                    // Feedback part from the first junction to the output, over the top.
-                    pen.line(70.0, y, 70.0, y - 45.0);
-                    place(&mut pen, (70.0, y - 45.0), (215.0, y - 45.0), fb);
-                    pen.line(215.0, y - 45.0, 215.0, y);
-                }
+                sallen_key_cell(&mut pen, &parts, y, cell, topology);
             }
-            _ => {
-                // Twin-T: the R arm on top (each R = Ra + Rb), the C arm below, the centre
-                // parts (2C = two C in parallel, R/2 = two R in parallel) to the driven node g,
-                // the output follower, the divider and the bootstrap follower.
-                let all = |r: &str| -> Vec<&Part> {
-                    parts.iter().filter(|p| p.role == r).copied().collect()
-                };
-                let (ra, rb, cs, c2s, halves, us) = (
-                    all("Ra"),
-                    all("Rb"),
-                    all("C"),
-                    all("2C"),
-                    all("R/2"),
-                    all("U"),
-                );
-                if ra.len() == 2
-                    && rb.len() == 2
-                    && cs.len() == 2
-                    && c2s.len() == 2
-                    && halves.len() == 4
-                    && us.len() == 2
-                    && let (Some(rk1), Some(rk2)) = (role("Rk1", 0), role("Rk2", 0))
-                {
-                    // Arms from x = 10 to 170 (centre at 90), centre parts at 90 (R/2) and 40
-                    // (2C) down to g at y + 110; follower at 200; divider at 290.
-                    pen.line(0.0, y, 10.0, y);
-                    pen.line(10.0, y - 30.0, 10.0, y + 30.0);
-                    pen.group(
-                        (10.0, y - 30.0),
-                        (90.0, y - 30.0),
-                        &[ra[0], rb[0]],
-                        "+",
-                        false,
-                    );
-                    pen.group(
-                        (90.0, y - 30.0),
-                        (170.0, y - 30.0),
-                        &[ra[1], rb[1]],
-                        "+",
-                        false,
-                    );
-                    place(&mut pen, (10.0, y + 30.0), (90.0, y + 30.0), cs[0]);
-                    place(&mut pen, (90.0, y + 30.0), (170.0, y + 30.0), cs[1]);
-                    pen.line(170.0, y - 30.0, 170.0, y + 30.0);
-                    pen.dot(170.0, y);
-                    pen.dot(90.0, y - 30.0);
-                    pen.dot(90.0, y + 30.0);
-                    pen.group(
-                        (90.0, y + 30.0),
-                        (90.0, y + 110.0),
-                        &[halves[0], halves[1], halves[2], halves[3]],
-                        "+",
-                        false,
-                    );
-                    pen.text(
-                        4.0,
-                        y + 172.0,
-                        "R/2 = (1st+2nd) ∥ (3rd+4th); the three g are one node",
-                        false,
-                    );
-                    pen.text(90.0, y + 124.0, "g", true);
-                    // 2C from node a up to g (a net label: the same node as below).
-                    pen.line(90.0, y - 30.0, 90.0, y - 70.0);
-                    pen.group(
-                        (90.0, y - 70.0),
-                        (90.0, y - 100.0),
-                        &[c2s[0], c2s[1]],
-                        "∥",
-                        true,
-                    );
-                    pen.text(90.0, y - 104.0, "g", true);
-                    pen.line(170.0, y, 200.0, y);
-                    pen.follower(200.0, y, us[0]);
-                    pen.line(240.0, y, cell, y);
-                    pen.dot(290.0, y);
-                    place(&mut pen, (290.0, y), (290.0, y + 70.0), rk1);
-                    pen.dot(290.0, y + 70.0);
-                    place(&mut pen, (290.0, y + 70.0), (290.0, y + 140.0), rk2);
-                    pen.ground(290.0, y + 140.0);
-                    // Bootstrap: k·Vout from the divider through the second follower to g.
-                    pen.line(290.0, y + 70.0, 190.0, y + 70.0);
-                    pen.line(190.0, y + 70.0, 190.0, y + 110.0);
-                    pen.line(190.0, y + 110.0, 200.0, y + 110.0);
-                    pen.follower(200.0, y + 110.0, us[1]);
-                    pen.line(240.0, y + 110.0, 252.0, y + 110.0);
-                    pen.dot(252.0, y + 110.0);
-                    pen.text(256.0, y + 114.0, "g", false);
-                    pen.text(
-                        300.0,
-                        y + 150.0,
-                        format!("k·Vout, k = {:.4}", rk2.value / (rk1.value + rk2.value)),
-                        false,
-                    );
-                }
-            }
+            _ => twin_t_cell(&mut pen, &parts, y, cell),
         }
         pen.dot(cell, y);
         pen.text(cell - 4.0, y - 8.0, output.clone(), false);
@@ -306,6 +159,179 @@ pub fn draw(c: &Circuit) -> Drawing {
         false,
     ));
     d
+}
+
+/// The `nth` part of a stage with this role.
+fn role<'a>(parts: &[&'a Part], r: &str, nth: usize) -> Option<&'a Part> {
+    parts.iter().filter(|p| p.role == r).nth(nth).copied()
+}
+
+/// The in-amp with Rg across its gain pins.
+fn inamp_cell(pen: &mut Pen, parts: &[&Part], y: f64, cell: f64) {
+    if let (Some(u), Some(rg)) = (role(parts, "U", 0), role(parts, "Rg", 0)) {
+        pen.line(0.0, y, 60.0, y);
+        pen.line(60.0, y - 30.0, 60.0, y + 30.0);
+        pen.line(60.0, y - 30.0, 130.0, y);
+        pen.line(60.0, y + 30.0, 130.0, y);
+        pen.text(95.0, y - 46.0, u.designator.clone(), true);
+        pen.text(95.0, y - 34.0, format!("in-amp, G = {:.2}", u.value), true);
+        pen.line(130.0, y, cell, y);
+        pen.resistor((75.0, y + 60.0), (115.0, y + 60.0), rg);
+        pen.line(75.0, y + 60.0, 75.0, y + 24.0);
+        pen.line(115.0, y + 60.0, 115.0, y + 12.0);
+        pen.text(60.0, y + 95.0, "gain pins", false);
+    }
+}
+
+/// An RC high- or low-pass and its follower.
+fn rc_cell(pen: &mut Pen, parts: &[&Part], y: f64, cell: f64, topology: &str) {
+    let (series, shunt) = if topology == "rc-highpass" {
+        (role(parts, "C", 0), role(parts, "R", 0))
+    } else {
+        (role(parts, "R", 0), role(parts, "C", 0))
+    };
+    if let (Some(s), Some(sh), Some(u)) = (series, shunt, role(parts, "U", 0)) {
+        place(pen, (0.0, y), (100.0, y), s);
+        pen.dot(100.0, y);
+        place(pen, (100.0, y), (100.0, y + 80.0), sh);
+        pen.ground(100.0, y + 80.0);
+        pen.line(100.0, y, 160.0, y);
+        pen.follower(160.0, y, u);
+        pen.line(200.0, y, cell, y);
+    }
+}
+
+/// A unity-gain Sallen–Key stage, its feedback part over the top.
+fn sallen_key_cell(pen: &mut Pen, parts: &[&Part], y: f64, cell: f64, topology: &str) {
+    let hp = topology == "sallen-key-highpass";
+    let (first, second, to_out, to_gnd) = if hp {
+        (
+            role(parts, "C1", 0),
+            role(parts, "C2", 0),
+            role(parts, "R1", 0),
+            role(parts, "R2", 0),
+        )
+    } else {
+        (
+            role(parts, "R1", 0),
+            role(parts, "R2", 0),
+            role(parts, "C1", 0),
+            role(parts, "C2", 0),
+        )
+    };
+    if let (Some(a), Some(b), Some(fb), Some(g), Some(u)) =
+        (first, second, to_out, to_gnd, role(parts, "U", 0))
+    {
+        place(pen, (0.0, y), (70.0, y), a);
+        pen.dot(70.0, y);
+        place(pen, (70.0, y), (140.0, y), b);
+        pen.dot(140.0, y);
+        place(pen, (140.0, y), (140.0, y + 90.0), g);
+        pen.ground(140.0, y + 90.0);
+        pen.line(140.0, y, 160.0, y);
+        pen.follower(160.0, y, u);
+        pen.line(200.0, y, cell, y);
+        pen.dot(215.0, y);
+        // Feedback part from the first junction to the output, over the top.
+        pen.line(70.0, y, 70.0, y - 45.0);
+        place(pen, (70.0, y - 45.0), (215.0, y - 45.0), fb);
+        pen.line(215.0, y - 45.0, 215.0, y);
+    }
+}
+
+/// The twin-T with its output follower, divider and bootstrap follower.
+fn twin_t_cell(pen: &mut Pen, parts: &[&Part], y: f64, cell: f64) {
+    // Twin-T: the R arm on top (each R = Ra + Rb), the C arm below, the centre
+    // parts (2C = two C in parallel, R/2 = two R in parallel) to the driven node g,
+    // the output follower, the divider and the bootstrap follower.
+    let all = |r: &str| -> Vec<&Part> { parts.iter().filter(|p| p.role == r).copied().collect() };
+    let (ra, rb, cs, c2s, halves, us) = (
+        all("Ra"),
+        all("Rb"),
+        all("C"),
+        all("2C"),
+        all("R/2"),
+        all("U"),
+    );
+    if ra.len() == 2
+        && rb.len() == 2
+        && cs.len() == 2
+        && c2s.len() == 2
+        && halves.len() == 4
+        && us.len() == 2
+        && let (Some(rk1), Some(rk2)) = (role(parts, "Rk1", 0), role(parts, "Rk2", 0))
+    {
+        // Arms from x = 10 to 170 (centre at 90), centre parts at 90 (R/2) and 40
+        // (2C) down to g at y + 110; follower at 200; divider at 290.
+        pen.line(0.0, y, 10.0, y);
+        pen.line(10.0, y - 30.0, 10.0, y + 30.0);
+        pen.group(
+            (10.0, y - 30.0),
+            (90.0, y - 30.0),
+            &[ra[0], rb[0]],
+            "+",
+            false,
+        );
+        pen.group(
+            (90.0, y - 30.0),
+            (170.0, y - 30.0),
+            &[ra[1], rb[1]],
+            "+",
+            false,
+        );
+        place(pen, (10.0, y + 30.0), (90.0, y + 30.0), cs[0]);
+        place(pen, (90.0, y + 30.0), (170.0, y + 30.0), cs[1]);
+        pen.line(170.0, y - 30.0, 170.0, y + 30.0);
+        pen.dot(170.0, y);
+        pen.dot(90.0, y - 30.0);
+        pen.dot(90.0, y + 30.0);
+        pen.group(
+            (90.0, y + 30.0),
+            (90.0, y + 110.0),
+            &[halves[0], halves[1], halves[2], halves[3]],
+            "+",
+            false,
+        );
+        pen.text(
+            4.0,
+            y + 172.0,
+            "R/2 = (1st+2nd) ∥ (3rd+4th); the three g are one node",
+            false,
+        );
+        pen.text(90.0, y + 124.0, "g", true);
+        // 2C from node a up to g (a net label: the same node as below).
+        pen.line(90.0, y - 30.0, 90.0, y - 70.0);
+        pen.group(
+            (90.0, y - 70.0),
+            (90.0, y - 100.0),
+            &[c2s[0], c2s[1]],
+            "∥",
+            true,
+        );
+        pen.text(90.0, y - 104.0, "g", true);
+        pen.line(170.0, y, 200.0, y);
+        pen.follower(200.0, y, us[0]);
+        pen.line(240.0, y, cell, y);
+        pen.dot(290.0, y);
+        place(pen, (290.0, y), (290.0, y + 70.0), rk1);
+        pen.dot(290.0, y + 70.0);
+        place(pen, (290.0, y + 70.0), (290.0, y + 140.0), rk2);
+        pen.ground(290.0, y + 140.0);
+        // Bootstrap: k·Vout from the divider through the second follower to g.
+        pen.line(290.0, y + 70.0, 190.0, y + 70.0);
+        pen.line(190.0, y + 70.0, 190.0, y + 110.0);
+        pen.line(190.0, y + 110.0, 200.0, y + 110.0);
+        pen.follower(200.0, y + 110.0, us[1]);
+        pen.line(240.0, y + 110.0, 252.0, y + 110.0);
+        pen.dot(252.0, y + 110.0);
+        pen.text(256.0, y + 114.0, "g", false);
+        pen.text(
+            300.0,
+            y + 150.0,
+            format!("k·Vout, k = {:.4}", rk2.value / (rk1.value + rk2.value)),
+            false,
+        );
+    }
 }
 
 /// Width of a stage's cell.
