@@ -315,6 +315,90 @@ fn human_bytes(b: u64) -> String {
     }
 }
 
+/// Finishes a recording and says how it ended (`why`: the write error that stopped it).
+fn end(status: &StatusHandle, a: Active, why: Option<String>) {
+    let path = a.req.path.clone();
+    let (frames, markers, elapsed) = (a.frames, a.markers, a.now_s());
+    let clipped = a.clipped();
+    let result = a.finish();
+    set(status, &|s| {
+        s.active = None;
+        s.frames = frames;
+        s.markers = markers;
+        s.elapsed_s = elapsed;
+        s.clipped = clipped;
+        match (&result, &why) {
+            (Ok(bytes), None) => {
+                s.bytes = *bytes;
+                s.failed = false;
+                s.message = format!(
+                    "saved {} ({elapsed:.1} s, {}){}",
+                    path.display(),
+                    human_bytes(*bytes),
+                    if clipped > 0 {
+                        format!(
+                            "; {clipped} samples were outside the file's range and held at its ends"
+                        )
+                    } else {
+                        String::new()
+                    }
+                );
+            }
+            (_, Some(w)) => {
+                s.failed = true;
+                s.message = format!("recording stopped: {w}; what was written before is kept");
+            }
+            (Err(e), None) => {
+                s.failed = true;
+                s.message = format!("recording stopped: {e}; what was written before is kept");
+            }
+        }
+    });
+}
+
+/// Changes the status under its lock (a poisoned lock only loses the status line).
+fn set(status: &StatusHandle, f: &dyn Fn(&mut RecorderStatus)) {
+    if let Ok(mut s) = status.lock() {
+        f(&mut s);
+    }
+}
+
+/// Starts a recording (the format from the file's extension) or says why it cannot.
+fn start(status: &StatusHandle, req: RecordRequest) -> Option<Active> {
+    match RecordFormat::from_path(&req.path) {
+        Ok(format) => {
+            let path = req.path.clone();
+            set(status, &|s| {
+                *s = RecorderStatus {
+                    active: Some(path.clone()),
+                    seen_frames: s.seen_frames,
+                    message: format!("recording to {}", path.display()),
+                    ..RecorderStatus::default()
+                };
+            });
+            Some(Active {
+                req,
+                format,
+                sink: None,
+                frames: 0,
+                fs_hz: 0.0,
+                channels: 0,
+                markers: 0,
+                early: Vec::new(),
+                next_sample: None,
+                time_fs: 0.0,
+            })
+        }
+        Err(m) => {
+            set(status, &|s| {
+                s.failed = true;
+                s.message = m.clone();
+            });
+            None
+        }
+    }
+}
+
 /// The recorder's loop: runs until `stop` is set or the DSP thread hangs up. A recording still
 /// running then is finished properly.
 pub fn run(
@@ -324,50 +408,8 @@ pub fn run(
     status: StatusHandle,
 ) {
     let mut active: Option<Active> = None;
-    let set = |f: &dyn Fn(&mut RecorderStatus)| {
-        if let Ok(mut s) = status.lock() {
-            f(&mut s);
-        }
-    };
-    let end = |a: Active, why: Option<String>| {
-        let path = a.req.path.clone();
-        let (frames, markers, elapsed) = (a.frames, a.markers, a.now_s());
-        let clipped = a.clipped();
-        let result = a.finish();
-        set(&|s| {
-            s.active = None;
-            s.frames = frames;
-            s.markers = markers;
-            s.elapsed_s = elapsed;
-            s.clipped = clipped;
-            match (&result, &why) {
-                (Ok(bytes), None) => {
-                    s.bytes = *bytes;
-                    s.failed = false;
-                    s.message = format!(
-                        "saved {} ({elapsed:.1} s, {}){}",
-                        path.display(),
-                        human_bytes(*bytes),
-                        if clipped > 0 {
-                            format!(
-                                "; {clipped} samples were outside the file's range and held at its ends"
-                            )
-                        } else {
-                            String::new()
-                        }
-                    );
-                }
-                (_, Some(w)) => {
-                    s.failed = true;
-                    s.message = format!("recording stopped: {w}; what was written before is kept");
-                }
-                (Err(e), None) => {
-                    s.failed = true;
-                    s.message = format!("recording stopped: {e}; what was written before is kept");
-                }
-            }
-        });
-    };
+    let set = |f: &dyn Fn(&mut RecorderStatus)| set(&status, f);
+    let end = |a: Active, why: Option<String>| end(&status, a, why);
     loop {
         if stop.load(Ordering::Relaxed) {
             break;
@@ -404,35 +446,7 @@ pub fn run(
                         if let Some(a) = active.take() {
                             end(a, None);
                         }
-                        match RecordFormat::from_path(&req.path) {
-                            Ok(format) => {
-                                let path = req.path.clone();
-                                active = Some(Active {
-                                    req,
-                                    format,
-                                    sink: None,
-                                    frames: 0,
-                                    fs_hz: 0.0,
-                                    channels: 0,
-                                    markers: 0,
-                                    early: Vec::new(),
-                                    next_sample: None,
-                                    time_fs: 0.0,
-                                });
-                                set(&|s| {
-                                    *s = RecorderStatus {
-                                        active: Some(path.clone()),
-                                        seen_frames: s.seen_frames,
-                                        message: format!("recording to {}", path.display()),
-                                        ..RecorderStatus::default()
-                                    };
-                                });
-                            }
-                            Err(m) => set(&|s| {
-                                s.failed = true;
-                                s.message = m.clone();
-                            }),
-                        }
+                        active = start(&status, req);
                     }
                     RecorderCommand::Stop => {
                         if let Some(a) = active.take() {

@@ -7,9 +7,10 @@ use std::time::{Duration, Instant};
 use anyhow::{Result, bail};
 
 use super::{BadInput, RecordArgs, Units};
+use crate::dsp::ChainSettings;
 use crate::pipeline::{Pipeline, PipelineConfig};
 use crate::recorder::{RecordFormat, RecordRequest, RecordValues, RecorderCommand};
-use crate::scale::InputScale;
+use crate::scale::{FrontEnd, InputScale};
 use crate::source::{Pacing, SourceSpec};
 
 /// The JSON summary `record` prints last.
@@ -44,27 +45,8 @@ pub fn ports() -> Result<()> {
     Ok(())
 }
 
-/// Runs the command.
-///
-/// # Errors
-/// A bad source text, time or file type (bad input); a file that cannot be written, or a write
-/// that failed part-way (what was written before stays readable).
-pub fn run(a: &RecordArgs) -> Result<()> {
-    if !(a.seconds.is_finite() && a.seconds > 0.0) {
-        return Err(BadInput(format!(
-            "--seconds {}: must be a positive number",
-            a.seconds
-        ))
-        .into());
-    }
-    let format = RecordFormat::from_path(&a.out).map_err(BadInput)?;
-    if a.units == Units::Counts && matches!(format, RecordFormat::Edf | RecordFormat::Bdf) {
-        return Err(BadInput(
-            "--units counts: EDF/BDF store input-referred µV; write counts to .csv, .f32 or .f64"
-                .into(),
-        )
-        .into());
-    }
+/// The source, the chain (flags over the setup) and the board's front end.
+fn source_and_chain(a: &RecordArgs) -> Result<(SourceSpec, ChainSettings, Option<Vec<FrontEnd>>)> {
     let setup = super::load_setup(a.config.as_deref())?;
     let front_ends = a
         .scale
@@ -98,18 +80,11 @@ pub fn run(a: &RecordArgs) -> Result<()> {
             spec.label()
         );
     }
-    let pipeline = Pipeline::start(
-        PipelineConfig {
-            source: spec,
-            chain,
-            front_end,
-            pacing: Pacing::RealTime,
-            recorder: true,
-            display_hz: 2.0,
-            ..PipelineConfig::default()
-        },
-        Arc::new(|| {}),
-    )?;
+    Ok((spec, chain, front_end))
+}
+
+/// What the recorder is asked to write.
+fn request(a: &RecordArgs, chain: &ChainSettings) -> RecordRequest {
     let mut req = RecordRequest::new(&a.out);
     req.values = match (a.units, a.filtered) {
         (Units::Counts, _) => RecordValues::Received,
@@ -124,6 +99,44 @@ pub fn run(a: &RecordArgs) -> Result<()> {
     if a.filtered {
         req.prefilter = chain.describe();
     }
+    req
+}
+
+/// Runs the command.
+///
+/// # Errors
+/// A bad source text, time or file type (bad input); a file that cannot be written, or a write
+/// that failed part-way (what was written before stays readable).
+pub fn run(a: &RecordArgs) -> Result<()> {
+    if !(a.seconds.is_finite() && a.seconds > 0.0) {
+        return Err(BadInput(format!(
+            "--seconds {}: must be a positive number",
+            a.seconds
+        ))
+        .into());
+    }
+    let format = RecordFormat::from_path(&a.out).map_err(BadInput)?;
+    if a.units == Units::Counts && matches!(format, RecordFormat::Edf | RecordFormat::Bdf) {
+        return Err(BadInput(
+            "--units counts: EDF/BDF store input-referred µV; write counts to .csv, .f32 or .f64"
+                .into(),
+        )
+        .into());
+    }
+    let (spec, chain, front_end) = source_and_chain(a)?;
+    let pipeline = Pipeline::start(
+        PipelineConfig {
+            source: spec,
+            chain,
+            front_end,
+            pacing: Pacing::RealTime,
+            recorder: true,
+            display_hz: 2.0,
+            ..PipelineConfig::default()
+        },
+        Arc::new(|| {}),
+    )?;
+    let req = request(a, &chain);
     pipeline.recorder(RecorderCommand::Start(req));
     for m in &a.marker {
         pipeline.recorder(RecorderCommand::Marker(m.clone()));

@@ -129,8 +129,6 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
 
     let mut meta_fs = None;
     let mut events = Vec::new();
-    let mut interval = None;
-    let mut start = None;
     let content: Vec<(usize, &str)> = lines
         .iter()
         .copied()
@@ -146,32 +144,7 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
             }
         })
         .collect();
-    for i in 0..content.len() {
-        if let Some(first) = numbers(content[i].1) {
-            let k = first.len();
-            let run = content[i..]
-                .iter()
-                .take(2)
-                .all(|(_, l)| numbers(l).is_some_and(|v| v.len() == k));
-            if run || content.len() - i < 2 {
-                start = Some((i, k));
-                break;
-            }
-            // A row of numbers followed by a row as wide that is not all numbers: a bad value
-            // in the data, not more preamble.
-            let (next_no, next) = content[i + 1];
-            if split(next).len() == k {
-                return Err(StoreError::malformed(
-                    path,
-                    format!("line {next_no}: not a row of {k} numbers: {next:.60}"),
-                ));
-            }
-        }
-        interval = interval.or(preamble_interval(content[i].1));
-    }
-    let Some((start, k)) = start else {
-        return Err(StoreError::malformed(path, "no rows of numbers found"));
-    };
+    let (start, k, interval) = data_start(path, &content)?;
     let header: Option<Vec<String>> = content[..start]
         .iter()
         .rev()
@@ -179,33 +152,7 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
         .find(|f| f.len() == k)
         .map(|f| f.iter().map(|s| s.to_string()).collect());
 
-    let mut cols: Vec<Vec<f64>> = vec![Vec::new(); k];
-    for &(line_no, l) in &content[start..] {
-        let row = numbers(l).ok_or_else(|| {
-            StoreError::malformed(
-                path,
-                format!("line {line_no}: not a row of {k} numbers: {l:.60}"),
-            )
-        })?;
-        if row.len() != k {
-            return Err(StoreError::malformed(
-                path,
-                format!(
-                    "line {line_no}: {} fields where the data have {k}",
-                    row.len()
-                ),
-            ));
-        }
-        if let Some(c) = row.iter().position(|v| !v.is_finite()) {
-            return Err(StoreError::malformed(
-                path,
-                format!("line {line_no}, field {}: not a finite number", c + 1),
-            ));
-        }
-        for (c, v) in cols.iter_mut().zip(row) {
-            c.push(v);
-        }
-    }
+    let mut cols = columns(path, &content[start..], k)?;
 
     let mut time_col = header
         .as_ref()
@@ -264,6 +211,76 @@ pub fn read(path: &Path, opts: &ReadOptions) -> Result<Recording, StoreError> {
         events,
         ..Default::default()
     })
+}
+
+/// Where the rows of numbers start (index into `content`, and their width), and the sample
+/// interval a preamble gives, if any.
+fn data_start(
+    path: &Path,
+    content: &[(usize, &str)],
+) -> Result<(usize, usize, Option<f64>), StoreError> {
+    let mut interval = None;
+    let mut start = None;
+    for i in 0..content.len() {
+        if let Some(first) = numbers(content[i].1) {
+            let k = first.len();
+            let run = content[i..]
+                .iter()
+                .take(2)
+                .all(|(_, l)| numbers(l).is_some_and(|v| v.len() == k));
+            if run || content.len() - i < 2 {
+                start = Some((i, k));
+                break;
+            }
+            // A row of numbers followed by a row as wide that is not all numbers: a bad value
+            // in the data, not more preamble.
+            let (next_no, next) = content[i + 1];
+            if split(next).len() == k {
+                return Err(StoreError::malformed(
+                    path,
+                    format!("line {next_no}: not a row of {k} numbers: {next:.60}"),
+                ));
+            }
+        }
+        interval = interval.or(preamble_interval(content[i].1));
+    }
+    let Some((start, k)) = start else {
+        return Err(StoreError::malformed(path, "no rows of numbers found"));
+    };
+    Ok((start, k, interval))
+}
+
+/// The data rows as columns; each row must be `k` finite numbers.
+fn columns(path: &Path, rows: &[(usize, &str)], k: usize) -> Result<Vec<Vec<f64>>, StoreError> {
+    let mut cols: Vec<Vec<f64>> = vec![Vec::new(); k];
+    for &(line_no, l) in rows {
+        let row = numbers(l).ok_or_else(|| {
+            StoreError::malformed(
+                path,
+                format!("line {line_no}: not a row of {k} numbers: {l:.60}"),
+            )
+        })?;
+        if row.len() != k {
+            return Err(StoreError::malformed(
+                path,
+                format!(
+                    "line {line_no}: {} fields where the data have {k}",
+                    row.len()
+                ),
+            ));
+        }
+        if let Some(c) = row.iter().position(|v| !v.is_finite()) {
+            return Err(StoreError::malformed(
+                path,
+                format!("line {line_no}, field {}: not a finite number", c + 1),
+            ));
+        }
+        for (c, v) in cols.iter_mut().zip(row) {
+            c.push(v);
+        }
+    }
+
+    Ok(cols)
 }
 
 /// The comment line that carries an event: `# event 12.5 s: text`.
