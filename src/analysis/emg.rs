@@ -368,6 +368,87 @@ fn fit(points: &[(f64, f64)]) -> Option<(f64, f64)> {
     })
 }
 
+/// The onset and offset of one burst found by the detector `det` above `thr`, refined: joined
+/// to earlier runs of at least `run_min` samples, then taken back (at most `back_max`) to where
+/// the detector sat within 1 SD of the baseline (`near`); the offset the same way.
+fn refine(
+    det: &[f64],
+    thr: f64,
+    near: f64,
+    (on, off): (usize, usize),
+    run_min: usize,
+    back_max: usize,
+    min_off: usize,
+) -> (usize, usize) {
+    // In noise the first long run above the threshold can start inside the
+    // contraction: earlier runs of at least 25 ms joined to it by gaps shorter than
+    // the minimum off-time belong to it.
+    let need = run_min;
+    let (mut j, mut below, mut run, mut on) = (on, 0, 0, on);
+    while j > 0 && below < min_off {
+        j -= 1;
+        if det[j] > thr {
+            run += 1;
+            below = 0;
+            if run >= need {
+                on = j;
+            }
+        } else {
+            run = 0;
+            below += 1;
+        }
+    }
+    let lo = on.saturating_sub(back_max);
+    let on = (lo..on)
+        .rev()
+        .find(|&j| det[j] <= near)
+        .map_or(on, |j| j + 1);
+    // The offset the same way seen backwards in time: the end of the last run above
+    // the threshold at least 25 ms long (Hodges & Bui's window), then on (at most
+    // 50 ms) to within 1 SD of the baseline. A shorter excursion of noise after the
+    // contraction does not lengthen it.
+    let need = run_min;
+    let mut run = 0;
+    let mut end = off;
+    for j in (on..off).rev() {
+        if det[j] > thr {
+            run += 1;
+            if run >= need {
+                end = j + run;
+                break;
+            }
+        } else {
+            run = 0;
+        }
+    }
+    let hi = (end + back_max).min(det.len());
+    let off = (end..hi).find(|&j| det[j] <= near).unwrap_or(end);
+    (on, off)
+}
+
+/// The straight line through the bursts' median frequencies (fatigue shows as a fall).
+fn trend(bursts: &[Burst]) -> Option<Trend> {
+    let points: Vec<(f64, f64)> = bursts
+        .iter()
+        .filter_map(|b| b.median_hz.map(|m| (0.5 * (b.on_s + b.off_s), m)))
+        .collect();
+    fit(&points).map(|(a, b)| {
+        let first = a + b * points[0].0;
+        let last = a + b * points[points.len() - 1].0;
+        Trend {
+            slope_hz_per_s: b,
+            first_hz: first,
+            last_hz: last,
+            change_pct: if first != 0.0 {
+                100.0 * (last - first) / first
+            } else {
+                0.0
+            },
+            points: points.clone(),
+        }
+    })
+}
+
 /// Analyses a recording `x` (µV) at `fs`.
 ///
 /// # Errors
@@ -415,49 +496,15 @@ pub fn analyse(x: &[f64], fs: f64, s: &EmgSettings) -> Result<EmgAnalysis, EmgEr
     let bursts: Vec<Burst> = detect_bursts(&det, thr, ms(s.min_on_ms), ms(s.min_off_ms))
         .into_iter()
         .map(|(on, off)| {
-            // In noise the first long run above the threshold can start inside the
-            // contraction: earlier runs of at least 25 ms joined to it by gaps shorter than
-            // the minimum off-time belong to it.
-            let need = ms(25.0);
-            let (mut j, mut below, mut run, mut on) = (on, 0, 0, on);
-            while j > 0 && below < ms(s.min_off_ms) {
-                j -= 1;
-                if det[j] > thr {
-                    run += 1;
-                    below = 0;
-                    if run >= need {
-                        on = j;
-                    }
-                } else {
-                    run = 0;
-                    below += 1;
-                }
-            }
-            let lo = on.saturating_sub(ms(50.0));
-            let on = (lo..on)
-                .rev()
-                .find(|&j| det[j] <= near)
-                .map_or(on, |j| j + 1);
-            // The offset the same way seen backwards in time: the end of the last run above
-            // the threshold at least 25 ms long (Hodges & Bui's window), then on (at most
-            // 50 ms) to within 1 SD of the baseline. A shorter excursion of noise after the
-            // contraction does not lengthen it.
-            let need = ms(25.0);
-            let mut run = 0;
-            let mut end = off;
-            for j in (on..off).rev() {
-                if det[j] > thr {
-                    run += 1;
-                    if run >= need {
-                        end = j + run;
-                        break;
-                    }
-                } else {
-                    run = 0;
-                }
-            }
-            let hi = (end + ms(50.0)).min(det.len());
-            let off = (end..hi).find(|&j| det[j] <= near).unwrap_or(end);
+            let (on, off) = refine(
+                &det,
+                thr,
+                near,
+                (on, off),
+                ms(25.0),
+                ms(50.0),
+                ms(s.min_off_ms),
+            );
             let seg = &filtered[on..off];
             let r = (seg.iter().map(|v| v * v).sum::<f64>() / seg.len().max(1) as f64).sqrt();
             let f = frequencies(seg, fs);
@@ -472,25 +519,7 @@ pub fn analyse(x: &[f64], fs: f64, s: &EmgSettings) -> Result<EmgAnalysis, EmgEr
             }
         })
         .collect();
-    let points: Vec<(f64, f64)> = bursts
-        .iter()
-        .filter_map(|b| b.median_hz.map(|m| (0.5 * (b.on_s + b.off_s), m)))
-        .collect();
-    let median_hz_trend = fit(&points).map(|(a, b)| {
-        let first = a + b * points[0].0;
-        let last = a + b * points[points.len() - 1].0;
-        Trend {
-            slope_hz_per_s: b,
-            first_hz: first,
-            last_hz: last,
-            change_pct: if first != 0.0 {
-                100.0 * (last - first) / first
-            } else {
-                0.0
-            },
-            points: points.clone(),
-        }
-    });
+    let median_hz_trend = trend(&bursts);
     Ok(EmgAnalysis {
         fs_hz: fs,
         settings: *s,

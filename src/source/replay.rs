@@ -65,6 +65,143 @@ pub struct ReplayStatus {
 /// Shared status handle.
 pub type ReplayHandle = Arc<Mutex<ReplayStatus>>;
 
+/// The file being replayed and where the replay stands.
+struct Player {
+    rec: store::Recording,
+    fs: f64,
+    /// Frames in the file, channels, frames a block.
+    n: usize,
+    ch: usize,
+    block: usize,
+    signals: Vec<crate::store::SignalInfo>,
+    speed: f64,
+    paused: bool,
+    looping: bool,
+    /// Next frame of the file to send.
+    pos: usize,
+    /// Frames sent so far (the stream's sample index) and blocks sent.
+    stream: u64,
+    seq: u64,
+    /// The next block follows a jump (seek, loop, another signal).
+    gap: bool,
+    /// Pace: `credit` frames may be sent now; it grows with time × fs × speed.
+    credit: f64,
+    last: Instant,
+    /// Why the last command failed (shown until the next one works).
+    error: Option<String>,
+}
+
+impl Player {
+    fn new(rec: store::Recording) -> Self {
+        let mut p = Self {
+            fs: 0.0,
+            n: 0,
+            ch: 0,
+            block: 1,
+            signals: Vec::new(),
+            rec,
+            speed: 1.0,
+            paused: false,
+            looping: false,
+            pos: 0,
+            stream: 0,
+            seq: 0,
+            gap: false,
+            credit: 0.0,
+            last: Instant::now(),
+            error: None,
+        };
+        p.take_file(None);
+        p
+    }
+
+    /// Makes `self.rec` (or `rec`, when given) the file played, from its start.
+    fn take_file(&mut self, rec: Option<store::Recording>) {
+        if let Some(r) = rec {
+            self.rec = r;
+            self.pos = 0;
+            self.gap = true;
+        }
+        self.fs = self.rec.fs_hz;
+        self.n = self.rec.len();
+        self.ch = self.rec.channels.len();
+        self.block = ((self.fs / 100.0).round() as usize).max(1);
+        self.signals = self.rec.signal_list();
+    }
+
+    /// Carries out a command; a signal that cannot be read leaves its message in the status.
+    fn command(&mut self, c: ReplayCommand, spec: &ReplaySpec) {
+        self.error = None;
+        match c {
+            ReplayCommand::Speed(s) => self.speed = s.clamp(0.25, 16.0),
+            ReplayCommand::Pause(p) => self.paused = p,
+            ReplayCommand::Loop(l) => self.looping = l,
+            ReplayCommand::Seek(t) => {
+                self.pos = ((t.max(0.0) * self.fs) as usize).min(self.n.saturating_sub(1));
+                self.gap = true;
+            }
+            ReplayCommand::Signal(k) => match load(spec, Some(k)) {
+                Ok(r) => self.take_file(Some(r)),
+                Err(e) => self.error = Some(e),
+            },
+        }
+    }
+
+    fn status(&self) -> ReplayStatus {
+        ReplayStatus {
+            length_s: self.n as f64 / self.fs,
+            position_s: self.pos as f64 / self.fs,
+            speed: self.speed,
+            paused: self.paused,
+            looping: self.looping,
+            ended: self.pos >= self.n && !self.looping,
+            error: self.error.clone(),
+            signals: self.signals.clone(),
+            notes: self.rec.notes.clone(),
+        }
+    }
+
+    /// The next block when its time has come.
+    fn next_block(&mut self, now: Instant) -> Option<RawBlock> {
+        if self.paused || self.credit < self.block as f64 {
+            return None;
+        }
+        let take = self.block.min(self.n - self.pos);
+        self.credit -= take as f64;
+        let mut data = Vec::with_capacity(take * self.ch);
+        for i in self.pos..self.pos + take {
+            data.extend(self.rec.channels.iter().map(|c| c[i]));
+        }
+        let b = RawBlock {
+            seq: self.seq,
+            first_sample: self.stream,
+            fs_hz: self.fs,
+            channels: self.ch,
+            unit: SampleUnit::Microvolts,
+            data,
+            made_at: now,
+            gap_before: std::mem::take(&mut self.gap),
+        };
+        self.seq += 1;
+        self.stream += take as u64;
+        self.pos += take;
+        Some(b)
+    }
+}
+
+/// The file (or, for an EDF/BDF with signals at several rates, the group of signal `group`).
+fn load(spec: &ReplaySpec, group: Option<usize>) -> Result<store::Recording, String> {
+    let r = match group {
+        None => store::read(&spec.path, &spec.read),
+        Some(k) => store::edf::read_group(&spec.path, Some(k)),
+    }
+    .map_err(|e| e.to_string())?;
+    if r.is_empty() {
+        return Err(format!("{}: no samples", spec.path.display()));
+    }
+    Ok(r)
+}
+
 /// Runs until stopped, the receiver hangs up, or the file ends (not looping).
 pub fn run(
     spec: ReplaySpec,
@@ -73,19 +210,8 @@ pub fn run(
     stop: &AtomicBool,
     status: ReplayHandle,
 ) {
-    let load = |group: Option<usize>| -> Result<store::Recording, String> {
-        let r = match group {
-            None => store::read(&spec.path, &spec.read),
-            Some(k) => store::edf::read_group(&spec.path, Some(k)),
-        }
-        .map_err(|e| e.to_string())?;
-        if r.is_empty() {
-            return Err(format!("{}: no samples", spec.path.display()));
-        }
-        Ok(r)
-    };
-    let mut rec = match load(None) {
-        Ok(r) => r,
+    let mut p = match load(&spec, None) {
+        Ok(r) => Player::new(r),
         Err(e) => {
             if let Ok(mut s) = status.lock() {
                 s.error = Some(e);
@@ -93,102 +219,35 @@ pub fn run(
             return;
         }
     };
-    let mut fs = rec.fs_hz;
-    let mut n = rec.len();
-    let mut ch = rec.channels.len();
-    let mut block = ((fs / 100.0).round() as usize).max(1);
-    let mut signals = rec.signal_list();
-    let (mut speed, mut paused, mut looping) = (1.0f64, false, false);
-    let mut pos = 0usize;
-    let mut stream = 0u64;
-    let mut seq = 0u64;
-    let mut gap = false;
-    // Pace: `credit` samples may be sent now; it grows with time × fs × speed.
-    let mut credit = 0.0f64;
-    let mut last = Instant::now();
     loop {
         if stop.load(Ordering::Relaxed) {
             return;
         }
         while let Ok(c) = commands.try_recv() {
-            match c {
-                ReplayCommand::Speed(s) => speed = s.clamp(0.25, 16.0),
-                ReplayCommand::Pause(p) => paused = p,
-                ReplayCommand::Loop(l) => looping = l,
-                ReplayCommand::Seek(t) => {
-                    pos = ((t.max(0.0) * fs) as usize).min(n.saturating_sub(1));
-                    gap = true;
-                }
-                ReplayCommand::Signal(k) => match load(Some(k)) {
-                    Ok(r) => {
-                        rec = r;
-                        fs = rec.fs_hz;
-                        n = rec.len();
-                        ch = rec.channels.len();
-                        block = ((fs / 100.0).round() as usize).max(1);
-                        signals = rec.signal_list();
-                        pos = 0;
-                        gap = true;
-                    }
-                    Err(e) => {
-                        if let Ok(mut s) = status.lock() {
-                            s.error = Some(e);
-                        }
-                    }
-                },
-            }
+            p.command(c, &spec);
         }
         let now = Instant::now();
-        if !paused {
-            credit += now.duration_since(last).as_secs_f64() * fs * speed;
+        if !p.paused {
+            p.credit += now.duration_since(p.last).as_secs_f64() * p.fs * p.speed;
         }
-        last = now;
+        p.last = now;
         if let Ok(mut s) = status.lock() {
-            *s = ReplayStatus {
-                length_s: n as f64 / fs,
-                position_s: pos as f64 / fs,
-                speed,
-                paused,
-                looping,
-                ended: pos >= n && !looping,
-                error: None,
-                signals: signals.clone(),
-                notes: rec.notes.clone(),
-            };
+            *s = p.status();
         }
-        if pos >= n {
-            if looping {
-                pos = 0;
-                gap = true;
-            } else {
+        if p.pos >= p.n {
+            if !p.looping {
                 return;
             }
+            p.pos = 0;
+            p.gap = true;
         }
-        if paused || credit < block as f64 {
-            std::thread::sleep(Duration::from_millis(5));
-            continue;
-        }
-        let take = block.min(n - pos);
-        credit -= take as f64;
-        let mut data = Vec::with_capacity(take * ch);
-        for i in pos..pos + take {
-            data.extend(rec.channels.iter().map(|c| c[i]));
-        }
-        let b = RawBlock {
-            seq,
-            first_sample: stream,
-            fs_hz: fs,
-            channels: ch,
-            unit: SampleUnit::Microvolts,
-            data,
-            made_at: now,
-            gap_before: std::mem::take(&mut gap),
-        };
-        seq += 1;
-        stream += take as u64;
-        pos += take;
-        if !send_blocking(&out, b, stop) {
-            return;
+        match p.next_block(now) {
+            Some(b) => {
+                if !send_blocking(&out, b, stop) {
+                    return;
+                }
+            }
+            None => std::thread::sleep(Duration::from_millis(5)),
         }
     }
 }

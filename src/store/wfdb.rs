@@ -41,6 +41,62 @@ fn bad(path: &Path, why: impl Into<String>) -> StoreError {
     StoreError::malformed(path, why)
 }
 
+/// One signal line of a header (`i`: 0-based).
+fn signal_line(hea: &Path, l: &str, i: usize) -> Result<SignalSpec, StoreError> {
+    let s: Vec<&str> = l.split_whitespace().collect();
+    if s.len() < 3 {
+        return Err(bad(hea, format!("signal line {}: {l}", i + 1)));
+    }
+    let format: u32 = s[1]
+        .split(['x', ':', '+'])
+        .next()
+        .unwrap_or("")
+        .parse()
+        .map_err(|_| bad(hea, format!("format {:?}", s[1])))?;
+    let (gain, base, unit_to_uv) =
+        parse_gain(s[2]).ok_or_else(|| bad(hea, format!("gain {:?}", s[2])))?;
+    let adc_zero: f64 = s.get(4).and_then(|v| v.parse().ok()).unwrap_or(0.0);
+    Ok(SignalSpec {
+        file: s[0].to_string(),
+        format,
+        gain,
+        baseline: base.unwrap_or(adc_zero),
+        unit_to_uv,
+        name: s
+            .get(8..)
+            .map(|r| r.join(" "))
+            .filter(|n| !n.is_empty())
+            .unwrap_or_else(|| format!("sig{}", i + 1)),
+    })
+}
+
+/// The samples of a signal file in format 212 or 16, interleaved.
+fn samples(hea: &Path, format: u32, bytes: &[u8]) -> Result<Vec<i32>, StoreError> {
+    Ok(match format {
+        212 => {
+            let mut v = Vec::with_capacity(bytes.len() * 2 / 3);
+            for c in bytes.chunks_exact(3) {
+                let a = (c[0] as i32) | (((c[1] as i32) & 0x0F) << 8);
+                let b = (c[2] as i32) | (((c[1] as i32) & 0xF0) << 4);
+                // Sign-extend 12 bits.
+                v.push((a << 20) >> 20);
+                v.push((b << 20) >> 20);
+            }
+            v
+        }
+        16 => bytes
+            .chunks_exact(2)
+            .map(|c| i16::from_le_bytes([c[0], c[1]]) as i32)
+            .collect(),
+        other => {
+            return Err(bad(
+                hea,
+                format!("signal format {other} (leadline reads 212 and 16)"),
+            ));
+        }
+    })
+}
+
 /// Reads a record given its `.hea` path (or the record path without extension).
 ///
 /// # Errors
@@ -80,31 +136,7 @@ pub fn read(path: &Path) -> Result<Recording, StoreError> {
         let l = lines
             .next()
             .ok_or_else(|| bad(&hea, format!("signal line {} missing", i + 1)))?;
-        let s: Vec<&str> = l.split_whitespace().collect();
-        if s.len() < 3 {
-            return Err(bad(&hea, format!("signal line {}: {l}", i + 1)));
-        }
-        let format: u32 = s[1]
-            .split(['x', ':', '+'])
-            .next()
-            .unwrap_or("")
-            .parse()
-            .map_err(|_| bad(&hea, format!("format {:?}", s[1])))?;
-        let (gain, base, unit_to_uv) =
-            parse_gain(s[2]).ok_or_else(|| bad(&hea, format!("gain {:?}", s[2])))?;
-        let adc_zero: f64 = s.get(4).and_then(|v| v.parse().ok()).unwrap_or(0.0);
-        specs.push(SignalSpec {
-            file: s[0].to_string(),
-            format,
-            gain,
-            baseline: base.unwrap_or(adc_zero),
-            unit_to_uv,
-            name: s
-                .get(8..)
-                .map(|r| r.join(" "))
-                .filter(|n| !n.is_empty())
-                .unwrap_or_else(|| format!("sig{}", i + 1)),
-        });
+        specs.push(signal_line(&hea, l, i)?);
     }
     let file = &specs[0].file;
     if specs
@@ -118,29 +150,7 @@ pub fn read(path: &Path) -> Result<Recording, StoreError> {
     }
     let dat = hea.with_file_name(file);
     let bytes = std::fs::read(&dat).map_err(|e| StoreError::io(&dat, e))?;
-    let raw: Vec<i32> = match specs[0].format {
-        212 => {
-            let mut v = Vec::with_capacity(bytes.len() * 2 / 3);
-            for c in bytes.chunks_exact(3) {
-                let a = (c[0] as i32) | (((c[1] as i32) & 0x0F) << 8);
-                let b = (c[2] as i32) | (((c[1] as i32) & 0xF0) << 4);
-                // Sign-extend 12 bits.
-                v.push((a << 20) >> 20);
-                v.push((b << 20) >> 20);
-            }
-            v
-        }
-        16 => bytes
-            .chunks_exact(2)
-            .map(|c| i16::from_le_bytes([c[0], c[1]]) as i32)
-            .collect(),
-        other => {
-            return Err(bad(
-                &hea,
-                format!("signal format {other} (leadline reads 212 and 16)"),
-            ));
-        }
-    };
+    let raw = samples(&hea, specs[0].format, &bytes)?;
     let frames_in_file = raw.len() / n_sig;
     let frames = match n_frames {
         Some(n) if n > frames_in_file => {

@@ -159,6 +159,75 @@ pub(super) fn parse_header(bytes: &[u8], path: &Path) -> Result<Header, StoreErr
     })
 }
 
+/// True for the signal that carries annotations (EDF+/BDF+).
+fn is_annotations(s: &Signal) -> bool {
+    s.label == "EDF Annotations" || s.label == "BDF Annotations"
+}
+
+/// The signal asked for (`pick`, counted without annotations), else the first voltage, else the
+/// first signal.
+fn choose_signal(
+    path: &Path,
+    signals: &[Signal],
+    pick: Option<usize>,
+) -> Result<usize, StoreError> {
+    let bad = |r: String| StoreError::malformed(path, r);
+    let is_ann = is_annotations;
+    let data_signals: Vec<usize> = (0..signals.len())
+        .filter(|&i| !is_ann(&signals[i]))
+        .collect();
+    Ok(match pick {
+        Some(k) => *data_signals.get(k).ok_or_else(|| {
+            bad(format!(
+                "signal {k} does not exist: the file has {} signal(s) besides annotations",
+                data_signals.len()
+            ))
+        })?,
+        None => match data_signals
+            .iter()
+            .copied()
+            .find(|&i| uv_per(&signals[i].dimension).is_some())
+        {
+            Some(i) => i,
+            None => *data_signals
+                .first()
+                .ok_or_else(|| bad("no signal in the file besides annotations".to_string()))?,
+        },
+    })
+}
+
+/// Where a file's data records are.
+struct Layout<'a> {
+    bytes: &'a [u8],
+    header_len: usize,
+    record_len: usize,
+    records: usize,
+    kind: EdfKind,
+}
+
+impl Layout<'_> {
+    /// Every sample of signal `s` (its bytes start `offset` into each record), in its physical
+    /// unit, µV for a voltage.
+    fn values(&self, s: &Signal, offset: usize) -> Vec<f64> {
+        let width = self.kind.bytes();
+        let decode = |b: &[u8]| -> i32 {
+            match self.kind {
+                EdfKind::Edf => i32::from(i16::from_le_bytes([b[0], b[1]])),
+                EdfKind::Bdf => (i32::from_le_bytes([0, b[0], b[1], b[2]])) >> 8,
+            }
+        };
+        let k = uv_per(&s.dimension).unwrap_or(1.0);
+        let mut v = Vec::with_capacity(self.records * s.spr);
+        for r in 0..self.records {
+            let at = self.header_len + r * self.record_len + offset;
+            for c in self.bytes[at..at + s.spr * width].chunks_exact(width) {
+                v.push(s.scaling.to_physical(decode(c)) * k);
+            }
+        }
+        v
+    }
+}
+
 /// Like [`read`], but the channels are the group of signal `pick` (0-based among the file's
 /// signals other than annotations): every signal at its rate and of its kind (voltage or not). A
 /// signal that is not a voltage is read in its own physical unit.
@@ -186,38 +255,12 @@ pub fn read_group(path: &Path, pick: Option<usize>) -> Result<Recording, StoreEr
     if duration.is_nan() || duration <= 0.0 {
         return Err(bad(format!("record duration {duration} s is not positive")));
     }
-    let is_ann = |s: &Signal| s.label == "EDF Annotations" || s.label == "BDF Annotations";
-    let data_signals: Vec<usize> = (0..signals.len())
-        .filter(|&i| !is_ann(&signals[i]))
-        .collect();
-    let chosen = match pick {
-        Some(k) => *data_signals.get(k).ok_or_else(|| {
-            bad(format!(
-                "signal {k} does not exist: the file has {} signal(s) besides annotations",
-                data_signals.len()
-            ))
-        })?,
-        None => match data_signals
-            .iter()
-            .copied()
-            .find(|&i| uv_per(&signals[i].dimension).is_some())
-        {
-            Some(i) => i,
-            None => *data_signals
-                .first()
-                .ok_or_else(|| bad("no signal in the file besides annotations".to_string()))?,
-        },
-    };
+    let is_ann = is_annotations;
+    let chosen = choose_signal(path, &signals, pick)?;
     let spr = signals[chosen].spr;
     let voltage = uv_per(&signals[chosen].dimension).is_some();
     let in_group =
         |s: &Signal| !is_ann(s) && s.spr == spr && uv_per(&s.dimension).is_some() == voltage;
-    let decode = |b: &[u8]| -> i32 {
-        match kind {
-            EdfKind::Edf => i32::from(i16::from_le_bytes([b[0], b[1]])),
-            EdfKind::Bdf => (i32::from_le_bytes([0, b[0], b[1], b[2]])) >> 8,
-        }
-    };
     let mut names = Vec::new();
     let mut channels = Vec::new();
     let mut events = Vec::new();
@@ -227,14 +270,14 @@ pub fn read_group(path: &Path, pick: Option<usize>) -> Result<Recording, StoreEr
     for s in &signals {
         let rate = s.spr as f64 / duration;
         if in_group(s) {
-            let k = uv_per(&s.dimension).unwrap_or(1.0);
-            let mut v = Vec::with_capacity(records * s.spr);
-            for r in 0..records {
-                let at = header_len + r * record_len + sig_offset;
-                for c in bytes[at..at + s.spr * width].chunks_exact(width) {
-                    v.push(s.scaling.to_physical(decode(c)) * k);
-                }
+            let v = Layout {
+                bytes: &bytes,
+                header_len,
+                record_len,
+                records,
+                kind,
             }
+            .values(s, sig_offset);
             infos.push(crate::store::SignalInfo {
                 name: s.label.clone(),
                 fs_hz: rate,
