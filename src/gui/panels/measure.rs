@@ -67,17 +67,8 @@ fn channel_pick(ui: &mut egui::Ui, id: &str, label: &str, k: &mut usize, n: usiz
         });
 }
 
-/// Draws the view. `measured` is the snapshot's last measurement; `design` the chain running
-/// (its sections) and `parts` the stages built from parts, at `fs`. Returns the request to send.
-pub fn show(
-    ui: &mut egui::Ui,
-    v: &mut MeasureView,
-    measured: Option<&Arc<Measured>>,
-    design: Option<&[Section]>,
-    parts: Option<&[Stage]>,
-    channels: usize,
-    fs: f64,
-) -> Option<Control> {
+/// The mode, its channels and figures, and the button; the request when it is pressed.
+fn controls(ui: &mut egui::Ui, v: &mut MeasureView, channels: usize) -> Option<Control> {
     let mut out = None;
     ui.horizontal_wrapped(|ui| {
         ui.selectable_value(&mut v.mode, Mode::Response, "Response")
@@ -147,6 +138,21 @@ pub fn show(
             }));
         }
     });
+    out
+}
+
+/// Draws the view. `measured` is the snapshot's last measurement; `design` the chain running
+/// (its sections) and `parts` the stages built from parts, at `fs`. Returns the request to send.
+pub fn show(
+    ui: &mut egui::Ui,
+    v: &mut MeasureView,
+    measured: Option<&Arc<Measured>>,
+    design: Option<&[Section]>,
+    parts: Option<&[Stage]>,
+    channels: usize,
+    fs: f64,
+) -> Option<Control> {
+    let out = controls(ui, v, channels);
     let Some(m) = measured else {
         ui.label("No measurement yet.");
         return out;
@@ -158,194 +164,18 @@ pub fn show(
             return out;
         }
     };
-    let db_design = |f: f64| {
-        design.map(|d| 20.0 * crate::dsp::response::magnitude(d, f, fs).max(1e-12).log10())
-    };
-    let db_parts = |f: f64| parts.map(|p| crate::analog::parts::chain_db(p, f));
     match outcome {
         Outcome::Response(t) => {
-            let peak = crate::dsp::response::log_frequencies(0.05, 0.45 * fs, 200)
-                .into_iter()
-                .filter_map(db_design)
-                .fold(f64::MIN, f64::max);
-            let offset = if peak > f64::MIN {
-                t.passband_gain_db - peak
-            } else {
-                0.0
-            };
-            ui.label(format!(
-                "{:.0} s, {} segments of {}: pass band {:.2} dB, corners {} Hz, coherent {:.2}–{:.1} Hz; the design is drawn shifted by {:+.1} dB; greyed: coherence < 0.9",
-                m.seconds,
-                t.segments,
-                t.segment,
-                t.passband_gain_db,
-                t.corners_hz.iter().map(|c| format!("{c:.2}")).collect::<Vec<_>>().join(", "),
-                t.coherent_range_hz.0,
-                t.coherent_range_hz.1,
-                offset
-            ));
-            let good: Vec<[f64; 2]> = t
-                .points
-                .iter()
-                .filter(|p| p.coherence >= 0.9)
-                .map(|p| [p.freq_hz.log10(), p.mag_db])
-                .collect();
-            let grey: Vec<[f64; 2]> = t
-                .points
-                .iter()
-                .filter(|p| p.coherence < 0.9)
-                .map(|p| [p.freq_hz.log10(), p.mag_db])
-                .collect();
-            let curve = |g: &dyn Fn(f64) -> Option<f64>| -> Vec<[f64; 2]> {
-                t.points
-                    .iter()
-                    .filter_map(|p| g(p.freq_hz).map(|d| [p.freq_hz.log10(), d + offset]))
-                    .collect()
-            };
-            let design_line = curve(&db_design);
-            let parts_line = curve(&db_parts);
-            let diff: Vec<[f64; 2]> = t
-                .points
-                .iter()
-                .filter(|p| p.coherence >= 0.9)
-                .filter_map(|p| {
-                    db_design(p.freq_hz).map(|d| [p.freq_hz.log10(), p.mag_db - d - offset])
-                })
-                .collect();
-            let phase: Vec<[f64; 2]> = t
-                .points
-                .iter()
-                .filter(|p| p.coherence >= 0.9)
-                .map(|p| [p.freq_hz.log10(), p.phase_deg])
-                .collect();
-            let delay: Vec<[f64; 2]> = t
-                .points
-                .iter()
-                .filter(|p| p.coherence >= 0.9 && p.group_delay_s.is_finite())
-                .map(|p| [p.freq_hz.log10(), 1e3 * p.group_delay_s])
-                .collect();
-            let w = (ui.available_width() - 16.0) / 3.0;
-            ui.horizontal(|ui| {
-                Plot::new("measure-mag")
-                    .width(w)
-                    .height(ui.available_height().max(120.0))
-                    .legend(Legend::default())
-                    .x_axis_label("frequency (log10 Hz)")
-                    .y_axis_label("gain (dB)")
-                    .show(ui, |pu| {
-                        pu.points(Points::new("measured", PlotPoints::new(good)).radius(1.5));
-                        pu.points(
-                            Points::new("coherence < 0.9", PlotPoints::new(grey))
-                                .radius(1.0)
-                                .color(egui::Color32::GRAY),
-                        );
-                        if !design_line.is_empty() {
-                            pu.line(Line::new("design", PlotPoints::new(design_line)));
-                        }
-                        if !parts_line.is_empty() {
-                            pu.line(Line::new("built from parts", PlotPoints::new(parts_line)));
-                        }
-                        if !diff.is_empty() {
-                            pu.line(Line::new("measured − design", PlotPoints::new(diff)));
-                        }
-                    });
-                Plot::new("measure-phase")
-                    .width(w)
-                    .height(ui.available_height().max(120.0))
-                    .x_axis_label("frequency (log10 Hz)")
-                    .y_axis_label("phase (°)")
-                    .show(ui, |pu| {
-                        pu.points(Points::new("phase", PlotPoints::new(phase)).radius(1.5));
-                    });
-                Plot::new("measure-delay")
-                    .width(w)
-                    .height(ui.available_height().max(120.0))
-                    .x_axis_label("frequency (log10 Hz)")
-                    .y_axis_label("group delay (ms)")
-                    .show(ui, |pu| {
-                        pu.points(Points::new("group delay", PlotPoints::new(delay)).radius(1.5));
-                    });
-            });
-            save_png(
-                ui,
-                v,
-                t.points
-                    .iter()
-                    .map(|p| (p.freq_hz, p.mag_db, p.coherence >= 0.9))
-                    .collect(),
-                design.map(|d| (d, offset)),
-                fs,
-            );
+            response(ui, v, m, t, design, parts, fs);
         }
         Outcome::Steps {
             steps,
             amplitude_uv,
         } => {
-            let pts: Vec<(f64, f64, bool)> = steps
-                .iter()
-                .map(|s| {
-                    (
-                        s.freq_hz,
-                        20.0 * (s.amplitude_uv / amplitude_uv).log10(),
-                        true,
-                    )
-                })
-                .collect();
-            ui.label(format!(
-                "{} steady steps: {}",
-                steps.len(),
-                pts.iter()
-                    .map(|p| format!("{:.2} Hz {:+.2} dB", p.0, p.1))
-                    .collect::<Vec<_>>()
-                    .join(" · ")
-            ));
-            let line: Vec<[f64; 2]> = crate::dsp::response::log_frequencies(0.1, 0.45 * fs, 200)
-                .into_iter()
-                .filter_map(|f| db_design(f).map(|d| [f.log10(), d]))
-                .collect();
-            Plot::new("measure-steps")
-                .height(ui.available_height().max(120.0) - 30.0)
-                .legend(Legend::default())
-                .x_axis_label("frequency (log10 Hz)")
-                .y_axis_label("gain (dB)")
-                .show(ui, |pu| {
-                    pu.points(
-                        Points::new(
-                            "steps",
-                            PlotPoints::new(pts.iter().map(|p| [p.0.log10(), p.1]).collect()),
-                        )
-                        .radius(4.0),
-                    );
-                    if !line.is_empty() {
-                        pu.line(Line::new("design", PlotPoints::new(line)));
-                    }
-                });
-            save_png(ui, v, pts, design.map(|d| (d, 0.0)), fs);
+            stepped(ui, v, steps, *amplitude_uv, design, fs);
         }
         Outcome::Noise(n) => {
-            ui.label(format!(
-                "{:.1}–{:.0} Hz: {:.2} µV rms, {:.1} µV p-p (largest over 10 s) against {:.0} µV p-p: {}; white floor {:.3} µV/√Hz; 1/f corner {}",
-                n.band_hz.0,
-                n.band_hz.1,
-                n.rms_uv,
-                n.p2p_uv,
-                n.limit_p2p_uv,
-                if n.pass { "pass" } else { "FAIL" },
-                n.floor_uv_per_rthz,
-                n.corner_hz.map_or("not seen".into(), |c| format!("{c:.2} Hz"))
-            ));
-            let d: Vec<[f64; 2]> = n
-                .density_uv_per_rthz
-                .iter()
-                .map(|p| [p[0].log10(), p[1].max(1e-9).log10()])
-                .collect();
-            Plot::new("measure-noise")
-                .height(ui.available_height().max(120.0))
-                .x_axis_label("frequency (log10 Hz)")
-                .y_axis_label("density (log10 µV/√Hz)")
-                .show(ui, |pu| {
-                    pu.line(Line::new("density", PlotPoints::new(d)));
-                });
+            noise(ui, n);
         }
         Outcome::CmrrSteps(list) => {
             for c in list {
@@ -366,6 +196,221 @@ pub fn show(
         }
     }
     out
+}
+
+/// The response's figures in one line.
+fn response_text(m: &Measured, t: &crate::measure::transfer::Transfer, offset: f64) -> String {
+    format!(
+        "{:.0} s, {} segments of {}: pass band {:.2} dB, corners {} Hz, coherent {:.2}–{:.1} Hz; the design is drawn shifted by {:+.1} dB; greyed: coherence < 0.9",
+        m.seconds,
+        t.segments,
+        t.segment,
+        t.passband_gain_db,
+        t.corners_hz
+            .iter()
+            .map(|c| format!("{c:.2}"))
+            .collect::<Vec<_>>()
+            .join(", "),
+        t.coherent_range_hz.0,
+        t.coherent_range_hz.1,
+        offset
+    )
+}
+
+/// The measured gain at the points whose coherence is at least 0.9 (`coherent`) or below it.
+fn magnitudes(t: &crate::measure::transfer::Transfer, coherent: bool) -> Vec<[f64; 2]> {
+    t.points
+        .iter()
+        .filter(|p| (p.coherence >= 0.9) == coherent)
+        .map(|p| [p.freq_hz.log10(), p.mag_db])
+        .collect()
+}
+
+/// The measured response, phase and group delay over the design and the parts.
+fn response(
+    ui: &mut egui::Ui,
+    v: &mut MeasureView,
+    m: &Measured,
+    t: &crate::measure::transfer::Transfer,
+    design: Option<&[Section]>,
+    parts: Option<&[Stage]>,
+    fs: f64,
+) {
+    let db_design = |f: f64| {
+        design.map(|d| 20.0 * crate::dsp::response::magnitude(d, f, fs).max(1e-12).log10())
+    };
+    let db_parts = |f: f64| parts.map(|p| crate::analog::parts::chain_db(p, f));
+    let peak = crate::dsp::response::log_frequencies(0.05, 0.45 * fs, 200)
+        .into_iter()
+        .filter_map(db_design)
+        .fold(f64::MIN, f64::max);
+    let offset = if peak > f64::MIN {
+        t.passband_gain_db - peak
+    } else {
+        0.0
+    };
+    ui.label(response_text(m, t, offset));
+    let good = magnitudes(t, true);
+    let grey = magnitudes(t, false);
+    let curve = |g: &dyn Fn(f64) -> Option<f64>| -> Vec<[f64; 2]> {
+        t.points
+            .iter()
+            .filter_map(|p| g(p.freq_hz).map(|d| [p.freq_hz.log10(), d + offset]))
+            .collect()
+    };
+    let design_line = curve(&db_design);
+    let parts_line = curve(&db_parts);
+    let diff: Vec<[f64; 2]> = t
+        .points
+        .iter()
+        .filter(|p| p.coherence >= 0.9)
+        .filter_map(|p| db_design(p.freq_hz).map(|d| [p.freq_hz.log10(), p.mag_db - d - offset]))
+        .collect();
+    let phase: Vec<[f64; 2]> = t
+        .points
+        .iter()
+        .filter(|p| p.coherence >= 0.9)
+        .map(|p| [p.freq_hz.log10(), p.phase_deg])
+        .collect();
+    let delay: Vec<[f64; 2]> = t
+        .points
+        .iter()
+        .filter(|p| p.coherence >= 0.9 && p.group_delay_s.is_finite())
+        .map(|p| [p.freq_hz.log10(), 1e3 * p.group_delay_s])
+        .collect();
+    let w = (ui.available_width() - 16.0) / 3.0;
+    ui.horizontal(|ui| {
+        Plot::new("measure-mag")
+            .width(w)
+            .height(ui.available_height().max(120.0))
+            .legend(Legend::default())
+            .x_axis_label("frequency (log10 Hz)")
+            .y_axis_label("gain (dB)")
+            .show(ui, |pu| {
+                pu.points(Points::new("measured", PlotPoints::new(good)).radius(1.5));
+                pu.points(
+                    Points::new("coherence < 0.9", PlotPoints::new(grey))
+                        .radius(1.0)
+                        .color(egui::Color32::GRAY),
+                );
+                if !design_line.is_empty() {
+                    pu.line(Line::new("design", PlotPoints::new(design_line)));
+                }
+                if !parts_line.is_empty() {
+                    pu.line(Line::new("built from parts", PlotPoints::new(parts_line)));
+                }
+                if !diff.is_empty() {
+                    pu.line(Line::new("measured − design", PlotPoints::new(diff)));
+                }
+            });
+        Plot::new("measure-phase")
+            .width(w)
+            .height(ui.available_height().max(120.0))
+            .x_axis_label("frequency (log10 Hz)")
+            .y_axis_label("phase (°)")
+            .show(ui, |pu| {
+                pu.points(Points::new("phase", PlotPoints::new(phase)).radius(1.5));
+            });
+        Plot::new("measure-delay")
+            .width(w)
+            .height(ui.available_height().max(120.0))
+            .x_axis_label("frequency (log10 Hz)")
+            .y_axis_label("group delay (ms)")
+            .show(ui, |pu| {
+                pu.points(Points::new("group delay", PlotPoints::new(delay)).radius(1.5));
+            });
+    });
+    save_png(
+        ui,
+        v,
+        t.points
+            .iter()
+            .map(|p| (p.freq_hz, p.mag_db, p.coherence >= 0.9))
+            .collect(),
+        design.map(|d| (d, offset)),
+        fs,
+    );
+}
+
+/// The stepped sine's gains over the design.
+fn stepped(
+    ui: &mut egui::Ui,
+    v: &mut MeasureView,
+    steps: &[crate::measure::sine::Step],
+    amplitude_uv: f64,
+    design: Option<&[Section]>,
+    fs: f64,
+) {
+    let db_design = |f: f64| {
+        design.map(|d| 20.0 * crate::dsp::response::magnitude(d, f, fs).max(1e-12).log10())
+    };
+    let pts: Vec<(f64, f64, bool)> = steps
+        .iter()
+        .map(|s| {
+            (
+                s.freq_hz,
+                20.0 * (s.amplitude_uv / amplitude_uv).log10(),
+                true,
+            )
+        })
+        .collect();
+    ui.label(format!(
+        "{} steady steps: {}",
+        steps.len(),
+        pts.iter()
+            .map(|p| format!("{:.2} Hz {:+.2} dB", p.0, p.1))
+            .collect::<Vec<_>>()
+            .join(" · ")
+    ));
+    let line: Vec<[f64; 2]> = crate::dsp::response::log_frequencies(0.1, 0.45 * fs, 200)
+        .into_iter()
+        .filter_map(|f| db_design(f).map(|d| [f.log10(), d]))
+        .collect();
+    Plot::new("measure-steps")
+        .height(ui.available_height().max(120.0) - 30.0)
+        .legend(Legend::default())
+        .x_axis_label("frequency (log10 Hz)")
+        .y_axis_label("gain (dB)")
+        .show(ui, |pu| {
+            pu.points(
+                Points::new(
+                    "steps",
+                    PlotPoints::new(pts.iter().map(|p| [p.0.log10(), p.1]).collect()),
+                )
+                .radius(4.0),
+            );
+            if !line.is_empty() {
+                pu.line(Line::new("design", PlotPoints::new(line)));
+            }
+        });
+    save_png(ui, v, pts, design.map(|d| (d, 0.0)), fs);
+}
+
+/// The noise figures and the density.
+fn noise(ui: &mut egui::Ui, n: &crate::measure::noise::Noise) {
+    ui.label(format!(
+        "{:.1}–{:.0} Hz: {:.2} µV rms, {:.1} µV p-p (largest over 10 s) against {:.0} µV p-p: {}; white floor {:.3} µV/√Hz; 1/f corner {}",
+        n.band_hz.0,
+        n.band_hz.1,
+        n.rms_uv,
+        n.p2p_uv,
+        n.limit_p2p_uv,
+        if n.pass { "pass" } else { "FAIL" },
+        n.floor_uv_per_rthz,
+        n.corner_hz.map_or("not seen".into(), |c| format!("{c:.2} Hz"))
+    ));
+    let d: Vec<[f64; 2]> = n
+        .density_uv_per_rthz
+        .iter()
+        .map(|p| [p[0].log10(), p[1].max(1e-9).log10()])
+        .collect();
+    Plot::new("measure-noise")
+        .height(ui.available_height().max(120.0))
+        .x_axis_label("frequency (log10 Hz)")
+        .y_axis_label("density (log10 µV/√Hz)")
+        .show(ui, |pu| {
+            pu.line(Line::new("density", PlotPoints::new(d)));
+        });
 }
 
 fn save_png(

@@ -124,62 +124,12 @@ pub fn show(
     sections: Option<&[Section]>,
     view: &mut SpectrumView,
 ) -> Option<Control> {
-    let mut control = None;
-    ui.horizontal(|ui| {
-        ui.checkbox(&mut view.log_freq, "log frequency").on_hover_text("Logarithmic or linear frequency axis.");
-        ui.checkbox(&mut view.show_filtered, "after the filters").on_hover_text("Also draw the PSD after the chain.");
-        let before = view.segment;
-        egui::ComboBox::from_id_salt("welch-segment")
-            .selected_text(if view.segment == 0 { "segment ≈4 s".to_string() } else { format!("segment {}", view.segment) })
-            .show_ui(ui, |ui| {
-                ui.selectable_value(&mut view.segment, 0, "≈4 s (auto)");
-                for n in [256, 512, 1024, 2048, 4096, 8192, 16384] {
-                    ui.selectable_value(&mut view.segment, n, format!("{n} samples"));
-                }
-            })
-            .response
-            .on_hover_text("Welch segment length: longer gives finer frequency resolution, shorter a steadier estimate.");
-        if view.segment != before {
-            control = Some(Control::SpectrumSegment(view.segment));
-        }
-        if ui
-            .button("Hold as before")
-            .on_hover_text("Keep this estimate as the reference and show the change at each mains line (e.g. before unplugging the charger).")
-            .clicked()
-        {
-            view.before = frame.cloned();
-        }
-        if view.before.is_some() && ui.button("Clear before").clicked() {
-            view.before = None;
-        }
-    });
+    let control = controls(ui, frame, view);
     let Some(frame) = frame else {
         ui.label("Collecting the first spectrum (one segment of signal)…");
         return control;
     };
-    if let Some(r) = &frame.mains_raw {
-        ui.label(report_text(r));
-    }
-    if let (Some(b), Some(a)) = (
-        view.before.as_ref().and_then(|b| b.mains_raw.as_ref()),
-        frame.mains_raw.as_ref(),
-    ) {
-        let parts: Vec<String> = line_changes(b, a)
-            .iter()
-            .map(|(o, d)| {
-                if *o == 1 {
-                    format!("fundamental {d:+.1} dB")
-                } else {
-                    format!("{o}×: {d:+.1} dB")
-                }
-            })
-            .collect();
-        ui.colored_label(
-            BEFORE_COLOUR,
-            format!("now vs before: {}", parts.join(" · ")),
-        );
-    }
-
+    mains_text(ui, frame, view);
     let log = view.log_freq;
     let xf = move |f: f64| if log { f.log10() } else { f };
     // About one column per pixel: the lowest and highest point of each, so peaks stay and the line
@@ -214,6 +164,129 @@ pub fn show(
         .map(|c| (c.raw.clone(), c.filtered.clone()))
         .unwrap_or_default();
     let top = raw.iter().map(|p| p[1]).fold(FLOOR_DB, f64::max).ceil();
+    let plot = axes(ui, top, log);
+    plot.show(ui, |pu| {
+        if let Some(b) = &view.before {
+            pu.line(
+                Line::new("before", PlotPoints::new(curve(&b.raw)))
+                    .color(BEFORE_COLOUR)
+                    .style(LineStyle::Dashed { length: 6.0 }),
+            );
+        }
+        pu.line(
+            Line::new("before the filters", PlotPoints::new(raw.clone()))
+                .color(RAW_COLOUR)
+                .width(1.5),
+        );
+        if view.show_filtered {
+            pu.line(
+                Line::new("after the filters", PlotPoints::new(filtered))
+                    .color(FILTERED_COLOUR)
+                    .width(1.5),
+            );
+        }
+        if let Some(sections) = sections {
+            let gain = chain_gain(view, sections, frame, top, columns);
+            pu.line(
+                Line::new("chain gain", PlotPoints::new(gain))
+                    .color(GAIN_COLOUR)
+                    .width(1.5),
+            );
+        }
+        if let Some(r) = &frame.mains_raw {
+            let at = |f: f64| {
+                let k = (f / frame.raw.bin_hz).round() as usize;
+                frame.raw.density.get(k).map_or(FLOOR_DB, |&d| db(d))
+            };
+            let marks: Vec<[f64; 2]> = r.harmonics.iter().map(|h| [xf(h.hz), at(h.hz)]).collect();
+            pu.points(
+                Points::new("mains lines", PlotPoints::new(marks))
+                    .radius(4.0)
+                    .color(BEFORE_COLOUR),
+            );
+            for h in &r.harmonics {
+                let label = if h.order == 1 {
+                    format!("{:.2} Hz\n{:.1} µV", h.hz, h.rms_uv)
+                } else {
+                    format!("{:.1} µV", h.rms_uv)
+                };
+                pu.text(
+                    Text::new("", PlotPoint::new(xf(h.hz), at(h.hz) + 4.0), label)
+                        .color(BEFORE_COLOUR),
+                );
+            }
+        }
+    });
+    control
+}
+
+/// The view's controls; a new Welch segment is sent to the DSP thread.
+fn controls(
+    ui: &mut egui::Ui,
+    frame: Option<&Arc<SpectrumFrame>>,
+    view: &mut SpectrumView,
+) -> Option<Control> {
+    let mut control = None;
+    ui.horizontal(|ui| {
+        ui.checkbox(&mut view.log_freq, "log frequency").on_hover_text("Logarithmic or linear frequency axis.");
+        ui.checkbox(&mut view.show_filtered, "after the filters").on_hover_text("Also draw the PSD after the chain.");
+        let before = view.segment;
+        egui::ComboBox::from_id_salt("welch-segment")
+            .selected_text(if view.segment == 0 { "segment ≈4 s".to_string() } else { format!("segment {}", view.segment) })
+            .show_ui(ui, |ui| {
+                ui.selectable_value(&mut view.segment, 0, "≈4 s (auto)");
+                for n in [256, 512, 1024, 2048, 4096, 8192, 16384] {
+                    ui.selectable_value(&mut view.segment, n, format!("{n} samples"));
+                }
+            })
+            .response
+            .on_hover_text("Welch segment length: longer gives finer frequency resolution, shorter a steadier estimate.");
+        if view.segment != before {
+            control = Some(Control::SpectrumSegment(view.segment));
+        }
+        if ui
+            .button("Hold as before")
+            .on_hover_text("Keep this estimate as the reference and show the change at each mains line (e.g. before unplugging the charger).")
+            .clicked()
+        {
+            view.before = frame.cloned();
+        }
+        if view.before.is_some() && ui.button("Clear before").clicked() {
+            view.before = None;
+        }
+    });
+    control
+}
+
+/// The mains report and, with a spectrum held, the change at each line.
+fn mains_text(ui: &mut egui::Ui, frame: &SpectrumFrame, view: &SpectrumView) {
+    if let Some(r) = &frame.mains_raw {
+        ui.label(report_text(r));
+    }
+    if let (Some(b), Some(a)) = (
+        view.before.as_ref().and_then(|b| b.mains_raw.as_ref()),
+        frame.mains_raw.as_ref(),
+    ) {
+        let parts: Vec<String> = line_changes(b, a)
+            .iter()
+            .map(|(o, d)| {
+                if *o == 1 {
+                    format!("fundamental {d:+.1} dB")
+                } else {
+                    format!("{o}×: {d:+.1} dB")
+                }
+            })
+            .collect();
+        ui.colored_label(
+            BEFORE_COLOUR,
+            format!("now vs before: {}", parts.join(" · ")),
+        );
+    }
+}
+
+/// The plot: dB lines every 10 dB (labelled) and 5 dB, the chain's gain on the right axis
+/// (0 dB at the PSD's top `top`), decades on a log frequency axis.
+fn axes(ui: &egui::Ui, top: f64, log: bool) -> Plot<'static> {
     let mut plot = Plot::new("spectrum")
         .height((ui.available_height() - 4.0).max(100.0))
         .x_axis_label("frequency (Hz)")
@@ -274,94 +347,55 @@ pub fn show(
             }
         });
     }
-    plot.show(ui, |pu| {
-        if let Some(b) = &view.before {
-            pu.line(
-                Line::new("before", PlotPoints::new(curve(&b.raw)))
-                    .color(BEFORE_COLOUR)
-                    .style(LineStyle::Dashed { length: 6.0 }),
-            );
-        }
-        pu.line(
-            Line::new("before the filters", PlotPoints::new(raw.clone()))
-                .color(RAW_COLOUR)
-                .width(1.5),
-        );
-        if view.show_filtered {
-            pu.line(
-                Line::new("after the filters", PlotPoints::new(filtered))
-                    .color(FILTERED_COLOUR)
-                    .width(1.5),
-            );
-        }
-        if let Some(sections) = sections {
-            let fresh = view.gain_cache.as_ref().is_none_or(|c| {
-                c.serial != frame.serial
-                    || c.log != log
-                    || c.top_db != top
-                    || c.columns != columns
-                    || c.sections.as_slice() != sections
-            });
-            if fresh {
-                let pts: Vec<[f64; 2]> = frame
-                    .raw
-                    .freqs_hz
-                    .iter()
-                    .skip(1)
-                    .map(|&f| {
-                        [
-                            xf(f),
-                            (20.0 * response::magnitude(sections, f, frame.fs_hz).log10())
-                                .max(FLOOR_DB - top)
-                                + top,
-                        ]
-                    })
-                    .collect();
-                view.gain_cache = Some(GainCache {
-                    serial: frame.serial,
-                    log,
-                    top_db: top,
-                    columns,
-                    sections: sections.to_vec(),
-                    points: decimate(&pts, columns),
-                });
-            }
-            let gain = view
-                .gain_cache
-                .as_ref()
-                .map(|c| c.points.clone())
-                .unwrap_or_default();
-            pu.line(
-                Line::new("chain gain", PlotPoints::new(gain))
-                    .color(GAIN_COLOUR)
-                    .width(1.5),
-            );
-        }
-        if let Some(r) = &frame.mains_raw {
-            let at = |f: f64| {
-                let k = (f / frame.raw.bin_hz).round() as usize;
-                frame.raw.density.get(k).map_or(FLOOR_DB, |&d| db(d))
-            };
-            let marks: Vec<[f64; 2]> = r.harmonics.iter().map(|h| [xf(h.hz), at(h.hz)]).collect();
-            pu.points(
-                Points::new("mains lines", PlotPoints::new(marks))
-                    .radius(4.0)
-                    .color(BEFORE_COLOUR),
-            );
-            for h in &r.harmonics {
-                let label = if h.order == 1 {
-                    format!("{:.2} Hz\n{:.1} µV", h.hz, h.rms_uv)
-                } else {
-                    format!("{:.1} µV", h.rms_uv)
-                };
-                pu.text(
-                    Text::new("", PlotPoint::new(xf(h.hz), at(h.hz) + 4.0), label)
-                        .color(BEFORE_COLOUR),
-                );
-            }
-        }
+    plot
+}
+
+/// The chain's gain at the PSD's bins, shifted so 0 dB sits at `top` (kept while nothing
+/// changes).
+fn chain_gain(
+    view: &mut SpectrumView,
+    sections: &[Section],
+    frame: &SpectrumFrame,
+    top: f64,
+    columns: usize,
+) -> Vec<[f64; 2]> {
+    let log = view.log_freq;
+    let xf = move |f: f64| if log { f.log10() } else { f };
+    let fresh = view.gain_cache.as_ref().is_none_or(|c| {
+        c.serial != frame.serial
+            || c.log != log
+            || c.top_db != top
+            || c.columns != columns
+            || c.sections.as_slice() != sections
     });
-    control
+    if fresh {
+        let pts: Vec<[f64; 2]> = frame
+            .raw
+            .freqs_hz
+            .iter()
+            .skip(1)
+            .map(|&f| {
+                [
+                    xf(f),
+                    (20.0 * response::magnitude(sections, f, frame.fs_hz).log10())
+                        .max(FLOOR_DB - top)
+                        + top,
+                ]
+            })
+            .collect();
+        view.gain_cache = Some(GainCache {
+            serial: frame.serial,
+            log,
+            top_db: top,
+            columns,
+            sections: sections.to_vec(),
+            points: decimate(&pts, columns),
+        });
+    }
+    view.gain_cache
+        .as_ref()
+        .map(|c| c.points.clone())
+        .unwrap_or_default()
 }
 
 /// Reduces a polyline sorted by x to the lowest and highest point of each of `columns` equal
