@@ -145,22 +145,12 @@ pub fn show(
     ] {
         let name = format!("ch{} {title}", ch + 1);
         let pts = column_points(cols, factor);
-        let fixed = (settings.fixed_range_uv > 0.0).then(|| {
-            let (lo, hi) = cols
-                .min
-                .iter()
-                .zip(&cols.max)
-                .fold((f32::MAX, f32::MIN), |(l, h), (&a, &b)| {
-                    (l.min(a), h.max(b))
-                });
-            let mid = if id == "filtered-trace" || lo > hi {
-                0.0
-            } else {
-                0.5 * f64::from(lo + hi)
-            };
-            let r = settings.fixed_range_uv;
-            ((mid - r) * factor, (mid + r) * factor)
-        });
+        let fixed = fixed_range(
+            cols,
+            id == "filtered-trace",
+            settings.fixed_range_uv,
+            factor,
+        );
         let resp = Plot::new(id)
             .height(height)
             .legend(Legend::default())
@@ -202,33 +192,7 @@ pub fn show(
                     );
                 }
                 if sweep {
-                    // The newest pass up to now, then the older one after a small gap.
-                    let x_now = snap.t_end_s.rem_euclid(window);
-                    let gap = 0.02 * window;
-                    let (mut new, mut old) = (Vec::new(), Vec::new());
-                    for p in &pts {
-                        let (x, newest) = sweep_x(p[0], snap.t_end_s, window);
-                        if newest {
-                            new.push([x, p[1]]);
-                        } else if x > x_now + gap {
-                            old.push([x, p[1]]);
-                        }
-                    }
-                    pu.line(
-                        Line::new(name.clone(), PlotPoints::new(new))
-                            .color(colour)
-                            .width(1.5),
-                    );
-                    pu.line(
-                        Line::new(name, PlotPoints::new(old))
-                            .color(colour)
-                            .width(1.5),
-                    );
-                    pu.vline(
-                        VLine::new("", x_now)
-                            .color(colour.gamma_multiply(0.5))
-                            .width(1.0),
-                    );
+                    sweep_lines(pu, pts, &name, colour, snap.t_end_s, window);
                 } else {
                     pu.line(
                         Line::new(name, PlotPoints::new(pts))
@@ -236,21 +200,7 @@ pub fn show(
                             .width(1.5),
                     );
                 }
-                for (k, c) in state.cursors.iter().enumerate() {
-                    if let Some([t, v]) = c {
-                        let label = format!("cursor {}", k + 1);
-                        pu.vline(
-                            VLine::new(label.clone(), *t)
-                                .color(CURSOR_COLOUR)
-                                .width(1.0),
-                        );
-                        pu.hline(
-                            HLine::new(label, v * factor)
-                                .color(CURSOR_COLOUR)
-                                .width(1.0),
-                        );
-                    }
-                }
+                cursor_lines(pu, &state.cursors, factor);
                 pu.pointer_coordinate()
             });
         let r = &resp.response;
@@ -267,6 +217,90 @@ pub fn show(
         }
     }
     events
+}
+
+/// The fixed vertical range (± `range_uv` around the trace's middle, around 0 after the
+/// filters), in the shown unit; None when the range is automatic.
+fn fixed_range(
+    cols: &crate::msg::Columns,
+    filtered: bool,
+    range_uv: f64,
+    factor: f64,
+) -> Option<(f64, f64)> {
+    (range_uv > 0.0).then(|| {
+        let (lo, hi) = cols
+            .min
+            .iter()
+            .zip(&cols.max)
+            .fold((f32::MAX, f32::MIN), |(l, h), (&a, &b)| {
+                (l.min(a), h.max(b))
+            });
+        let mid = if filtered || lo > hi {
+            0.0
+        } else {
+            0.5 * f64::from(lo + hi)
+        };
+        let r = range_uv;
+        ((mid - r) * factor, (mid + r) * factor)
+    })
+}
+
+/// A sweep trace: the newest pass up to now, the older one after a small gap, and the
+/// sweep's edge.
+fn sweep_lines(
+    pu: &mut egui_plot::PlotUi,
+    pts: Vec<[f64; 2]>,
+    name: &str,
+    colour: egui::Color32,
+    t_end: f64,
+    window: f64,
+) {
+    // The newest pass up to now, then the older one after a small gap.
+    let x_now = t_end.rem_euclid(window);
+    let gap = 0.02 * window;
+    let (mut new, mut old) = (Vec::new(), Vec::new());
+    for p in &pts {
+        let (x, newest) = sweep_x(p[0], t_end, window);
+        if newest {
+            new.push([x, p[1]]);
+        } else if x > x_now + gap {
+            old.push([x, p[1]]);
+        }
+    }
+    pu.line(
+        Line::new(name, PlotPoints::new(new))
+            .color(colour)
+            .width(1.5),
+    );
+    pu.line(
+        Line::new(name, PlotPoints::new(old))
+            .color(colour)
+            .width(1.5),
+    );
+    pu.vline(
+        VLine::new("", x_now)
+            .color(colour.gamma_multiply(0.5))
+            .width(1.0),
+    );
+}
+
+/// The two cursors, each a vertical and a horizontal line.
+fn cursor_lines(pu: &mut egui_plot::PlotUi, cursors: &[Option<[f64; 2]>; 2], factor: f64) {
+    for (k, c) in cursors.iter().enumerate() {
+        if let Some([t, v]) = c {
+            let label = format!("cursor {}", k + 1);
+            pu.vline(
+                VLine::new(label.clone(), *t)
+                    .color(CURSOR_COLOUR)
+                    .width(1.0),
+            );
+            pu.hline(
+                HLine::new(label, v * factor)
+                    .color(CURSOR_COLOUR)
+                    .width(1.0),
+            );
+        }
+    }
 }
 
 #[cfg(test)]
