@@ -7,6 +7,7 @@ use std::time::{Duration, Instant};
 use anyhow::Result;
 use eframe::egui;
 
+use super::action::{Action, SourceChoice};
 use super::panels;
 use super::state::{Settings, TraceUnit, View};
 use crate::msg::Control;
@@ -56,6 +57,8 @@ pub struct LeadlineApp {
     shot_requested: Option<Instant>,
     outcome: Arc<Mutex<Result<()>>>,
     pending: Vec<Control>,
+    /// What the panels asked for in this frame, applied after drawing.
+    actions: Vec<Action>,
     response: panels::response::ResponseCache,
     spectrum: panels::spectrum::SpectrumView,
     picker: panels::source::SourcePicker,
@@ -164,6 +167,7 @@ impl LeadlineApp {
             shot_requested: None,
             outcome,
             pending: Vec::new(),
+            actions: Vec::new(),
             response: Default::default(),
             spectrum: Default::default(),
             picker: Default::default(),
@@ -384,11 +388,6 @@ impl LeadlineApp {
         &self.trace
     }
 
-    /// Types the replay path (tests).
-    pub fn set_replay_path(&mut self, p: &str) {
-        self.file_path = p.to_string();
-    }
-
     /// True when a spectrum is held as 'before' (tests).
     pub fn spectrum_held(&self) -> bool {
         self.spectrum.before.is_some()
@@ -415,21 +414,6 @@ impl LeadlineApp {
                 self.pipeline.recorder(RecorderCommand::Marker(text));
             }
         }
-    }
-
-    /// The recording panel's fields (tests set the file name).
-    pub fn record_panel_mut(&mut self) -> &mut panels::record::RecordPanel {
-        &mut self.record
-    }
-
-    /// The files panel's fields (tests set the file names).
-    pub fn files_panel_mut(&mut self) -> &mut panels::files::FilesPanel {
-        &mut self.files
-    }
-
-    /// Settings, to change them as a panel would (tests).
-    pub fn settings_mut(&mut self) -> &mut Settings {
-        &mut self.settings
     }
 
     /// Markers placed, at stream time (tests read them).
@@ -809,190 +793,225 @@ impl LeadlineApp {
     }
 
     /// The side panel: filters, source, front end, display, sound, recording, files, simulator.
+    /// The side panel: filters, source, front end, display, sound, recording, files and the
+    /// simulator, top to bottom.
     fn side_panel(&mut self, ui: &mut egui::Ui, fs: f64) {
         egui::ScrollArea::vertical().show(ui, |ui| {
-                    ui.heading("Filters");
-                let inverted = self.view.snapshot.as_ref().is_some_and(|s| s.inverted);
-                let mut flip = inverted;
+            ui.heading("Filters");
+            self.filters_section(ui, fs);
+            ui.add_space(10.0);
+            ui.heading("Source");
+            self.source_section(ui);
+            ui.add_space(6.0);
+            self.settings_sections(ui);
+        });
+    }
+
+    /// Invert, the chain, the mains check and a refused chain's reason.
+    fn filters_section(&mut self, ui: &mut egui::Ui, fs: f64) {
+        let snap = self.view.snapshot.as_ref();
+        let inverted = snap.is_some_and(|s| s.inverted);
+        let mut flip = inverted;
+        if ui
+            .checkbox(&mut flip, "Invert the signal")
+            .on_hover_text(
+                "Flip the sign of every channel before the filters (leads swapped on the board).",
+            )
+            .changed()
+        {
+            self.actions.push(Action::Control(Control::Invert(flip)));
+        }
+        let looks_inverted = snap
+            .and_then(|s| s.beats.as_ref())
+            .is_some_and(|b| b.quality.inverted);
+        if looks_inverted && ui.button("Beats point down: flip").clicked() {
+            self.actions
+                .push(Action::Control(Control::Invert(!inverted)));
+        }
+        self.actions
+            .extend(panels::chain::show(ui, &self.settings.chain, fs));
+        let mains = snap
+            .and_then(|s| s.spectrum.as_ref())
+            .and_then(|f| f.mains_raw.clone());
+        let notch = self.settings.chain.notch;
+        if let Some(m) = mains.as_ref()
+            && notch.enabled
+            && !notch.auto
+            && let Some(msg) = m.disagrees_with(notch.mains_hz)
+        {
+            ui.horizontal_wrapped(|ui| {
+                ui.colored_label(ui.visuals().warn_fg_color, msg);
                 if ui
-                    .checkbox(&mut flip, "Invert the signal")
-                    .on_hover_text("Flip the sign of every channel before the filters (leads swapped on the board).")
-                    .changed()
+                    .button(format!("Notch at {:.0} Hz", m.nominal_hz))
+                    .on_hover_text("Move the notch to the measured mains region.")
+                    .clicked()
                 {
-                    self.pending.push(Control::Invert(flip));
+                    let mut c = self.settings.chain;
+                    c.notch.mains_hz = m.nominal_hz;
+                    self.actions.push(Action::Chain(c));
                 }
-                let looks_inverted = self
-                    .view
-                    .snapshot
-                    .as_ref()
-                    .and_then(|s| s.beats.as_ref())
-                    .is_some_and(|b| b.quality.inverted);
-                if looks_inverted && ui.button("Beats point down: flip").clicked() {
-                    self.pending.push(Control::Invert(!inverted));
+            });
+        }
+        if let Some(e) = snap.and_then(|s| s.chain_error.as_ref()) {
+            ui.colored_label(ui.visuals().error_fg_color, format!("Not applied: {e}"));
+        }
+    }
+
+    /// Serial port, network board, a file to replay and the replay's controls.
+    fn source_section(&mut self, ui: &mut egui::Ui) {
+        let s = &self.settings;
+        let active = s.serial.as_ref().map(|s| s.path.clone());
+        let simulating = s.serial.is_none() && s.net.is_none() && s.file.is_none();
+        let net_active = s.net.is_some();
+        let adc = s.front_ends.first().copied().unwrap_or_default().adc;
+        self.actions.extend(panels::source::show(
+            ui,
+            &mut self.picker,
+            active.as_deref(),
+            simulating,
+            adc,
+        ));
+        self.actions.extend(panels::network::show(
+            ui,
+            &mut self.net,
+            net_active,
+            adc,
+            self.source_error.as_deref(),
+        ));
+        ui.horizontal(|ui| {
+            panels::named_field(ui, "recording to replay", &mut self.file_path, |t| {
+                t.hint_text("recording.edf / .csv / .hea").desired_width(170.0)
+            })
+            .on_hover_text("A recording to replay: EDF/EDF+/BDF, our CSV, a scope CSV with a time column, raw .f32/.f64 or a WFDB .hea.");
+            if ui
+                .add_enabled(!self.file_path.is_empty(), egui::Button::new("Replay"))
+                .clicked()
+            {
+                self.actions.push(Action::Source(SourceChoice::File(
+                    self.file_path.clone().into(),
+                )));
+            }
+        });
+        if let Some(st) = self.pipeline.replay_status() {
+            self.actions.extend(panels::replay::show(ui, &st));
+        }
+    }
+
+    /// The folding sections: front end, display, sound, recording, files, and the simulator
+    /// while it is the source.
+    fn settings_sections(&mut self, ui: &mut egui::Ui) {
+        let heading = |t: &str| egui::RichText::new(t).heading();
+        egui::CollapsingHeader::new(heading("Front end"))
+            .default_open(true)
+            .show(ui, |ui| {
+                let board = self.settings.serial.is_some() || self.settings.net.is_some();
+                let n = self.view.snapshot.as_ref().map_or(1, |s| s.traces.len());
+                self.actions.extend(panels::front_end::show(
+                    ui,
+                    &mut self.front_end,
+                    (&self.settings.front_ends, self.settings.my_board),
+                    n,
+                    board,
+                ));
+            });
+        ui.add_space(10.0);
+        egui::CollapsingHeader::new(heading("Display"))
+            .default_open(false)
+            .show(ui, |ui| {
+                self.actions
+                    .extend(panels::display::show(ui, &mut self.settings));
+            });
+        egui::CollapsingHeader::new(heading("Sound"))
+            .default_open(false)
+            .show(ui, |ui| {
+                self.actions
+                    .extend(panels::sound::show(ui, &mut self.sound));
+            });
+        egui::CollapsingHeader::new(heading("Recording"))
+            .default_open(true)
+            .show(ui, |ui| {
+                let st = self.pipeline.recorder_status();
+                panels::record::settings(ui, &mut self.record, st.as_ref());
+            });
+        egui::CollapsingHeader::new(heading("Files"))
+            .default_open(false)
+            .show(ui, |ui| {
+                self.actions
+                    .extend(panels::files::show(ui, &mut self.files));
+            });
+        if self.settings.serial.is_none()
+            && self.settings.file.is_none()
+            && self.settings.net.is_none()
+        {
+            ui.add_space(10.0);
+            ui.heading("Simulated bench");
+            self.actions
+                .extend(panels::simulator::show(ui, &self.settings.synth));
+        }
+    }
+
+    /// Carries out one action (panels return them; tests send them).
+    pub fn apply(&mut self, a: Action) {
+        let fs = self
+            .view
+            .snapshot
+            .as_ref()
+            .map_or(self.settings.synth.fs_hz, |s| s.fs_hz);
+        match a {
+            Action::Control(c) => self.pending.push(c),
+            Action::Chain(c) => {
+                self.settings.chain = c;
+                self.pending.push(Control::Chain(c));
+            }
+            Action::Source(choice) => {
+                let s = &mut self.settings;
+                (s.serial, s.net, s.file) = (None, None, None);
+                match choice {
+                    SourceChoice::Simulator => {}
+                    SourceChoice::Serial(spec) => s.serial = Some(spec),
+                    SourceChoice::Network(spec) => s.net = Some(spec),
+                    SourceChoice::File(path) => {
+                        s.file = Some(crate::source::replay::ReplaySpec {
+                            path,
+                            read: crate::store::ReadOptions::default(),
+                        });
+                    }
                 }
-                    if panels::chain::show(ui, &mut self.settings.chain, fs) {
-                        self.pending.push(Control::Chain(self.settings.chain));
-                    }
-                    let mains = self
-                        .view
-                        .snapshot
-                        .as_ref()
-                        .and_then(|s| s.spectrum.as_ref())
-                        .and_then(|f| f.mains_raw.clone());
-                    if let Some(m) = mains.as_ref()
-                        && self.settings.chain.notch.enabled
-                        && !self.settings.chain.notch.auto
-                        && let Some(msg) = m.disagrees_with(self.settings.chain.notch.mains_hz)
-                    {
-                        ui.horizontal_wrapped(|ui| {
-                            ui.colored_label(ui.visuals().warn_fg_color, msg);
-                            if ui
-                                .button(format!("Notch at {:.0} Hz", m.nominal_hz))
-                                .on_hover_text("Move the notch to the measured mains region.")
-                                .clicked()
-                            {
-                                self.settings.chain.notch.mains_hz = m.nominal_hz;
-                                self.pending.push(Control::Chain(self.settings.chain));
-                            }
-                        });
-                    }
-                    if let Some(e) = self
-                        .view
-                        .snapshot
-                        .as_ref()
-                        .and_then(|s| s.chain_error.as_ref())
-                    {
-                        ui.colored_label(ui.visuals().error_fg_color, format!("Not applied: {e}"));
-                    }
-                    ui.add_space(10.0);
-                    ui.heading("Source");
-                    let active = self.settings.serial.as_ref().map(|s| s.path.clone());
-                    let first = self.settings.front_ends.first().copied().unwrap_or_default();
-                    if let Some(req) =
-                        panels::source::show(
-                            ui,
-                            &mut self.picker,
-                            active.as_deref(),
-                            self.settings.serial.is_none()
-                                && self.settings.net.is_none()
-                                && self.settings.file.is_none(),
-                            first.adc,
-                        )
-                    {
-                        self.settings.serial = match req {
-                            panels::source::SourceRequest::Simulator => None,
-                            panels::source::SourceRequest::Serial(spec) => Some(spec),
-                        };
-                        self.settings.file = None;
-                        self.settings.net = None;
-                        self.settings.channel = 0;
-                        self.restart_source();
-                    }
-                    let net_active = self.settings.net.is_some();
-                    if let Some(req) = panels::network::show(
-                        ui,
-                        &mut self.net,
-                        net_active,
-                        first.adc,
-                        self.source_error.as_deref(),
-                    ) {
-                        self.settings.net = match req {
-                            panels::network::NetRequest::Connect(spec) => Some(*spec),
-                            panels::network::NetRequest::Disconnect => None,
-                        };
-                        self.settings.serial = None;
-                        self.settings.file = None;
-                        self.settings.channel = 0;
-                        self.restart_source();
-                    }
-                    ui.horizontal(|ui| {
-                        ui.add(
-                            egui::TextEdit::singleline(&mut self.file_path)
-                                .hint_text("recording.edf / .csv / .hea")
-                                .desired_width(170.0),
-                        )
-                        .on_hover_text("A recording to replay: EDF/EDF+/BDF, our CSV, a scope CSV with a time column, raw .f32/.f64 or a WFDB .hea.");
-                        if ui.add_enabled(!self.file_path.is_empty(), egui::Button::new("Replay")).clicked() {
-                            self.settings.file = Some(crate::source::replay::ReplaySpec {
-                                path: self.file_path.clone().into(),
-                                read: crate::store::ReadOptions::default(),
-                            });
-                            self.settings.serial = None;
-                            self.settings.net = None;
-                            self.settings.channel = 0;
-                            self.restart_source();
-                        }
-                    });
-                    if let Some(st) = self.pipeline.replay_status() {
-                        for c in panels::replay::show(ui, &st) {
-                            self.pipeline.replay(c);
-                        }
-                    }
-                    ui.add_space(6.0);
-                    egui::CollapsingHeader::new(egui::RichText::new("Front end").heading())
-                        .default_open(true)
-                        .show(ui, |ui| {
-                            let board =
-                                self.settings.serial.is_some() || self.settings.net.is_some();
-                            let n = self.view.snapshot.as_ref().map_or(1, |s| s.traces.len());
-                            let ch = panels::front_end::show(
-                                ui,
-                                &mut self.front_end,
-                                &mut self.settings.front_ends,
-                                &mut self.settings.my_board,
-                                n,
-                                board,
-                            );
-                            if ch.scaling && board {
-                                self.pending.push(Control::FrontEnd(Some(
-                                    self.settings.front_ends.clone(),
-                                )));
-                            }
-                        });
-                    ui.add_space(10.0);
-                    egui::CollapsingHeader::new(egui::RichText::new("Display").heading())
-                        .default_open(false)
-                        .show(ui, |ui| {
-                            if let Some(c) = panels::display::show(ui, &mut self.settings) {
-                                self.pending.push(c);
-                            }
-                        });
-                    egui::CollapsingHeader::new(egui::RichText::new("Sound").heading())
-                        .default_open(false)
-                        .show(ui, |ui| {
-                            if let Some(c) = panels::sound::show(ui, &mut self.sound) {
-                                self.pending.push(c);
-                            }
-                        });
-                    egui::CollapsingHeader::new(egui::RichText::new("Recording").heading())
-                        .default_open(true)
-                        .show(ui, |ui| {
-                            let st = self.pipeline.recorder_status();
-                            panels::record::settings(ui, &mut self.record, st.as_ref());
-                        });
-                    egui::CollapsingHeader::new(egui::RichText::new("Files").heading())
-                        .default_open(false)
-                        .show(ui, |ui| {
-                            if let Some(a) = panels::files::show(ui, &mut self.files) {
-                                self.files_action(a, fs);
-                            }
-                        });
-                    if self.settings.serial.is_none()
-                        && self.settings.file.is_none()
-                        && self.settings.net.is_none()
-                    {
-                        ui.add_space(10.0);
-                        ui.heading("Simulated bench");
-                        let changed = panels::simulator::show(ui, &mut self.settings.synth);
-                        if changed.restart {
-                            self.settings.channel =
-                                self.settings.channel.min(self.settings.synth.channels - 1);
-                            self.restart_source();
-                        } else if changed.live {
-                            self.pipeline.synth(self.settings.synth.clone());
-                        }
-                    }
-                });
+                s.channel = 0;
+                self.restart_source();
+            }
+            Action::Synth { settings, restart } => {
+                self.settings.synth = settings;
+                if restart {
+                    self.settings.channel =
+                        self.settings.channel.min(self.settings.synth.channels - 1);
+                    self.restart_source();
+                } else {
+                    self.pipeline.synth(self.settings.synth.clone());
+                }
+            }
+            Action::FrontEnds { front_ends, live } => {
+                self.settings.front_ends = front_ends;
+                if live {
+                    self.pending
+                        .push(Control::FrontEnd(Some(self.settings.front_ends.clone())));
+                }
+            }
+            Action::MyBoard(b) => self.settings.my_board = b,
+            Action::Replay(c) => self.pipeline.replay(c),
+            Action::Record(r) => self.record_action(r),
+            Action::Files(f) => self.files_action(f, fs),
+            Action::Pause(p) => self.set_paused(p),
+            Action::HoldSpectrum(hold) => {
+                self.spectrum.before = hold
+                    .then(|| self.view.snapshot.as_ref().and_then(|s| s.spectrum.clone()))
+                    .flatten();
+            }
+            Action::Lower(l) => self.settings.lower = l,
+            Action::Theme(t) => self.settings.theme = t,
+            Action::EmgMode(on) => self.set_emg_mode(on, fs),
+            Action::Help(open) => self.help_open = open,
+        }
     }
 
     /// The traces and the lower strip under them.
@@ -1171,6 +1190,9 @@ impl LeadlineApp {
             super::state::acknowledge_caution();
         }
 
+        for a in std::mem::take(&mut self.actions) {
+            self.apply(a);
+        }
         for c in self.pending.drain(..) {
             self.pipeline.control(c);
         }

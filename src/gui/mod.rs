@@ -1,6 +1,7 @@
 //! The monitor window (eframe, glow backend). Panels read the view and return the Control they
 //! want sent; the app applies them after drawing.
 
+pub mod action;
 pub mod app;
 pub mod bench;
 pub mod panels;

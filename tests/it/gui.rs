@@ -8,6 +8,7 @@ use std::time::{Duration, Instant};
 use eframe::egui::Role;
 use egui_kittest::Harness;
 use egui_kittest::kittest::Queryable;
+use leadline::gui::action::Action;
 use leadline::gui::state::Settings;
 use leadline::gui::{AppOptions, LeadlineApp};
 
@@ -19,6 +20,27 @@ fn app() -> LeadlineApp {
         Arc::new(Mutex::new(Ok(()))),
     )
     .unwrap()
+}
+
+/// Types `text` into the text field named `name`, as a person would: focus, select all, type,
+/// and leave the field (Escape) so the keys work on the monitor again.
+fn fill(h: &mut Harness<'static, LeadlineApp>, name: &str, text: &str) {
+    use eframe::egui::{Key, Modifiers};
+    h.get_by_role_and_label(Role::TextInput, name).focus();
+    h.run_steps(1);
+    h.key_press_modifiers(Modifiers::COMMAND, Key::A);
+    h.get_by_role_and_label(Role::TextInput, name)
+        .type_text(text);
+    h.run_steps(1);
+    h.key_press(Key::Escape);
+    h.run_steps(1);
+    assert_eq!(
+        h.get_by_role_and_label(Role::TextInput, name)
+            .value()
+            .as_deref(),
+        Some(text),
+        "the field {name} took the text"
+    );
 }
 
 fn harness(app: LeadlineApp) -> Harness<'static, LeadlineApp> {
@@ -128,10 +150,11 @@ fn run_until(h: &mut Harness<'static, LeadlineApp>, what: &str, f: impl Fn(&Lead
 fn record_button_records_the_m_key_marks_and_stop_closes_the_file() {
     let path = tmp("gui-recording.edf");
     let _ = std::fs::remove_file(&path);
-    let mut a = app();
-    a.record_panel_mut().path = path.display().to_string();
-    a.record_panel_mut().marker_text = "charger plugged in".into();
-    let mut h = harness(a);
+    // Tall enough that the Recording section is on screen without scrolling.
+    let mut h = harness_sized(app(), [1280.0, 1600.0]);
+    h.run_steps(2);
+    fill(&mut h, "recording file", &path.display().to_string());
+    fill(&mut h, "marker text", "charger plugged in");
     run_until(&mut h, "the first snapshot", |a| {
         a.view().snapshot.is_some()
     });
@@ -169,16 +192,18 @@ fn record_button_records_the_m_key_marks_and_stop_closes_the_file() {
 #[test]
 fn setup_save_and_open_restore_the_chain_and_view() {
     let path = tmp("gui-setup.toml");
-    let mut a = app();
-    a.files_panel_mut().setup_path = path.display().to_string();
-    a.settings_mut().chain.lowpass.corner_hz = 35.0;
-    a.settings_mut().theme = leadline::setup::Theme::Light;
     // Tall enough that the side panel's Files section is on screen without scrolling.
-    let mut h = harness_sized(a, [1280.0, 1600.0]);
+    let mut h = harness_sized(app(), [1280.0, 1600.0]);
     h.run_steps(2);
+    let mut chain = h.state().settings().chain;
+    chain.lowpass.corner_hz = 35.0;
+    h.state_mut().apply(Action::Chain(chain));
+    h.state_mut()
+        .apply(Action::Theme(leadline::setup::Theme::Light));
     // The Files section starts folded.
     h.get_by_label("Files").click();
     h.run_steps(2);
+    fill(&mut h, "setup file", &path.display().to_string());
     h.get_by_role_and_label(Role::Button, "Save").click();
     h.run_steps(2);
     // Saving runs off the UI thread and reports in the Files section.
@@ -190,8 +215,10 @@ fn setup_save_and_open_restore_the_chain_and_view() {
     }
     assert!(path.exists());
     let saved = h.state().settings().clone();
-    h.state_mut().settings_mut().chain.lowpass.corner_hz = 100.0;
-    h.state_mut().settings_mut().theme = leadline::setup::Theme::Dark;
+    chain.lowpass.corner_hz = 100.0;
+    h.state_mut().apply(Action::Chain(chain));
+    h.state_mut()
+        .apply(Action::Theme(leadline::setup::Theme::Dark));
     h.run_steps(1);
     h.get_by_role_and_label(Role::Button, "Open").click();
     h.run_steps(2);
@@ -253,8 +280,7 @@ fn replaying_a_file_switches_the_source() {
     run_until(&mut h, "the simulator's first snapshot", |a| {
         a.view().snapshot.as_ref().is_some_and(|s| s.fs_hz == 500.0)
     });
-    h.state_mut().set_replay_path(&path.display().to_string());
-    h.run_steps(1);
+    fill(&mut h, "recording to replay", &path.display().to_string());
     h.get_by_role_and_label(Role::Button, "Replay").click();
     h.run_steps(2);
     assert!(h.state().settings().file.is_some());
@@ -344,9 +370,7 @@ fn the_help_panel_lists_the_shortcuts() {
 fn display_settings_and_the_trace_png_button() {
     let png = tmp("gui-trace.png");
     let _ = std::fs::remove_file(&png);
-    let mut a = app();
-    a.files_panel_mut().trace_png = png.display().to_string();
-    let mut h = harness_sized(a, [1280.0, 1800.0]);
+    let mut h = harness_sized(app(), [1280.0, 1800.0]);
     run_until(&mut h, "a snapshot", |a| a.view().snapshot.is_some());
     h.get_by_label("Display").click();
     h.run_steps(2);
@@ -358,6 +382,7 @@ fn display_settings_and_the_trace_png_button() {
     assert!(h.state().settings().fixed_range_uv > 0.0);
     h.get_by_label("Files").click();
     h.run_steps(2);
+    fill(&mut h, "trace PNG file", &png.display().to_string());
     h.get_by_role_and_label(Role::Button, "Save trace").click();
     h.run_steps(2);
     // The PNG is drawn off the UI thread; the Files section says when it is saved.

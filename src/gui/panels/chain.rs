@@ -3,9 +3,16 @@
 use eframe::egui;
 
 use crate::dsp::chain::ChainSettings;
+use crate::gui::action::Action;
 
-/// Draws the chain controls. Returns true when anything changed.
-pub fn show(ui: &mut egui::Ui, chain: &mut ChainSettings, fs_hz: f64) -> bool {
+/// Draws the chain controls for `chain`; the edited chain when anything changed.
+pub fn show(ui: &mut egui::Ui, chain: &ChainSettings, fs_hz: f64) -> Option<Action> {
+    let mut c = *chain;
+    (edit(ui, &mut c, fs_hz) || c != *chain).then_some(Action::Chain(c))
+}
+
+/// The controls; true when anything changed.
+fn edit(ui: &mut egui::Ui, chain: &mut ChainSettings, fs_hz: f64) -> bool {
     let before = *chain;
     let nyq = fs_hz / 2.0;
     ui.horizontal(|ui| {

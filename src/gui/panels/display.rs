@@ -6,7 +6,11 @@ use crate::gui::state::Settings;
 use crate::msg::Control;
 
 /// Draws the settings; returns a Control when the display rate changed.
-pub fn show(ui: &mut egui::Ui, s: &mut Settings) -> Option<Control> {
+pub fn show(ui: &mut egui::Ui, s: &mut Settings) -> Option<crate::gui::action::Action> {
+    controls(ui, s).map(crate::gui::action::Action::Control)
+}
+
+fn controls(ui: &mut egui::Ui, s: &mut Settings) -> Option<Control> {
     let mut out = None;
     let r = ui
         .add(

@@ -50,18 +50,22 @@ pub enum FilesAction {
     SpectrumPng(PathBuf),
 }
 
-fn path_row(ui: &mut egui::Ui, text: &mut String, tip: &str) {
-    ui.add(egui::TextEdit::singleline(text).desired_width(170.0))
-        .on_hover_text(tip);
+fn path_row(ui: &mut egui::Ui, name: &str, text: &mut String, tip: &str) {
+    super::named_field(ui, name, text, |t| t.desired_width(170.0)).on_hover_text(tip);
 }
 
 /// Draws the panel; returns the action asked for.
-pub fn show(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<FilesAction> {
+pub fn show(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<crate::gui::action::Action> {
+    files(ui, p).map(crate::gui::action::Action::Files)
+}
+
+fn files(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<FilesAction> {
     let mut action = None;
     ui.label(egui::RichText::new("Setup").strong());
     ui.horizontal(|ui| {
         path_row(
             ui,
+            "setup file",
             &mut p.setup_path,
             "A TOML file with the whole configuration: source, scaling, chain, simulator, views.",
         );
@@ -85,6 +89,7 @@ pub fn show(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<FilesAction> {
     ui.horizontal(|ui| {
         path_row(
             ui,
+            "C header file",
             &mut p.header_path,
             "A self-contained C99 header with the chain as set now, at the stream's sample rate.",
         );
@@ -129,6 +134,7 @@ pub fn show(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<FilesAction> {
     ui.horizontal(|ui| {
         path_row(
             ui,
+            "trace PNG file",
             &mut p.trace_png,
             "PNG of the traces in the window now, before and after the chain, with markers.",
         );
@@ -139,6 +145,7 @@ pub fn show(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<FilesAction> {
     ui.horizontal(|ui| {
         path_row(
             ui,
+            "spectrum PNG file",
             &mut p.spectrum_png,
             "PNG of the latest spectrum after the chain, with the mains lines measured.",
         );

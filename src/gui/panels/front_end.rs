@@ -25,6 +25,29 @@ pub struct FrontEndChange {
 pub fn show(
     ui: &mut egui::Ui,
     p: &mut FrontEndPanel,
+    current: (&[FrontEnd], Option<FrontEnd>),
+    channels: usize,
+    board: bool,
+) -> Vec<crate::gui::action::Action> {
+    use crate::gui::action::Action;
+    let (mut list, mut mine) = (current.0.to_vec(), current.1);
+    let change = edit(ui, p, &mut list, &mut mine, channels, board);
+    let mut out = Vec::new();
+    if change.scaling || list != current.0 {
+        out.push(Action::FrontEnds {
+            front_ends: list,
+            live: change.scaling && board,
+        });
+    }
+    if mine != current.1 {
+        out.push(Action::MyBoard(mine));
+    }
+    out
+}
+
+fn edit(
+    ui: &mut egui::Ui,
+    p: &mut FrontEndPanel,
     list: &mut Vec<FrontEnd>,
     my_board: &mut Option<FrontEnd>,
     channels: usize,

@@ -49,3 +49,20 @@ pub(crate) fn rate_choice(
         );
     }
 }
+
+/// A one-line text field with an accessible name (screen readers, and the tests that fill it).
+pub(crate) fn named_field(
+    ui: &mut egui::Ui,
+    name: &str,
+    text: &mut String,
+    edit: impl FnOnce(egui::TextEdit<'_>) -> egui::TextEdit<'_>,
+) -> egui::Response {
+    let r = ui.add(edit(egui::TextEdit::singleline(text)));
+    let value = text.clone();
+    r.widget_info(|| {
+        let mut i = egui::WidgetInfo::text_edit(true, &value, &value, "");
+        i.label = Some(name.to_string());
+        i
+    });
+    r
+}

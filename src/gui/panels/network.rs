@@ -49,6 +49,22 @@ pub fn show(
     active: bool,
     scale: InputScale,
     error: Option<&str>,
+) -> Option<crate::gui::action::Action> {
+    use crate::gui::action::{Action, SourceChoice};
+    pick(ui, p, active, scale, error).map(|r| {
+        Action::Source(match r {
+            NetRequest::Connect(spec) => SourceChoice::Network(*spec),
+            NetRequest::Disconnect => SourceChoice::Simulator,
+        })
+    })
+}
+
+fn pick(
+    ui: &mut egui::Ui,
+    p: &mut NetPicker,
+    active: bool,
+    scale: InputScale,
+    error: Option<&str>,
 ) -> Option<NetRequest> {
     let mut req = None;
     ui.horizontal(|ui| {

@@ -131,7 +131,7 @@ pub fn top_bar(
 pub fn settings(ui: &mut egui::Ui, panel: &mut RecordPanel, status: Option<&RecorderStatus>) {
     ui.horizontal(|ui| {
         ui.label("File");
-        ui.add(egui::TextEdit::singleline(&mut panel.path).desired_width(190.0))
+        super::named_field(ui, "recording file", &mut panel.path, |t| t.desired_width(190.0))
             .on_hover_text("The extension picks the format: .edf (EDF+, 16-bit), .bdf (BDF+, 24-bit), .csv (text, mV), .f32/.f64 (raw).");
     });
     ui.horizontal(|ui| {
@@ -144,11 +144,9 @@ pub fn settings(ui: &mut egui::Ui, panel: &mut RecordPanel, status: Option<&Reco
     });
     ui.horizontal(|ui| {
         ui.label("Marker text");
-        ui.add(
-            egui::TextEdit::singleline(&mut panel.marker_text)
-                .hint_text("e.g. charger plugged in")
-                .desired_width(150.0),
-        )
+        super::named_field(ui, "marker text", &mut panel.marker_text, |t| {
+            t.hint_text("e.g. charger plugged in").desired_width(150.0)
+        })
         .on_hover_text("Text of the next event marker (empty: numbered).");
     });
     if let Some(s) = status

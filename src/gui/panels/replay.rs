@@ -5,7 +5,14 @@ use eframe::egui;
 use crate::source::replay::{ReplayCommand, ReplayStatus};
 
 /// Draws the controls for a running replay; returns the commands to send.
-pub fn show(ui: &mut egui::Ui, st: &ReplayStatus) -> Vec<ReplayCommand> {
+pub fn show(ui: &mut egui::Ui, st: &ReplayStatus) -> Vec<crate::gui::action::Action> {
+    commands(ui, st)
+        .into_iter()
+        .map(crate::gui::action::Action::Replay)
+        .collect()
+}
+
+fn commands(ui: &mut egui::Ui, st: &ReplayStatus) -> Vec<ReplayCommand> {
     let mut out = Vec::new();
     if let Some(e) = &st.error {
         ui.colored_label(ui.visuals().error_fg_color, e);

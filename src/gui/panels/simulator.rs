@@ -1,5 +1,6 @@
 //! Simulator controls: the signal at the electrodes and the bench conditions.
 
+use crate::gui::action::Action;
 use eframe::egui;
 
 use crate::source::SynthSettings;
@@ -14,7 +15,17 @@ pub struct Changed {
 }
 
 /// Draws the simulator controls.
-pub fn show(ui: &mut egui::Ui, s: &mut SynthSettings) -> Changed {
+pub fn show(ui: &mut egui::Ui, current: &SynthSettings) -> Option<Action> {
+    let mut s = current.clone();
+    let c = edit(ui, &mut s);
+    (c.live || c.restart || s != *current).then_some(Action::Synth {
+        settings: s,
+        restart: c.restart,
+    })
+}
+
+/// The controls; what changed.
+fn edit(ui: &mut egui::Ui, s: &mut SynthSettings) -> Changed {
     let before = s.clone();
     ui.add(
         egui::Slider::new(&mut s.hr_bpm, 30.0..=220.0)

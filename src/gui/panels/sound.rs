@@ -66,7 +66,11 @@ impl SoundPanel {
 }
 
 /// Draws the section; returns the control to send when something changed.
-pub fn show(ui: &mut egui::Ui, p: &mut SoundPanel) -> Option<Control> {
+pub fn show(ui: &mut egui::Ui, p: &mut SoundPanel) -> Option<crate::gui::action::Action> {
+    controls(ui, p).map(crate::gui::action::Action::Control)
+}
+
+fn controls(ui: &mut egui::Ui, p: &mut SoundPanel) -> Option<Control> {
     let before = p.settings;
     ui.checkbox(&mut p.settings.tone, "Tone on each beat")
         .on_hover_text(

@@ -74,6 +74,22 @@ pub fn show(
     active: Option<&str>,
     simulating: bool,
     scale: InputScale,
+) -> Option<crate::gui::action::Action> {
+    use crate::gui::action::{Action, SourceChoice};
+    pick(ui, p, active, simulating, scale).map(|r| {
+        Action::Source(match r {
+            SourceRequest::Simulator => SourceChoice::Simulator,
+            SourceRequest::Serial(spec) => SourceChoice::Serial(spec),
+        })
+    })
+}
+
+fn pick(
+    ui: &mut egui::Ui,
+    p: &mut SourcePicker,
+    active: Option<&str>,
+    simulating: bool,
+    scale: InputScale,
 ) -> Option<SourceRequest> {
     let serial_active = active.is_some();
     if let Some(a) = active

@@ -1,0 +1,71 @@
+//! What the user asked for in a frame. Panels draw and return actions; the app applies them all
+//! after drawing, in one place ([`super::app::LeadlineApp::apply`]), so no panel reaches into
+//! the pipeline or another panel's state.
+
+use std::path::PathBuf;
+
+use crate::dsp::ChainSettings;
+use crate::msg::Control;
+use crate::scale::FrontEnd;
+use crate::setup::Theme;
+use crate::source::replay::ReplayCommand;
+use crate::source::serial::SerialSpec;
+use crate::source::{SourceSpec, SynthSettings};
+
+use super::panels::files::FilesAction;
+use super::panels::record::RecordAction;
+use super::state::LowerView;
+
+/// Where the samples should come from.
+#[derive(Debug, Clone)]
+pub enum SourceChoice {
+    /// The built-in simulator.
+    Simulator,
+    /// A board on a serial port.
+    Serial(SerialSpec),
+    /// A board on the network (a UDP or TCP source).
+    Network(SourceSpec),
+    /// A recording replayed.
+    File(PathBuf),
+}
+
+/// One thing to do.
+#[derive(Debug, Clone)]
+pub enum Action {
+    /// Straight to the DSP thread.
+    Control(Control),
+    /// The chain as edited: kept and sent to the DSP thread.
+    Chain(ChainSettings),
+    /// Another source (the old stream stays when the new one cannot start).
+    Source(SourceChoice),
+    /// The simulator's settings; `restart` when the stream's rate or channels changed.
+    Synth {
+        settings: SynthSettings,
+        restart: bool,
+    },
+    /// The board's front ends per channel; `live` sends them to the running stream.
+    FrontEnds {
+        front_ends: Vec<FrontEnd>,
+        live: bool,
+    },
+    /// The user's own board kept as a preset.
+    MyBoard(Option<FrontEnd>),
+    /// To the replay thread.
+    Replay(ReplayCommand),
+    /// Start, stop or mark a recording.
+    Record(RecordAction),
+    /// Open or save a setup, export C, save a PNG.
+    Files(FilesAction),
+    /// Freeze or resume the traces.
+    Pause(bool),
+    /// Keep (or drop) the current spectrum as "before".
+    HoldSpectrum(bool),
+    /// The strip under the traces.
+    Lower(LowerView),
+    /// Colours.
+    Theme(Theme),
+    /// Muscle (EMG) signals instead of the heart's.
+    EmgMode(bool),
+    /// Open or close the help.
+    Help(bool),
+}
