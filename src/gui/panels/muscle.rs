@@ -107,6 +107,123 @@ fn controls(ui: &mut egui::Ui, s: &mut EmgSettings, view: Option<&EmgView>) -> O
     out
 }
 
+/// The newest contraction's figures in one line.
+fn summary(v: &EmgView) -> String {
+    match v.bursts.last() {
+        Some(b) => format!(
+            "{} contractions in view · newest {:.2} s long, RMS {:.0} µV, peak {:.0} µV, mean {} Hz, median {} Hz{}{}",
+            v.bursts.len(),
+            b.off_s - b.on_s,
+            b.rms_uv,
+            b.peak_uv,
+            b.mean_hz.map_or("—".into(), |f| format!("{f:.0}")),
+            b.median_hz.map_or("—".into(), |f| format!("{f:.0}")),
+            b.pct_mvc
+                .map_or(String::new(), |p| format!(", {p:.0} % MVC")),
+            v.trend_change_pct.map_or(String::new(), |c| format!(
+                " · median frequency trend {c:+.1} %"
+            ))
+        ),
+        None => "no contraction in view (threshold: baseline mean + 3 SD over the quietest second)"
+            .into(),
+    }
+}
+
+/// The envelope, the moving RMS, the rectified signal and the contractions found.
+fn envelope_plot(ui: &mut egui::Ui, v: &EmgView, trace: Option<&Columns>, width: f32, height: f32) {
+    let pts = |y: &[f32]| -> Vec<[f64; 2]> {
+        y.iter()
+            .enumerate()
+            .map(|(i, &u)| [v.t0_s + i as f64 * v.dt_s, f64::from(u)])
+            .collect()
+    };
+    let top = v.rms.iter().copied().fold(0.0f32, f32::max).max(1.0) as f64;
+    // The rectified signal itself, faint, behind: the largest |value| of each display column.
+    let signal: Vec<[f64; 2]> = trace
+        .map(|c| {
+            c.min
+                .iter()
+                .zip(&c.max)
+                .enumerate()
+                .map(|(i, (lo, hi))| {
+                    [
+                        c.t0_s + (i as f64 + 0.5) * c.dt_s,
+                        f64::from(lo.abs().max(hi.abs())),
+                    ]
+                })
+                .filter(|p| p[0] >= v.t0_s)
+                .collect()
+        })
+        .unwrap_or_default();
+    let t_end = v.t0_s + v.rms.len() as f64 * v.dt_s;
+    Plot::new("emg-envelope")
+        .width(width)
+        .height(height)
+        .legend(Legend::default())
+        .x_axis_label("time (s)")
+        .y_axis_label("µV")
+        .include_y(0.0)
+        .allow_drag(false)
+        .allow_zoom(false)
+        .allow_scroll(false)
+        .show(ui, |pu| {
+            for b in &v.bursts {
+                pu.polygon(
+                    Polygon::new(
+                        "",
+                        PlotPoints::new(vec![
+                            [b.on_s, 0.0],
+                            [b.off_s, 0.0],
+                            [b.off_s, 1.05 * top],
+                            [b.on_s, 1.05 * top],
+                        ]),
+                    )
+                    .fill_color(BURST_FILL)
+                    .stroke(egui::Stroke::NONE),
+                );
+            }
+            pu.line(
+                Line::new("|signal| after the filters", PlotPoints::new(signal))
+                    .color(egui::Color32::from_rgba_unmultiplied(0, 168, 150, 45)),
+            );
+            // Scaled to the RMS: the signal's peaks may leave the top.
+            pu.set_plot_bounds_y(-0.05 * top..=1.6 * top);
+            pu.set_plot_bounds_x(v.t0_s..=t_end);
+            pu.line(Line::new("moving RMS", PlotPoints::new(pts(&v.rms))).color(RAW_COLOUR));
+            pu.line(
+                Line::new("linear envelope", PlotPoints::new(pts(&v.envelope)))
+                    .color(FILTERED_COLOUR)
+                    .width(1.5),
+            );
+            pu.hline(
+                HLine::new("onset threshold", v.threshold_uv)
+                    .color(egui::Color32::from_rgb(230, 170, 70)),
+            );
+        });
+}
+
+/// The median frequency of each contraction over time (fatigue shows as a fall).
+fn median_plot(ui: &mut egui::Ui, v: &EmgView, width: f32, height: f32) {
+    let trend: Vec<[f64; 2]> = v.trend.iter().map(|p| [p.0, p.1]).collect();
+    Plot::new("emg-median")
+        .width(width)
+        .height(height)
+        .x_axis_label("time (s)")
+        .y_axis_label("median frequency (Hz)")
+        .include_y(0.0)
+        .allow_drag(false)
+        .allow_zoom(false)
+        .allow_scroll(false)
+        .show(ui, |pu| {
+            pu.points(
+                Points::new("median frequency", PlotPoints::new(trend.clone()))
+                    .radius(3.0)
+                    .color(TREND_COLOUR),
+            );
+            pu.line(Line::new("", PlotPoints::new(trend)).color(TREND_COLOUR));
+        });
+}
+
 /// Draws the view. `fs`: the stream's rate (a rate under 1 kHz is advised against); `trace`:
 /// the followed channel after the chain. Returns a control when a setting or a mark changed.
 pub fn show(
@@ -131,112 +248,12 @@ pub fn show(
         ui.label(e);
         return control;
     }
-    let last = v.bursts.last();
-    ui.label(match last {
-        Some(b) => format!(
-            "{} contractions in view · newest {:.2} s long, RMS {:.0} µV, peak {:.0} µV, mean {} Hz, median {} Hz{}{}",
-            v.bursts.len(),
-            b.off_s - b.on_s,
-            b.rms_uv,
-            b.peak_uv,
-            b.mean_hz.map_or("—".into(), |f| format!("{f:.0}")),
-            b.median_hz.map_or("—".into(), |f| format!("{f:.0}")),
-            b.pct_mvc.map_or(String::new(), |p| format!(", {p:.0} % MVC")),
-            v.trend_change_pct
-                .map_or(String::new(), |c| format!(" · median frequency trend {c:+.1} %"))
-        ),
-        None => "no contraction in view (threshold: baseline mean + 3 SD over the quietest second)".into(),
-    });
+    ui.label(summary(v));
     let width = (ui.available_width() - 8.0).max(200.0);
     let height = (ui.available_height() - 4.0).max(100.0);
     ui.horizontal(|ui| {
-        let pts = |y: &[f32]| -> Vec<[f64; 2]> {
-            y.iter()
-                .enumerate()
-                .map(|(i, &u)| [v.t0_s + i as f64 * v.dt_s, f64::from(u)])
-                .collect()
-        };
-        let top = v.rms.iter().copied().fold(0.0f32, f32::max).max(1.0) as f64;
-        // The rectified signal itself, faint, behind: the largest |value| of each display column.
-        let signal: Vec<[f64; 2]> = trace
-            .map(|c| {
-                c.min
-                    .iter()
-                    .zip(&c.max)
-                    .enumerate()
-                    .map(|(i, (lo, hi))| {
-                        [
-                            c.t0_s + (i as f64 + 0.5) * c.dt_s,
-                            f64::from(lo.abs().max(hi.abs())),
-                        ]
-                    })
-                    .filter(|p| p[0] >= v.t0_s)
-                    .collect()
-            })
-            .unwrap_or_default();
-        let t_end = v.t0_s + v.rms.len() as f64 * v.dt_s;
-        Plot::new("emg-envelope")
-            .width(0.68 * width)
-            .height(height)
-            .legend(Legend::default())
-            .x_axis_label("time (s)")
-            .y_axis_label("µV")
-            .include_y(0.0)
-            .allow_drag(false)
-            .allow_zoom(false)
-            .allow_scroll(false)
-            .show(ui, |pu| {
-                for b in &v.bursts {
-                    pu.polygon(
-                        Polygon::new(
-                            "",
-                            PlotPoints::new(vec![
-                                [b.on_s, 0.0],
-                                [b.off_s, 0.0],
-                                [b.off_s, 1.05 * top],
-                                [b.on_s, 1.05 * top],
-                            ]),
-                        )
-                        .fill_color(BURST_FILL)
-                        .stroke(egui::Stroke::NONE),
-                    );
-                }
-                pu.line(
-                    Line::new("|signal| after the filters", PlotPoints::new(signal))
-                        .color(egui::Color32::from_rgba_unmultiplied(0, 168, 150, 45)),
-                );
-                // Scaled to the RMS: the signal's peaks may leave the top.
-                pu.set_plot_bounds_y(-0.05 * top..=1.6 * top);
-                pu.set_plot_bounds_x(v.t0_s..=t_end);
-                pu.line(Line::new("moving RMS", PlotPoints::new(pts(&v.rms))).color(RAW_COLOUR));
-                pu.line(
-                    Line::new("linear envelope", PlotPoints::new(pts(&v.envelope)))
-                        .color(FILTERED_COLOUR)
-                        .width(1.5),
-                );
-                pu.hline(
-                    HLine::new("onset threshold", v.threshold_uv)
-                        .color(egui::Color32::from_rgb(230, 170, 70)),
-                );
-            });
-        let trend: Vec<[f64; 2]> = v.trend.iter().map(|p| [p.0, p.1]).collect();
-        Plot::new("emg-median")
-            .width(0.3 * width)
-            .height(height)
-            .x_axis_label("time (s)")
-            .y_axis_label("median frequency (Hz)")
-            .include_y(0.0)
-            .allow_drag(false)
-            .allow_zoom(false)
-            .allow_scroll(false)
-            .show(ui, |pu| {
-                pu.points(
-                    Points::new("median frequency", PlotPoints::new(trend.clone()))
-                        .radius(3.0)
-                        .color(TREND_COLOUR),
-                );
-                pu.line(Line::new("", PlotPoints::new(trend)).color(TREND_COLOUR));
-            });
+        envelope_plot(ui, v, trace, 0.68 * width, height);
+        median_plot(ui, v, 0.3 * width, height);
     });
     control
 }

@@ -28,6 +28,8 @@ pub struct PartsView {
     /// The op-amps' input bias current, nA (for the offsets shown).
     bias_na: f64,
     saved: Option<String>,
+    /// The files being written off the UI thread; their message arrives here.
+    saving: Option<crossbeam_channel::Receiver<String>>,
 }
 
 impl Default for PartsView {
@@ -37,6 +39,7 @@ impl Default for PartsView {
             save_base: "chain".into(),
             bias_na: 1.0,
             saved: None,
+            saving: None,
             series: Series::E24,
             r_tol_pct: 1.0,
             c_tol_pct: 5.0,
@@ -122,6 +125,61 @@ impl PartsView {
 
 /// Draws the view.
 pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: f64) {
+    controls(ui, view);
+    view.update(chain, fs);
+    let stages = match &view.stages {
+        Ok(s) => s.clone(),
+        Err(e) => {
+            ui.colored_label(ui.visuals().error_fg_color, e);
+            return;
+        }
+    };
+    let width = ui.available_width();
+    let height = ui.available_height().max(120.0);
+    ui.horizontal_top(|ui| {
+        ui.allocate_ui(egui::vec2(width * 0.62, height), |ui| {
+            egui::ScrollArea::vertical()
+                .id_salt("parts-table")
+                .auto_shrink([false, false])
+                .show(ui, |ui| {
+                    ui.vertical(|ui| {
+                        table(ui, &stages);
+                        ui.horizontal(|ui| {
+                            ui.label("op-amp input bias");
+                            ui.add(
+                                egui::DragValue::new(&mut view.bias_na)
+                                    .range(0.001..=1000.0)
+                                    .speed(0.1)
+                                    .suffix(" nA"),
+                            )
+                            .on_hover_text(
+                                "From your op-amp's datasheet: the offsets below scale with it.",
+                            );
+                        });
+                        details(ui, &stages, view.bias_na);
+                        let c = crate::analog::circuit::build(
+                            &stages,
+                            view.series,
+                            crate::analog::circuit::Tol {
+                                resistor_pct: view.r_tol_pct,
+                                capacitor_pct: view.c_tol_pct,
+                            },
+                        );
+                        save_row(ui, view, &c, &chain.describe());
+                        egui::CollapsingHeader::new("Schematic")
+                            .default_open(true)
+                            .show(ui, |ui| {
+                                draw_schematic(ui, &crate::analog::schematic::draw(&c))
+                            });
+                    })
+                });
+        });
+        response_plot(ui, &view.curves, height);
+    });
+}
+
+/// Capacitors, resistor series and tolerances; the gain budget.
+fn controls(ui: &mut egui::Ui, view: &mut PartsView) {
     ui.horizontal(|ui| {
         ui.label("my capacitors");
         ui.add(egui::TextEdit::singleline(&mut view.caps_text).desired_width(180.0))
@@ -169,125 +227,118 @@ pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: 
             ui.colored_label(ui.visuals().warn_fg_color, w);
         }
     });
-    view.update(chain, fs);
-    let stages = match &view.stages {
-        Ok(s) => s.clone(),
-        Err(e) => {
-            ui.colored_label(ui.visuals().error_fg_color, e);
-            return;
+}
+
+/// One row a stage: design, built, error, Q, spread and parts.
+fn table(ui: &mut egui::Ui, stages: &[Stage]) {
+    egui::Grid::new("parts-grid").striped(true).show(ui, |ui| {
+        for h in ["stage", "design", "built", "error", "Q", "5–95 %", "parts"] {
+            ui.label(egui::RichText::new(h).strong());
         }
-    };
-    let width = ui.available_width();
-    let height = ui.available_height().max(120.0);
-    ui.horizontal_top(|ui| {
-        ui.allocate_ui(egui::vec2(width * 0.62, height), |ui| {
-            egui::ScrollArea::vertical()
-                .id_salt("parts-table")
-                .auto_shrink([false, false])
-                .show(ui, |ui| ui.vertical(|ui| {
-                    egui::Grid::new("parts-grid").striped(true).show(ui, |ui| {
-                        for h in ["stage", "design", "built", "error", "Q", "5–95 %", "parts"] {
-                            ui.label(egui::RichText::new(h).strong());
-                        }
-                        ui.end_row();
-                        for s in &stages {
-                            ui.label(s.topology);
-                            ui.label(s.design_hz.map_or(String::new(), |f| format!("{f:.3} Hz")));
-                            ui.label(
-                                s.realised_hz
-                                    .map_or(String::new(), |f| format!("{f:.3} Hz")),
-                            );
-                            ui.label(format!("{:+.2} %", s.error_pct));
-                            ui.label(s.q.map_or(String::new(), |q| format!("{q:.3}")));
-                            ui.label(s.spread.map_or(String::new(), |p| {
-                                format!("{:.3}–{:.3}", p.p5_hz, p.p95_hz)
-                            }));
-                            let parts: Vec<String> = s
-                                .parts
-                                .iter()
-                                .map(|(k, v)| format!("{k} {}", engineering(*v, k)))
-                                .collect();
-                            ui.label(parts.join(", "));
-                            ui.end_row();
-                        }
-                    });
-                    ui.horizontal(|ui| {
-                        ui.label("op-amp input bias");
-                        ui.add(
-                            egui::DragValue::new(&mut view.bias_na)
-                                .range(0.001..=1000.0)
-                                .speed(0.1)
-                                .suffix(" nA"),
-                        )
-                        .on_hover_text("From your op-amp's datasheet: the offsets below scale with it.");
-                    });
-                    details(ui, &stages, view.bias_na);
-                    let c = crate::analog::circuit::build(
-                        &stages,
-                        view.series,
-                        crate::analog::circuit::Tol {
-                            resistor_pct: view.r_tol_pct,
-                            capacitor_pct: view.c_tol_pct,
-                        },
-                    );
-                    ui.horizontal(|ui| {
-                        ui.add(
-                            egui::TextEdit::singleline(&mut view.save_base)
-                                .desired_width(140.0),
-                        )
-                        .on_hover_text("Base path: the schematic goes to .svg, the SPICE netlist to .cir, the parts list to -bom.csv.");
-                        if ui.button("Save schematic, netlist, BOM").clicked() {
-                            view.saved = Some(save(&view.save_base, &c, &chain.describe()));
-                        }
-                        if let Some(m) = &view.saved {
-                            ui.label(egui::RichText::new(m).small());
-                        }
-                    });
-                    egui::CollapsingHeader::new("Schematic")
-                        .default_open(true)
-                        .show(ui, |ui| draw_schematic(ui, &crate::analog::schematic::draw(&c)));
-                }));
-        });
-        let c = &view.curves;
-        let pts = |i: usize| PlotPoints::new(c.iter().map(|r| [r[0], r[i]]).collect());
-        Plot::new("parts-response")
-            .height(height)
-            .legend(Legend::default().position(egui_plot::Corner::LeftBottom))
-            .x_axis_label("frequency (Hz)")
-            .y_axis_label("gain (dB)")
-            .x_grid_spacer(decade_spacer)
-            .x_axis_formatter(|m, _| {
-                if (m.value - m.value.round()).abs() > 1e-6 {
-                    String::new()
-                } else {
-                    format!("{}", 10f64.powf(m.value))
-                }
-            })
-            .include_y(-40.0)
-            .include_y(3.0)
-            .allow_drag(false)
-            .allow_zoom(false)
-            .allow_scroll(false)
-            .show(ui, |pu| {
-                pu.line(Line::new("digital chain", pts(1)).color(FILTERED_COLOUR));
-                pu.line(Line::new("built from parts", pts(2)).color(RAW_COLOUR));
-                pu.line(
-                    Line::new("tolerance 5–95 %", pts(3))
-                        .color(egui::Color32::from_gray(110))
-                        .style(LineStyle::Dashed { length: 4.0 }),
-                );
-                pu.line(
-                    Line::new("tolerance 5–95 %", pts(4))
-                        .color(egui::Color32::from_gray(110))
-                        .style(LineStyle::Dashed { length: 4.0 }),
-                );
-                let diff: Vec<[f64; 2]> = c.iter().map(|r| [r[0], r[2] - r[1]]).collect();
-                pu.line(
-                    Line::new("built − digital", PlotPoints::new(diff))
-                        .color(egui::Color32::from_rgb(214, 150, 60)),
-                );
-            });
+        ui.end_row();
+        for s in stages {
+            ui.label(s.topology);
+            ui.label(s.design_hz.map_or(String::new(), |f| format!("{f:.3} Hz")));
+            ui.label(
+                s.realised_hz
+                    .map_or(String::new(), |f| format!("{f:.3} Hz")),
+            );
+            ui.label(format!("{:+.2} %", s.error_pct));
+            ui.label(s.q.map_or(String::new(), |q| format!("{q:.3}")));
+            ui.label(
+                s.spread
+                    .map_or(String::new(), |p| format!("{:.3}–{:.3}", p.p5_hz, p.p95_hz)),
+            );
+            let parts: Vec<String> = s
+                .parts
+                .iter()
+                .map(|(k, v)| format!("{k} {}", engineering(*v, k)))
+                .collect();
+            ui.label(parts.join(", "));
+            ui.end_row();
+        }
     });
+}
+
+/// Where the schematic, netlist and BOM go, written off the UI thread.
+fn save_row(
+    ui: &mut egui::Ui,
+    view: &mut PartsView,
+    c: &crate::analog::circuit::Circuit,
+    title: &str,
+) {
+    if let Some(m) = view.saving.as_ref().and_then(|rx| rx.try_recv().ok()) {
+        view.saved = Some(m);
+        view.saving = None;
+    }
+    ui.horizontal(|ui| {
+        ui.add(
+            egui::TextEdit::singleline(&mut view.save_base)
+                .desired_width(140.0),
+        )
+        .on_hover_text("Base path: the schematic goes to .svg, the SPICE netlist to .cir, the parts list to -bom.csv.");
+        if ui.button("Save schematic, netlist, BOM").clicked() {
+            let (tx, rx) = crossbeam_channel::bounded(1);
+            let (base, c, title) = (view.save_base.clone(), c.clone(), title.to_string());
+            let spawned = std::thread::Builder::new()
+                .name("leadline-parts-files".into())
+                .spawn(move || {
+                    let _ = tx.send(save(&base, &c, &title));
+                });
+            match spawned {
+                Ok(_) => {
+                    view.saving = Some(rx);
+                    view.saved = Some("writing…".into());
+                }
+                Err(e) => view.saved = Some(format!("cannot start writing: {e}")),
+            }
+        }
+        if let Some(m) = &view.saved {
+            ui.label(egui::RichText::new(m).small());
+        }
+    });
+}
+
+/// The digital chain, the chain built from parts, its tolerance band and the difference.
+fn response_plot(ui: &mut egui::Ui, c: &[[f64; 5]], height: f32) {
+    let pts = |i: usize| PlotPoints::new(c.iter().map(|r| [r[0], r[i]]).collect());
+    Plot::new("parts-response")
+        .height(height)
+        .legend(Legend::default().position(egui_plot::Corner::LeftBottom))
+        .x_axis_label("frequency (Hz)")
+        .y_axis_label("gain (dB)")
+        .x_grid_spacer(decade_spacer)
+        .x_axis_formatter(|m, _| {
+            if (m.value - m.value.round()).abs() > 1e-6 {
+                String::new()
+            } else {
+                format!("{}", 10f64.powf(m.value))
+            }
+        })
+        .include_y(-40.0)
+        .include_y(3.0)
+        .allow_drag(false)
+        .allow_zoom(false)
+        .allow_scroll(false)
+        .show(ui, |pu| {
+            pu.line(Line::new("digital chain", pts(1)).color(FILTERED_COLOUR));
+            pu.line(Line::new("built from parts", pts(2)).color(RAW_COLOUR));
+            pu.line(
+                Line::new("tolerance 5–95 %", pts(3))
+                    .color(egui::Color32::from_gray(110))
+                    .style(LineStyle::Dashed { length: 4.0 }),
+            );
+            pu.line(
+                Line::new("tolerance 5–95 %", pts(4))
+                    .color(egui::Color32::from_gray(110))
+                    .style(LineStyle::Dashed { length: 4.0 }),
+            );
+            let diff: Vec<[f64; 2]> = c.iter().map(|r| [r[0], r[2] - r[1]]).collect();
+            pu.line(
+                Line::new("built − digital", PlotPoints::new(diff))
+                    .color(egui::Color32::from_rgb(214, 150, 60)),
+            );
+        });
 }
 
 /// Twin-T tolerance figures, advice and each stage's op-amp needs (offsets at `bias_na`).

@@ -24,40 +24,8 @@ pub fn show(ui: &mut egui::Ui, current: &SynthSettings) -> Option<Action> {
     })
 }
 
-/// The controls; what changed.
-fn edit(ui: &mut egui::Ui, s: &mut SynthSettings) -> Changed {
-    let before = s.clone();
-    ui.add(
-        egui::Slider::new(&mut s.hr_bpm, 30.0..=220.0)
-            .text("Heart rate")
-            .suffix(" bpm")
-            .max_decimals(0),
-    )
-    .on_hover_text("Mean heart rate of the simulated person.");
-    ui.add(
-        egui::Slider::new(&mut s.r_mv, 0.1..=4.0)
-            .text("R amplitude")
-            .suffix(" mV")
-            .max_decimals(2),
-    )
-    .on_hover_text("Height of the R wave on channel 1, at the electrodes.");
-    ui.separator();
-    ui.horizontal(|ui| {
-        ui.label("Mains");
-        ui.selectable_value(&mut s.mains_hz, 50.0, "50 Hz");
-        ui.selectable_value(&mut s.mains_hz, 60.0, "60 Hz");
-    });
-    ui.add(
-        egui::Slider::new(&mut s.mains_uv, 0.0..=1000.0)
-            .logarithmic(true)
-            .text("Mains pickup")
-            .suffix(" µV rms")
-            .max_decimals(0),
-    )
-    .on_hover_text("RMS of the mains fundamental coupled into the leads (harmonics follow).");
-    ui.checkbox(&mut s.charger, "Laptop on its charger")
-        .on_hover_text("The reading laptop's switch-mode charger floats its ground: mains coupling rises about eightfold with stronger odd harmonics.");
-    ui.separator();
+/// Wander, drift, noise and the electrodes' faults.
+fn electrodes(ui: &mut egui::Ui, s: &mut SynthSettings) {
     ui.add(
         egui::Slider::new(&mut s.wander_uv, 0.0..=1000.0)
             .text("Breathing wander")
@@ -92,20 +60,10 @@ fn edit(ui: &mut egui::Ui, s: &mut SynthSettings) -> Changed {
         .on_hover_text("Left and right electrodes exchanged: the ECG comes out upside down.");
     ui.checkbox(&mut s.lead_off, "Electrode off")
         .on_hover_text("One electrode has come off: the input floats, picks up mains and drives the amplifier to its rails.");
-    egui::ComboBox::from_label("Rhythm")
-        .selected_text(s.rhythm.name())
-        .show_ui(ui, |ui| {
-            for r in crate::source::rhythm::Rhythm::ALL {
-                let label = match r.expected_bpm() {
-                    Some(b) => format!("{} (reads {b:.0} bpm)", r.name()),
-                    None => format!("{} (the set rate)", r.name()),
-                };
-                ui.selectable_value(&mut s.rhythm, r, label);
-            }
-        })
-        .response
-        .on_hover_text("The monitor standards' irregular-rhythm cases, made by the simulator: the readout should show the rate in brackets (±10 % or ±5 bpm).");
-    ui.separator();
+}
+
+/// Muscle under the electrodes: force and fatigue.
+fn muscle(ui: &mut egui::Ui, s: &mut SynthSettings) {
     let mut muscle = s.muscle.is_some();
     ui.checkbox(&mut muscle, "Muscle under the electrodes (EMG)")
         .on_hover_text("Surface-EMG-like contractions (2 s on, 3 s off) with a little of the heart's signal: switch the monitor to EMG to analyse them. Use 1 kHz or more.");
@@ -130,6 +88,58 @@ fn edit(ui: &mut egui::Ui, s: &mut SynthSettings) -> Changed {
             "Each contraction's spectrum lower than the last: the median frequency falls.",
         );
     }
+}
+
+/// The controls; what changed.
+fn edit(ui: &mut egui::Ui, s: &mut SynthSettings) -> Changed {
+    let before = s.clone();
+    ui.add(
+        egui::Slider::new(&mut s.hr_bpm, 30.0..=220.0)
+            .text("Heart rate")
+            .suffix(" bpm")
+            .max_decimals(0),
+    )
+    .on_hover_text("Mean heart rate of the simulated person.");
+    ui.add(
+        egui::Slider::new(&mut s.r_mv, 0.1..=4.0)
+            .text("R amplitude")
+            .suffix(" mV")
+            .max_decimals(2),
+    )
+    .on_hover_text("Height of the R wave on channel 1, at the electrodes.");
+    ui.separator();
+    ui.horizontal(|ui| {
+        ui.label("Mains");
+        ui.selectable_value(&mut s.mains_hz, 50.0, "50 Hz");
+        ui.selectable_value(&mut s.mains_hz, 60.0, "60 Hz");
+    });
+    ui.add(
+        egui::Slider::new(&mut s.mains_uv, 0.0..=1000.0)
+            .logarithmic(true)
+            .text("Mains pickup")
+            .suffix(" µV rms")
+            .max_decimals(0),
+    )
+    .on_hover_text("RMS of the mains fundamental coupled into the leads (harmonics follow).");
+    ui.checkbox(&mut s.charger, "Laptop on its charger")
+        .on_hover_text("The reading laptop's switch-mode charger floats its ground: mains coupling rises about eightfold with stronger odd harmonics.");
+    ui.separator();
+    electrodes(ui, s);
+    egui::ComboBox::from_label("Rhythm")
+        .selected_text(s.rhythm.name())
+        .show_ui(ui, |ui| {
+            for r in crate::source::rhythm::Rhythm::ALL {
+                let label = match r.expected_bpm() {
+                    Some(b) => format!("{} (reads {b:.0} bpm)", r.name()),
+                    None => format!("{} (the set rate)", r.name()),
+                };
+                ui.selectable_value(&mut s.rhythm, r, label);
+            }
+        })
+        .response
+        .on_hover_text("The monitor standards' irregular-rhythm cases, made by the simulator: the readout should show the rate in brackets (±10 % or ±5 bpm).");
+    ui.separator();
+    muscle(ui, s);
     ui.separator();
     let mut restart = false;
     egui::ComboBox::from_label("Sample rate")

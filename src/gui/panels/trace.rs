@@ -106,27 +106,10 @@ pub fn show(
     let height =
         ((ui.available_height() - if readout.is_some() { 34.0 } else { 12.0 }) / 2.0).max(80.0);
     if let Some(r) = &readout {
-        ui.horizontal(|ui| {
-            ui.label(egui::RichText::new(r).monospace().strong())
-                .on_hover_text("Between cursor 1 and cursor 2: time, voltage, and the rate a period of Δt means (an RR interval as beats per minute).");
-            if ui.small_button("Clear cursors").on_hover_text("Remove both cursors (key C).").clicked() {
-                state.clear();
-            }
-        });
+        readout_row(ui, r, state);
     }
     let link = egui::Id::unique("trace-time-axis");
-    let beat_times: Vec<f64> = snap
-        .beats
-        .as_ref()
-        .filter(|b| b.channel == ch)
-        .map(|b| {
-            b.beats
-                .iter()
-                .map(|&s| s as f64 / snap.fs_hz)
-                .filter(|&t| t >= x_min)
-                .collect()
-        })
-        .unwrap_or_default();
+    let beat_times = beat_times(snap, ch, x_min);
     let place = |t: f64| {
         if sweep {
             sweep_x(t, snap.t_end_s, window).0
@@ -151,58 +134,42 @@ pub fn show(
             settings.fixed_range_uv,
             factor,
         );
-        let resp = Plot::new(id)
-            .height(height)
-            .legend(Legend::default())
-            .x_axis_label(if sweep {
-                "time in the sweep (s)"
-            } else {
-                "time (s)"
-            })
-            .y_axis_label(unit)
-            .link_axis(link, [true, false])
-            .link_cursor(link, [true, false])
-            .allow_drag(true)
-            .allow_zoom(true)
-            .allow_scroll(true)
-            .allow_boxed_zoom(false)
-            .allow_double_click_reset(false)
-            .show(ui, |pu| {
-                if state.follow {
-                    if sweep {
-                        pu.set_plot_bounds_x(0.0..=window);
-                    } else {
-                        pu.set_plot_bounds_x(x_min..=x_max);
-                    }
-                    match fixed {
-                        Some((lo, hi)) => pu.set_plot_bounds_y(lo..=hi),
-                        None => pu.set_auto_bounds([false, true]),
-                    }
-                }
-                if id == "filtered-trace" {
-                    for &t in &beat_times {
-                        pu.vline(VLine::new("", place(t)).color(BEAT_COLOUR).width(1.0));
-                    }
-                }
-                for (t, text) in markers.iter().filter(|(t, _)| *t >= x_min) {
-                    pu.vline(
-                        VLine::new(text.as_str(), place(*t))
-                            .color(MARKER_COLOUR)
-                            .width(1.5),
-                    );
-                }
+        let resp = trace_plot(id, height, sweep, unit, link).show(ui, |pu| {
+            if state.follow {
                 if sweep {
-                    sweep_lines(pu, pts, &name, colour, snap.t_end_s, window);
+                    pu.set_plot_bounds_x(0.0..=window);
                 } else {
-                    pu.line(
-                        Line::new(name, PlotPoints::new(pts))
-                            .color(colour)
-                            .width(1.5),
-                    );
+                    pu.set_plot_bounds_x(x_min..=x_max);
                 }
-                cursor_lines(pu, &state.cursors, factor);
-                pu.pointer_coordinate()
-            });
+                match fixed {
+                    Some((lo, hi)) => pu.set_plot_bounds_y(lo..=hi),
+                    None => pu.set_auto_bounds([false, true]),
+                }
+            }
+            if id == "filtered-trace" {
+                for &t in &beat_times {
+                    pu.vline(VLine::new("", place(t)).color(BEAT_COLOUR).width(1.0));
+                }
+            }
+            for (t, text) in markers.iter().filter(|(t, _)| *t >= x_min) {
+                pu.vline(
+                    VLine::new(text.as_str(), place(*t))
+                        .color(MARKER_COLOUR)
+                        .width(1.5),
+                );
+            }
+            if sweep {
+                sweep_lines(pu, pts, &name, colour, snap.t_end_s, window);
+            } else {
+                pu.line(
+                    Line::new(name, PlotPoints::new(pts))
+                        .color(colour)
+                        .width(1.5),
+                );
+            }
+            cursor_lines(pu, &state.cursors, factor);
+            pu.pointer_coordinate()
+        });
         let r = &resp.response;
         if r.clicked()
             && let Some(p) = resp.inner
@@ -217,6 +184,52 @@ pub fn show(
         }
     }
     events
+}
+
+/// The cursors' readout and the button that clears them.
+fn readout_row(ui: &mut egui::Ui, r: &str, state: &mut TraceState) {
+    ui.horizontal(|ui| {
+        ui.label(egui::RichText::new(r).monospace().strong())
+            .on_hover_text("Between cursor 1 and cursor 2: time, voltage, and the rate a period of Δt means (an RR interval as beats per minute).");
+        if ui.small_button("Clear cursors").on_hover_text("Remove both cursors (key C).").clicked() {
+            state.clear();
+        }
+    });
+}
+
+/// The times (s) of the beats detected on channel `ch` from `x_min` on.
+fn beat_times(snap: &crate::msg::Snapshot, ch: usize, x_min: f64) -> Vec<f64> {
+    snap.beats
+        .as_ref()
+        .filter(|b| b.channel == ch)
+        .map(|b| {
+            b.beats
+                .iter()
+                .map(|&s| s as f64 / snap.fs_hz)
+                .filter(|&t| t >= x_min)
+                .collect()
+        })
+        .unwrap_or_default()
+}
+
+/// One trace's plot, linked in time with the other's.
+fn trace_plot(id: &str, height: f32, sweep: bool, unit: &str, link: egui::Id) -> Plot<'static> {
+    Plot::new(id)
+        .height(height)
+        .legend(Legend::default())
+        .x_axis_label(if sweep {
+            "time in the sweep (s)"
+        } else {
+            "time (s)"
+        })
+        .y_axis_label(unit)
+        .link_axis(link, [true, false])
+        .link_cursor(link, [true, false])
+        .allow_drag(true)
+        .allow_zoom(true)
+        .allow_scroll(true)
+        .allow_boxed_zoom(false)
+        .allow_double_click_reset(false)
 }
 
 /// The fixed vertical range (± `range_uv` around the trace's middle, around 0 after the
