@@ -195,7 +195,7 @@ impl LeadlineApp {
 
     /// Switches between heart (ECG) and muscle (EMG) signals: the chain preset, the view and
     /// the EMG analysis in the DSP thread.
-    pub fn set_emg_mode(&mut self, on: bool, fs: f64) {
+    fn set_emg_mode(&mut self, on: bool, fs: f64) {
         self.settings.emg_mode = on;
         if on {
             if self.settings.ecg_chain.is_none() {
@@ -325,8 +325,9 @@ impl LeadlineApp {
             return;
         }
         let pressed = |k: egui::Key| ctx.input(|i| i.key_pressed(k));
+        let mut out = Vec::new();
         if pressed(egui::Key::Space) {
-            self.set_paused(!self.paused);
+            out.push(Action::Pause(!self.paused));
         }
         if pressed(egui::Key::C) {
             self.trace.clear();
@@ -338,28 +339,28 @@ impl LeadlineApp {
                     .any(|e| matches!(e, egui::Event::Text(t) if t == "?"))
             })
         {
-            self.help_open = !self.help_open;
+            out.push(Action::Help(!self.help_open));
         }
         if pressed(egui::Key::R) {
             let recording = self
                 .pipeline
                 .recorder_status()
                 .is_some_and(|s| s.active.is_some());
-            let a = if recording {
+            out.push(Action::Record(if recording {
                 panels::record::RecordAction::Stop
             } else {
                 panels::record::RecordAction::Start(
                     self.record.request(&self.settings.chain.describe()),
                 )
-            };
-            self.record_action(a);
+            }));
         }
         if pressed(egui::Key::M) {
-            let text = self.record.next_marker();
-            self.record_action(panels::record::RecordAction::Marker(text));
+            out.push(Action::Record(panels::record::RecordAction::Marker(
+                self.record.next_marker(),
+            )));
         }
         if pressed(egui::Key::H) {
-            self.spectrum.before = self.view.snapshot.as_ref().and_then(|s| s.spectrum.clone());
+            out.push(Action::HoldSpectrum(true));
         }
         for (k, v) in [
             (egui::Key::Num1, LowerView::Beats),
@@ -369,13 +370,14 @@ impl LeadlineApp {
             (egui::Key::Num5, LowerView::Hidden),
         ] {
             if pressed(k) {
-                self.settings.lower = v;
+                out.push(Action::Lower(v));
             }
         }
+        self.actions.extend(out);
     }
 
     /// Freezes or resumes the display; resuming also goes back to following the live data.
-    pub fn set_paused(&mut self, paused: bool) {
+    fn set_paused(&mut self, paused: bool) {
         self.paused = paused;
         if !paused {
             self.trace.follow = true;
@@ -399,7 +401,7 @@ impl LeadlineApp {
     }
 
     /// Carries out a recording request.
-    pub fn record_action(&mut self, a: panels::record::RecordAction) {
+    fn record_action(&mut self, a: panels::record::RecordAction) {
         use crate::recorder::RecorderCommand;
         match a {
             panels::record::RecordAction::Start(req) => {
@@ -430,7 +432,7 @@ impl LeadlineApp {
     ///
     /// # Errors
     /// A message when the setup's source cannot be used.
-    pub fn apply_setup(&mut self, setup: &crate::setup::Setup) -> Result<(), String> {
+    fn apply_setup(&mut self, setup: &crate::setup::Setup) -> Result<(), String> {
         let s = Settings::from_setup(setup)?;
         self.settings = s;
         self.file_path = settings_file_path(&self.settings);
@@ -686,19 +688,17 @@ impl LeadlineApp {
                     )
                     .clicked()
                 {
-                    self.set_paused(!self.paused);
+                    self.actions.push(Action::Pause(!self.paused));
                 }
                 let rec_status = self.pipeline.recorder_status();
                 let chain_text = self.settings.chain.describe();
-                if let Some(a) = panels::record::top_bar(ui, &mut self.record, rec_status.as_ref(), &chain_text) {
-                    self.record_action(a);
-                }
+                self.actions.extend(panels::record::top_bar(ui, &mut self.record, rec_status.as_ref(), &chain_text));
                 if ui
                     .selectable_label(self.help_open, "Help")
                     .on_hover_text("Keyboard shortcuts and how to measure (F1 or ?).")
                     .clicked()
                 {
-                    self.help_open = !self.help_open;
+                    self.actions.push(Action::Help(!self.help_open));
                 }
                 let dark = self.settings.theme == crate::setup::Theme::Dark;
                 if ui
@@ -706,11 +706,11 @@ impl LeadlineApp {
                     .on_hover_text("Switch between dark and light colours (light is easier to read on a bright bench or a projector).")
                     .clicked()
                 {
-                    self.settings.theme = if dark {
+                    self.actions.push(Action::Theme(if dark {
                         crate::setup::Theme::Light
                     } else {
                         crate::setup::Theme::Dark
-                    };
+                    }));
                 }
                 ui.separator();
                 let w = ui
@@ -722,7 +722,7 @@ impl LeadlineApp {
                     )
                     .on_hover_text("How many seconds of signal the traces show.");
                 if w.changed() {
-                    self.pending.push(Control::Window(self.settings.window_s));
+                    self.actions.push(Action::Control(Control::Window(self.settings.window_s)));
                 }
                 ui.separator();
                 ui.selectable_value(&mut self.settings.unit, TraceUnit::Millivolts, "mV")
@@ -753,7 +753,7 @@ impl LeadlineApp {
                             "Channel shown, analysed for beats and used for the spectrum.",
                         );
                     if self.settings.channel != before {
-                        self.pending.push(Control::Channel(self.settings.channel));
+                        self.actions.push(Action::Control(Control::Channel(self.settings.channel)));
                     }
                 }
                 let beats = self.view.snapshot.as_ref().and_then(|s| s.beats.as_ref());
@@ -1024,26 +1024,29 @@ impl LeadlineApp {
         };
         let trace_h = total - lower_h - 30.0;
         ui.allocate_ui(egui::vec2(ui.available_width(), trace_h), |ui| {
-            let ev = panels::trace::show(
+            let left_live = panels::trace::show(
                 ui,
                 &self.view,
                 &self.settings,
                 &self.markers,
                 &mut self.trace,
             );
-            if ev.left_live && !self.paused {
-                self.paused = true;
-                self.pending.push(Control::DisplayPaused(true));
-            }
+            self.actions.extend(left_live.filter(|_| !self.paused));
         });
+        self.view_tabs(ui);
+        self.lower_strip(ui, fs);
+    }
+
+    /// Heart or muscle signals, and the choice of the strip under the traces.
+    fn view_tabs(&mut self, ui: &mut egui::Ui) {
         ui.horizontal(|ui| {
-                let was = self.settings.emg_mode;
-                ui.selectable_value(&mut self.settings.emg_mode, false, "ECG")
+                let mut emg = self.settings.emg_mode;
+                ui.selectable_value(&mut emg, false, "ECG")
                     .on_hover_text("Heart signals: the ECG chain, beats and heart rate.");
-                ui.selectable_value(&mut self.settings.emg_mode, true, "EMG")
+                ui.selectable_value(&mut emg, true, "EMG")
                     .on_hover_text("Muscle signals: a 20–450 Hz band-pass with the mains notch, the envelope, contractions and the median-frequency trend. Use 1 kHz or more.");
-                if was != self.settings.emg_mode {
-                    self.set_emg_mode(self.settings.emg_mode, fs);
+                if emg != self.settings.emg_mode {
+                    self.actions.push(Action::EmgMode(emg));
                 }
                 ui.separator();
                 ui.selectable_value(&mut self.settings.lower, LowerView::Beats, "Beats")
@@ -1065,6 +1068,10 @@ impl LeadlineApp {
                 ui.selectable_value(&mut self.settings.lower, LowerView::Hidden, "Traces only")
                     .on_hover_text("Hide the lower strip: the traces take the whole height.");
             });
+    }
+
+    /// The strip under the traces, as chosen.
+    fn lower_strip(&mut self, ui: &mut egui::Ui, fs: f64) {
         match self.settings.lower {
             LowerView::Response => {
                 self.parts.update(&self.settings.chain, fs);
@@ -1087,7 +1094,7 @@ impl LeadlineApp {
                 if let Some(c) =
                     panels::spectrum::show(ui, frame, sections.as_deref(), &mut self.spectrum)
                 {
-                    self.pending.push(c);
+                    self.actions.push(c);
                 }
             }
             LowerView::Beats => {
@@ -1111,7 +1118,7 @@ impl LeadlineApp {
                     n,
                     fs,
                 ) {
-                    self.pending.push(c);
+                    self.actions.push(c);
                 }
             }
             LowerView::Muscle => {
@@ -1123,9 +1130,8 @@ impl LeadlineApp {
                             .get(self.settings.channel.min(s.traces.len().saturating_sub(1)))
                     })
                     .map(|t| &t.filtered);
-                if let Some(c) = panels::muscle::show(ui, v, trace, &mut self.emg, fs) {
-                    self.pending.push(c);
-                }
+                self.actions
+                    .extend(panels::muscle::show(ui, v, trace, &mut self.emg, fs));
             }
             LowerView::Hidden => {}
         }
@@ -1190,7 +1196,12 @@ impl LeadlineApp {
             super::state::acknowledge_caution();
         }
 
-        for a in std::mem::take(&mut self.actions) {
+        let actions = std::mem::take(&mut self.actions);
+        if !actions.is_empty() {
+            // What the actions change is drawn in the next frame.
+            ui.ctx().request_repaint();
+        }
+        for a in actions {
             self.apply(a);
         }
         for c in self.pending.drain(..) {

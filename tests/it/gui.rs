@@ -355,7 +355,8 @@ fn the_help_panel_lists_the_shortcuts() {
     h.run_steps(2);
     assert!(!h.state().help_open());
     h.get_by_role_and_label(Role::Button, "Help").click();
-    h.run_steps(2);
+    // The click is applied after its frame is drawn; a new window takes a sizing frame.
+    h.run_steps(3);
     assert!(h.state().help_open());
     assert!(
         h.query_by_label_contains("start / stop recording")

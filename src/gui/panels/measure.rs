@@ -151,6 +151,18 @@ pub fn show(
     parts: Option<&[Stage]>,
     channels: usize,
     fs: f64,
+) -> Option<crate::gui::action::Action> {
+    draw(ui, v, measured, design, parts, channels, fs).map(crate::gui::action::Action::Control)
+}
+
+fn draw(
+    ui: &mut egui::Ui,
+    v: &mut MeasureView,
+    measured: Option<&Arc<Measured>>,
+    design: Option<&[Section]>,
+    parts: Option<&[Stage]>,
+    channels: usize,
+    fs: f64,
 ) -> Option<Control> {
     let out = controls(ui, v, channels);
     let Some(m) = measured else {

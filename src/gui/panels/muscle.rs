@@ -232,6 +232,16 @@ pub fn show(
     trace: Option<&Columns>,
     settings: &mut EmgSettings,
     fs: f64,
+) -> Option<crate::gui::action::Action> {
+    draw(ui, view, trace, settings, fs).map(crate::gui::action::Action::Control)
+}
+
+fn draw(
+    ui: &mut egui::Ui,
+    view: Option<&EmgView>,
+    trace: Option<&Columns>,
+    settings: &mut EmgSettings,
+    fs: f64,
 ) -> Option<Control> {
     let control = controls(ui, settings, view);
     if fs > 0.0 && fs < 1000.0 {

@@ -78,6 +78,15 @@ pub fn top_bar(
     panel: &mut RecordPanel,
     status: Option<&RecorderStatus>,
     chain_text: &str,
+) -> Option<crate::gui::action::Action> {
+    draw(ui, panel, status, chain_text).map(crate::gui::action::Action::Record)
+}
+
+fn draw(
+    ui: &mut egui::Ui,
+    panel: &mut RecordPanel,
+    status: Option<&RecorderStatus>,
+    chain_text: &str,
 ) -> Option<RecordAction> {
     let mut action = None;
     let recording = status.is_some_and(|s| s.active.is_some());

@@ -123,6 +123,15 @@ pub fn show(
     frame: Option<&Arc<SpectrumFrame>>,
     sections: Option<&[Section]>,
     view: &mut SpectrumView,
+) -> Option<crate::gui::action::Action> {
+    draw(ui, frame, sections, view).map(crate::gui::action::Action::Control)
+}
+
+fn draw(
+    ui: &mut egui::Ui,
+    frame: Option<&Arc<SpectrumFrame>>,
+    sections: Option<&[Section]>,
+    view: &mut SpectrumView,
 ) -> Option<Control> {
     let control = controls(ui, frame, view);
     let Some(frame) = frame else {

@@ -87,6 +87,18 @@ pub fn show(
     settings: &Settings,
     markers: &[(f64, String)],
     state: &mut TraceState,
+) -> Option<crate::gui::action::Action> {
+    draw(ui, view, settings, markers, state)
+        .left_live
+        .then_some(crate::gui::action::Action::Pause(true))
+}
+
+fn draw(
+    ui: &mut egui::Ui,
+    view: &View,
+    settings: &Settings,
+    markers: &[(f64, String)],
+    state: &mut TraceState,
 ) -> TraceEvents {
     let mut events = TraceEvents::default();
     let Some(snap) = &view.snapshot else {
