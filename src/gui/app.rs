@@ -13,6 +13,7 @@ use super::state::{Settings, TraceUnit, View};
 use crate::msg::Control;
 use crate::pipeline::{Pipeline, PipelineConfig, PipelineError};
 use crate::process::{MAX_WINDOW_S, MIN_WINDOW_S, Notify};
+use crate::setup::SourceKind;
 use crate::source::{Pacing, SourceSpec};
 
 /// Start-up options that are not settings.
@@ -93,18 +94,18 @@ pub use super::state::LowerView;
 fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, PipelineError> {
     Pipeline::start(
         PipelineConfig {
-            source: match (&settings.serial, &settings.net, &settings.file) {
-                (Some(spec), _, _) => SourceSpec::Serial(spec.clone()),
-                (None, Some(n), _) => n.clone(),
-                (None, None, Some(f)) => SourceSpec::File(f.clone()),
-                (None, None, None) => SourceSpec::Synth(settings.synth.clone()),
-            },
-            chain: settings.chain,
-            window_s: settings.window_s,
-            display_hz: settings.display_hz,
+            source: settings
+                .setup
+                .source_spec()
+                .map_err(PipelineError::Source)?,
+            chain: settings.setup.chain,
+            window_s: settings.setup.view.window_s,
+            display_hz: settings.setup.view.display_hz,
             // The board's front end applies to a board; the simulator models its own.
-            front_end: (settings.serial.is_some() || settings.net.is_some())
-                .then(|| settings.front_ends.clone()),
+            front_end: settings
+                .setup
+                .from_board()
+                .then(|| settings.setup.front_ends()),
             pacing: Pacing::RealTime,
             limit_s: None,
             record: false,
@@ -115,10 +116,12 @@ fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, Pipel
 }
 
 fn settings_file_path(s: &Settings) -> String {
-    s.file
-        .as_ref()
-        .map(|f| f.path.display().to_string())
-        .unwrap_or_default()
+    let src = &s.setup.source;
+    if src.kind == crate::setup::SourceKind::File {
+        src.file.clone()
+    } else {
+        String::new()
+    }
 }
 
 impl LeadlineApp {
@@ -143,7 +146,7 @@ impl LeadlineApp {
         let file_path = settings_file_path(&settings);
         let mut emg = crate::analysis::emg::EmgSettings::default();
         if settings.emg_mode {
-            let notch = settings.chain.notch;
+            let notch = settings.setup.chain.notch;
             emg.notch_hz = notch.enabled.then_some(notch.mains_hz);
             pipeline.control(Control::Emg(Some(emg)));
         }
@@ -199,11 +202,11 @@ impl LeadlineApp {
         self.settings.emg_mode = on;
         if on {
             if self.settings.ecg_chain.is_none() {
-                self.settings.ecg_chain = Some(self.settings.chain);
+                self.settings.ecg_chain = Some(self.settings.setup.chain);
             }
-            self.settings.chain = super::state::emg_chain(&self.settings.chain, fs);
-            self.settings.lower = LowerView::Muscle;
-            let notch = self.settings.chain.notch;
+            self.settings.setup.chain = super::state::emg_chain(&self.settings.setup.chain, fs);
+            self.settings.setup.view.lower = LowerView::Muscle;
+            let notch = self.settings.setup.chain.notch;
             self.pending
                 .push(Control::Emg(Some(crate::analysis::emg::EmgSettings {
                     notch_hz: notch.enabled.then_some(notch.mains_hz),
@@ -211,14 +214,14 @@ impl LeadlineApp {
                 })));
         } else {
             if let Some(c) = self.settings.ecg_chain.take() {
-                self.settings.chain = c;
+                self.settings.setup.chain = c;
             }
-            if self.settings.lower == LowerView::Muscle {
-                self.settings.lower = LowerView::Beats;
+            if self.settings.setup.view.lower == LowerView::Muscle {
+                self.settings.setup.view.lower = LowerView::Beats;
             }
             self.pending.push(Control::Emg(None));
         }
-        self.pending.push(Control::Chain(self.settings.chain));
+        self.pending.push(Control::Chain(self.settings.setup.chain));
     }
 
     /// Current settings (tests read them).
@@ -245,9 +248,9 @@ impl LeadlineApp {
                 b.on_snapshot(s.latency_ms);
             }
             // An automatic notch is moved by the DSP thread: show where it is now.
-            if self.settings.chain.notch.auto && s.chain.notch.auto {
-                self.settings.chain.notch.mains_hz = s.chain.notch.mains_hz;
-                self.settings.chain.notch.harmonics = s.chain.notch.harmonics;
+            if self.settings.setup.chain.notch.auto && s.chain.notch.auto {
+                self.settings.setup.chain.notch.mains_hz = s.chain.notch.mains_hz;
+                self.settings.setup.chain.notch.harmonics = s.chain.notch.harmonics;
             }
             self.view.snapshot = Some(s);
             self.view.snapshots_seen += 1;
@@ -350,7 +353,7 @@ impl LeadlineApp {
                 panels::record::RecordAction::Stop
             } else {
                 panels::record::RecordAction::Start(
-                    self.record.request(&self.settings.chain.describe()),
+                    self.record.request(&self.settings.setup.chain.describe()),
                 )
             }));
         }
@@ -470,11 +473,11 @@ impl LeadlineApp {
             } => {
                 let info = crate::export::c_header::HeaderInfo {
                     fs_hz: fs,
-                    chain: self.settings.chain.describe(),
+                    chain: self.settings.setup.chain.describe(),
                     prefix,
                     format,
                 };
-                match self.settings.chain.design(fs) {
+                match self.settings.setup.chain.design(fs) {
                     Ok(sections) => {
                         self.spawn_job(move || {
                             crate::export::c_header::header(&sections, &info)
@@ -569,19 +572,21 @@ impl LeadlineApp {
         let snap = self.view.snapshot.as_ref().ok_or("no samples yet")?;
         let ch = self
             .settings
+            .setup
+            .view
             .channel
             .min(snap.traces.len().saturating_sub(1));
         let t = snap.traces.get(ch).ok_or("no samples yet")?.clone();
         // µV per display unit.
         let (k, unit) = (
-            1.0 / self.settings.unit.factor(),
-            self.settings.unit.symbol(),
+            1.0 / self.settings.setup.view.unit.factor(),
+            self.settings.setup.view.unit.symbol(),
         );
         let title = format!(
             "ch{} at {} Hz — chain {}",
             ch + 1,
             snap.fs_hz,
-            self.settings.chain.describe()
+            self.settings.setup.chain.describe()
         );
         let markers = self.markers.clone();
         Ok(move || {
@@ -625,7 +630,7 @@ impl LeadlineApp {
         let title = format!(
             "ch{} after the chain {}, Welch over {:.0} s at {} Hz",
             f.channel + 1,
-            self.settings.chain.describe(),
+            self.settings.setup.chain.describe(),
             f.seconds,
             f.fs_hz
         );
@@ -656,16 +661,16 @@ impl LeadlineApp {
     }
 
     fn apply_theme(&mut self, ctx: &egui::Context) {
-        let smooth = self.settings.smooth_lines;
+        let smooth = self.settings.setup.view.smooth_lines;
         if ctx.tessellation_options(|o| o.feathering) != smooth {
             ctx.tessellation_options_mut(|o| o.feathering = smooth);
         }
-        if self.theme_applied != Some(self.settings.theme) {
-            ctx.set_visuals(match self.settings.theme {
+        if self.theme_applied != Some(self.settings.setup.view.theme) {
+            ctx.set_visuals(match self.settings.setup.view.theme {
                 crate::setup::Theme::Dark => egui::Visuals::dark(),
                 crate::setup::Theme::Light => egui::Visuals::light(),
             });
-            self.theme_applied = Some(self.settings.theme);
+            self.theme_applied = Some(self.settings.setup.view.theme);
         }
     }
 
@@ -691,7 +696,7 @@ impl LeadlineApp {
                     self.actions.push(Action::Pause(!self.paused));
                 }
                 let rec_status = self.pipeline.recorder_status();
-                let chain_text = self.settings.chain.describe();
+                let chain_text = self.settings.setup.chain.describe();
                 self.actions.extend(panels::record::top_bar(ui, &mut self.record, rec_status.as_ref(), &chain_text));
                 if ui
                     .selectable_label(self.help_open, "Help")
@@ -700,7 +705,7 @@ impl LeadlineApp {
                 {
                     self.actions.push(Action::Help(!self.help_open));
                 }
-                let dark = self.settings.theme == crate::setup::Theme::Dark;
+                let dark = self.settings.setup.view.theme == crate::setup::Theme::Dark;
                 if ui
                     .button(if dark { "Light" } else { "Dark" })
                     .on_hover_text("Switch between dark and light colours (light is easier to read on a bright bench or a projector).")
@@ -715,34 +720,34 @@ impl LeadlineApp {
                 ui.separator();
                 let w = ui
                     .add(
-                        egui::Slider::new(&mut self.settings.window_s, MIN_WINDOW_S..=MAX_WINDOW_S)
+                        egui::Slider::new(&mut self.settings.setup.view.window_s, MIN_WINDOW_S..=MAX_WINDOW_S)
                             .text("Time window")
                             .suffix(" s")
                             .max_decimals(0),
                     )
                     .on_hover_text("How many seconds of signal the traces show.");
                 if w.changed() {
-                    self.actions.push(Action::Control(Control::Window(self.settings.window_s)));
+                    self.actions.push(Action::Control(Control::Window(self.settings.setup.view.window_s)));
                 }
                 ui.separator();
-                ui.selectable_value(&mut self.settings.unit, TraceUnit::Millivolts, "mV")
+                ui.selectable_value(&mut self.settings.setup.view.unit, TraceUnit::Millivolts, "mV")
                     .on_hover_text("Trace axes in millivolts at the electrodes (input-referred).");
-                ui.selectable_value(&mut self.settings.unit, TraceUnit::Microvolts, "µV")
+                ui.selectable_value(&mut self.settings.setup.view.unit, TraceUnit::Microvolts, "µV")
                     .on_hover_text("Trace axes in microvolts at the electrodes (input-referred).");
                 let n = self
                     .view
                     .snapshot
                     .as_ref()
-                    .map_or(self.settings.synth.channels, |s| s.traces.len());
+                    .map_or(self.settings.setup.synth.channels, |s| s.traces.len());
                 if n > 1 {
                     ui.separator();
-                    let before = self.settings.channel;
+                    let before = self.settings.setup.view.channel;
                     egui::ComboBox::from_id_salt("channel")
-                        .selected_text(format!("ch{}", self.settings.channel + 1))
+                        .selected_text(format!("ch{}", self.settings.setup.view.channel + 1))
                         .show_ui(ui, |ui| {
                             for k in 0..n {
                                 ui.selectable_value(
-                                    &mut self.settings.channel,
+                                    &mut self.settings.setup.view.channel,
                                     k,
                                     format!("ch{}", k + 1),
                                 );
@@ -752,8 +757,8 @@ impl LeadlineApp {
                         .on_hover_text(
                             "Channel shown, analysed for beats and used for the spectrum.",
                         );
-                    if self.settings.channel != before {
-                        self.actions.push(Action::Control(Control::Channel(self.settings.channel)));
+                    if self.settings.setup.view.channel != before {
+                        self.actions.push(Action::Control(Control::Channel(self.settings.setup.view.channel)));
                     }
                 }
                 let beats = self.view.snapshot.as_ref().and_then(|s| s.beats.as_ref());
@@ -829,11 +834,11 @@ impl LeadlineApp {
                 .push(Action::Control(Control::Invert(!inverted)));
         }
         self.actions
-            .extend(panels::chain::show(ui, &self.settings.chain, fs));
+            .extend(panels::chain::show(ui, &self.settings.setup.chain, fs));
         let mains = snap
             .and_then(|s| s.spectrum.as_ref())
             .and_then(|f| f.mains_raw.clone());
-        let notch = self.settings.chain.notch;
+        let notch = self.settings.setup.chain.notch;
         if let Some(m) = mains.as_ref()
             && notch.enabled
             && !notch.auto
@@ -846,7 +851,7 @@ impl LeadlineApp {
                     .on_hover_text("Move the notch to the measured mains region.")
                     .clicked()
                 {
-                    let mut c = self.settings.chain;
+                    let mut c = self.settings.setup.chain;
                     c.notch.mains_hz = m.nominal_hz;
                     self.actions.push(Action::Chain(c));
                 }
@@ -859,11 +864,11 @@ impl LeadlineApp {
 
     /// Serial port, network board, a file to replay and the replay's controls.
     fn source_section(&mut self, ui: &mut egui::Ui) {
-        let s = &self.settings;
-        let active = s.serial.as_ref().map(|s| s.path.clone());
-        let simulating = s.serial.is_none() && s.net.is_none() && s.file.is_none();
-        let net_active = s.net.is_some();
-        let adc = s.front_ends.first().copied().unwrap_or_default().adc;
+        let s = &self.settings.setup;
+        let active = (s.source.kind == SourceKind::Serial).then(|| s.source.port.clone());
+        let simulating = self.settings.simulating();
+        let net_active = s.source.kind == SourceKind::Network;
+        let adc = s.scale;
         self.actions.extend(panels::source::show(
             ui,
             &mut self.picker,
@@ -904,12 +909,15 @@ impl LeadlineApp {
         egui::CollapsingHeader::new(heading("Front end"))
             .default_open(true)
             .show(ui, |ui| {
-                let board = self.settings.serial.is_some() || self.settings.net.is_some();
+                let board = self.settings.setup.from_board();
                 let n = self.view.snapshot.as_ref().map_or(1, |s| s.traces.len());
                 self.actions.extend(panels::front_end::show(
                     ui,
                     &mut self.front_end,
-                    (&self.settings.front_ends, self.settings.my_board),
+                    (
+                        &self.settings.setup.front_ends(),
+                        self.settings.setup.my_board(),
+                    ),
                     n,
                     board,
                 ));
@@ -919,7 +927,7 @@ impl LeadlineApp {
             .default_open(false)
             .show(ui, |ui| {
                 self.actions
-                    .extend(panels::display::show(ui, &mut self.settings));
+                    .extend(panels::display::show(ui, &mut self.settings.setup.view));
             });
         egui::CollapsingHeader::new(heading("Sound"))
             .default_open(false)
@@ -939,14 +947,11 @@ impl LeadlineApp {
                 self.actions
                     .extend(panels::files::show(ui, &mut self.files));
             });
-        if self.settings.serial.is_none()
-            && self.settings.file.is_none()
-            && self.settings.net.is_none()
-        {
+        if self.settings.simulating() {
             ui.add_space(10.0);
             ui.heading("Simulated bench");
             self.actions
-                .extend(panels::simulator::show(ui, &self.settings.synth));
+                .extend(panels::simulator::show(ui, &self.settings.setup.synth));
         }
     }
 
@@ -956,48 +961,50 @@ impl LeadlineApp {
             .view
             .snapshot
             .as_ref()
-            .map_or(self.settings.synth.fs_hz, |s| s.fs_hz);
+            .map_or(self.settings.setup.synth.fs_hz, |s| s.fs_hz);
         match a {
             Action::Control(c) => self.pending.push(c),
             Action::Chain(c) => {
-                self.settings.chain = c;
+                self.settings.setup.chain = c;
                 self.pending.push(Control::Chain(c));
             }
             Action::Source(choice) => {
-                let s = &mut self.settings;
-                (s.serial, s.net, s.file) = (None, None, None);
-                match choice {
-                    SourceChoice::Simulator => {}
-                    SourceChoice::Serial(spec) => s.serial = Some(spec),
-                    SourceChoice::Network(spec) => s.net = Some(spec),
+                let spec = match choice {
+                    SourceChoice::Simulator => SourceSpec::Synth(self.settings.setup.synth.clone()),
+                    SourceChoice::Serial(spec) => SourceSpec::Serial(spec),
+                    SourceChoice::Network(spec) => spec,
                     SourceChoice::File(path) => {
-                        s.file = Some(crate::source::replay::ReplaySpec {
+                        SourceSpec::File(crate::source::replay::ReplaySpec {
                             path,
                             read: crate::store::ReadOptions::default(),
-                        });
+                        })
                     }
-                }
-                s.channel = 0;
+                };
+                self.settings.setup.set_source(&spec);
+                self.settings.setup.view.channel = 0;
                 self.restart_source();
             }
             Action::Synth { settings, restart } => {
-                self.settings.synth = settings;
+                self.settings.setup.synth = settings;
                 if restart {
-                    self.settings.channel =
-                        self.settings.channel.min(self.settings.synth.channels - 1);
+                    self.settings.setup.view.channel = self
+                        .settings
+                        .setup
+                        .view
+                        .channel
+                        .min(self.settings.setup.synth.channels - 1);
                     self.restart_source();
                 } else {
-                    self.pipeline.synth(self.settings.synth.clone());
+                    self.pipeline.synth(self.settings.setup.synth.clone());
                 }
             }
             Action::FrontEnds { front_ends, live } => {
-                self.settings.front_ends = front_ends;
+                self.settings.setup.set_front_ends(&front_ends);
                 if live {
-                    self.pending
-                        .push(Control::FrontEnd(Some(self.settings.front_ends.clone())));
+                    self.pending.push(Control::FrontEnd(Some(front_ends)));
                 }
             }
-            Action::MyBoard(b) => self.settings.my_board = b,
+            Action::MyBoard(b) => self.settings.setup.set_my_board(b),
             Action::Replay(c) => self.pipeline.replay(c),
             Action::Record(r) => self.record_action(r),
             Action::Files(f) => self.files_action(f, fs),
@@ -1007,8 +1014,8 @@ impl LeadlineApp {
                     .then(|| self.view.snapshot.as_ref().and_then(|s| s.spectrum.clone()))
                     .flatten();
             }
-            Action::Lower(l) => self.settings.lower = l,
-            Action::Theme(t) => self.settings.theme = t,
+            Action::Lower(l) => self.settings.setup.view.lower = l,
+            Action::Theme(t) => self.settings.setup.view.theme = t,
             Action::EmgMode(on) => self.set_emg_mode(on, fs),
             Action::Help(open) => self.help_open = open,
         }
@@ -1017,7 +1024,7 @@ impl LeadlineApp {
     /// The traces and the lower strip under them.
     fn central(&mut self, ui: &mut egui::Ui, fs: f64) {
         let total = ui.available_height();
-        let lower_h = if self.settings.lower == LowerView::Hidden {
+        let lower_h = if self.settings.setup.view.lower == LowerView::Hidden {
             0.0
         } else {
             (0.42 * total).clamp(150.0, 360.0)
@@ -1049,36 +1056,36 @@ impl LeadlineApp {
                     self.actions.push(Action::EmgMode(emg));
                 }
                 ui.separator();
-                ui.selectable_value(&mut self.settings.lower, LowerView::Beats, "Beats")
+                ui.selectable_value(&mut self.settings.setup.view.lower, LowerView::Beats, "Beats")
                     .on_hover_text("The averaged beat before and after the chain, HRV and the RR tachogram.");
-                ui.selectable_value(&mut self.settings.lower, LowerView::Spectrum, "Spectrum")
+                ui.selectable_value(&mut self.settings.setup.view.lower, LowerView::Spectrum, "Spectrum")
                     .on_hover_text("Running Welch PSD before and after the chain, with the mains lines measured.");
-                ui.selectable_value(&mut self.settings.lower, LowerView::Response, "Chain response")
+                ui.selectable_value(&mut self.settings.setup.view.lower, LowerView::Response, "Chain response")
                     .on_hover_text(
                         "Magnitude, phase and group delay of the digital chain as set now.",
                     );
-                ui.selectable_value(&mut self.settings.lower, LowerView::Parts, "Parts")
+                ui.selectable_value(&mut self.settings.setup.view.lower, LowerView::Parts, "Parts")
                     .on_hover_text("The chain built from standard parts: resistors from an E series, your capacitors, the tolerance spread.");
-                ui.selectable_value(&mut self.settings.lower, LowerView::Measure, "Measure")
+                ui.selectable_value(&mut self.settings.setup.view.lower, LowerView::Measure, "Measure")
                     .on_hover_text("Measure the built front end on the live stream: response from a stimulus channel, a stepped sine, noise, CMRR.");
                 if self.settings.emg_mode {
-                    ui.selectable_value(&mut self.settings.lower, LowerView::Muscle, "Muscle")
+                    ui.selectable_value(&mut self.settings.setup.view.lower, LowerView::Muscle, "Muscle")
                         .on_hover_text("Envelope, moving RMS and contractions of the followed channel, with each contraction's median frequency.");
                 }
-                ui.selectable_value(&mut self.settings.lower, LowerView::Hidden, "Traces only")
+                ui.selectable_value(&mut self.settings.setup.view.lower, LowerView::Hidden, "Traces only")
                     .on_hover_text("Hide the lower strip: the traces take the whole height.");
             });
     }
 
     /// The strip under the traces, as chosen.
     fn lower_strip(&mut self, ui: &mut egui::Ui, fs: f64) {
-        match self.settings.lower {
+        match self.settings.setup.view.lower {
             LowerView::Response => {
-                self.parts.update(&self.settings.chain, fs);
+                self.parts.update(&self.settings.setup.chain, fs);
                 panels::response::show(
                     ui,
                     &self.response,
-                    &self.settings.chain,
+                    &self.settings.setup.chain,
                     super::plot::FILTERED_COLOUR,
                     self.parts.stages(),
                 );
@@ -1102,10 +1109,10 @@ impl LeadlineApp {
                 panels::beats::show(ui, b, fs);
             }
             LowerView::Parts => {
-                panels::parts::show(ui, &mut self.parts, &self.settings.chain, fs);
+                panels::parts::show(ui, &mut self.parts, &self.settings.setup.chain, fs);
             }
             LowerView::Measure => {
-                self.parts.update(&self.settings.chain, fs);
+                self.parts.update(&self.settings.setup.chain, fs);
                 let snap = self.view.snapshot.as_ref();
                 let sections = snap.map(|s| Arc::clone(&s.sections));
                 let n = snap.map_or(1, |s| s.traces.len());
@@ -1126,8 +1133,13 @@ impl LeadlineApp {
                 let v = snap.and_then(|s| s.emg.as_deref());
                 let trace = snap
                     .and_then(|s| {
-                        s.traces
-                            .get(self.settings.channel.min(s.traces.len().saturating_sub(1)))
+                        s.traces.get(
+                            self.settings
+                                .setup
+                                .view
+                                .channel
+                                .min(s.traces.len().saturating_sub(1)),
+                        )
                     })
                     .map(|t| &t.filtered);
                 self.actions
@@ -1149,7 +1161,7 @@ impl LeadlineApp {
             .view
             .snapshot
             .as_ref()
-            .map_or(self.settings.synth.fs_hz, |s| s.fs_hz);
+            .map_or(self.settings.setup.synth.fs_hz, |s| s.fs_hz);
 
         // Panels draw no background of their own: the window is cleared to the panel colour
         // anyway, and with software OpenGL every full-window layer costs CPU at each frame.
@@ -1183,7 +1195,7 @@ impl LeadlineApp {
                 snap.fs_hz,
                 snap.chain_error.as_deref(),
             ),
-            None => self.response.update(&self.settings.chain, fs),
+            None => self.response.update(&self.settings.setup.chain, fs),
         }
         egui::CentralPanel::default_margins()
             .frame(bare(egui::Frame::central_panel(&style)))

@@ -64,36 +64,25 @@ pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
     }
     if let Some(fes) = args
         .scale
-        .front_ends(Some(settings.front_ends.clone()))?
+        .front_ends(Some(settings.setup.front_ends()))?
         .filter(|_| args.scale.any())
     {
-        settings.front_ends = fes;
+        settings.setup.set_front_ends(&fes);
     }
     if let Some(src) = &args.source {
-        let first = settings.front_ends.first().copied().unwrap_or_default();
-        let spec = crate::source::SourceSpec::parse(src, args.fs, first.adc)
+        let spec = crate::source::SourceSpec::parse(src, args.fs, settings.setup.scale)
             .map_err(|e| BadInput(e.to_string()))?;
-        settings.serial = None;
-        settings.file = None;
-        settings.net = None;
-        match spec {
-            crate::source::SourceSpec::Serial(s) => settings.serial = Some(s),
-            crate::source::SourceSpec::File(f) => settings.file = Some(f),
-            crate::source::SourceSpec::Synth(_) => {}
-            n @ (crate::source::SourceSpec::Udp(_) | crate::source::SourceSpec::Tcp(_)) => {
-                settings.net = Some(n)
-            }
-        }
+        settings.setup.set_source(&spec);
     }
     if let Some(fs) = args.fs {
-        settings.synth.fs_hz = fs;
+        settings.setup.synth.fs_hz = fs;
     }
     if let Some(n) = args.channels {
-        settings.synth.channels = n;
+        settings.setup.synth.channels = n;
     }
-    settings.synth.validate()?;
+    settings.setup.synth.validate()?;
     if let Some(v) = args.view {
-        settings.lower = match v {
+        settings.setup.view.lower = match v {
             crate::cli::StartView::Beats => state::LowerView::Beats,
             crate::cli::StartView::Spectrum => state::LowerView::Spectrum,
             crate::cli::StartView::Response => state::LowerView::Response,
@@ -110,25 +99,25 @@ pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
             v,
             crate::cli::StartView::Default | crate::cli::StartView::Heavy
         ) {
-            settings.serial = None;
-            settings.file = None;
-            settings.net = None;
-            settings.synth.fs_hz = args.fs.unwrap_or(if heavy { 2000.0 } else { 1000.0 });
-            settings.synth.channels = args.channels.unwrap_or(if heavy { 8 } else { 1 });
-            settings.window_s = if heavy { 30.0 } else { 10.0 };
-            settings.display_hz = 30.0;
-            settings.synth.validate()?;
+            settings.setup.source.kind = crate::setup::SourceKind::Synth;
+            settings.setup.synth.fs_hz = args.fs.unwrap_or(if heavy { 2000.0 } else { 1000.0 });
+            settings.setup.synth.channels = args.channels.unwrap_or(if heavy { 8 } else { 1 });
+            settings.setup.view.window_s = if heavy { 30.0 } else { 10.0 };
+            settings.setup.view.display_hz = 30.0;
+            settings.setup.synth.validate()?;
         }
         if v == crate::cli::StartView::Emg {
             // The simulator becomes a contracting muscle (at 1 kHz unless told otherwise).
-            if settings.serial.is_none() && settings.file.is_none() && settings.net.is_none() {
-                settings.synth.muscle = Some(crate::source::muscle::MuscleSettings::default());
-                settings.synth.fs_hz = args.fs.unwrap_or(1000.0);
-                settings.synth.validate()?;
+            if settings.simulating() {
+                settings.setup.synth.muscle =
+                    Some(crate::source::muscle::MuscleSettings::default());
+                settings.setup.synth.fs_hz = args.fs.unwrap_or(1000.0);
+                settings.setup.synth.validate()?;
             }
             settings.emg_mode = true;
-            settings.ecg_chain = Some(settings.chain);
-            settings.chain = state::emg_chain(&settings.chain, settings.synth.fs_hz);
+            settings.ecg_chain = Some(settings.setup.chain);
+            settings.setup.chain =
+                state::emg_chain(&settings.setup.chain, settings.setup.synth.fs_hz);
         }
     }
     Ok(settings)

@@ -64,7 +64,7 @@ fn moving_the_high_pass_slider_retunes_the_dsp_thread() {
     h.get_by_role_and_label(Role::Slider, "High-pass corner")
         .set_value_accesskit(1.5);
     h.run_steps(2);
-    assert_eq!(h.state().settings().chain.highpass.corner_hz, 1.5);
+    assert_eq!(h.state().settings().setup.chain.highpass.corner_hz, 1.5);
     let deadline = Instant::now() + Duration::from_secs(10);
     loop {
         h.run_steps(1);
@@ -195,7 +195,7 @@ fn setup_save_and_open_restore_the_chain_and_view() {
     // Tall enough that the side panel's Files section is on screen without scrolling.
     let mut h = harness_sized(app(), [1280.0, 1600.0]);
     h.run_steps(2);
-    let mut chain = h.state().settings().chain;
+    let mut chain = h.state().settings().setup.chain;
     chain.lowpass.corner_hz = 35.0;
     h.state_mut().apply(Action::Chain(chain));
     h.state_mut()
@@ -222,8 +222,11 @@ fn setup_save_and_open_restore_the_chain_and_view() {
     h.run_steps(1);
     h.get_by_role_and_label(Role::Button, "Open").click();
     h.run_steps(2);
-    assert_eq!(h.state().settings().chain.lowpass.corner_hz, 35.0);
-    assert_eq!(h.state().settings().theme, leadline::setup::Theme::Light);
+    assert_eq!(h.state().settings().setup.chain.lowpass.corner_hz, 35.0);
+    assert_eq!(
+        h.state().settings().setup.view.theme,
+        leadline::setup::Theme::Light
+    );
     assert_eq!(h.state().settings().to_setup(), saved.to_setup());
 }
 
@@ -283,7 +286,10 @@ fn replaying_a_file_switches_the_source() {
     fill(&mut h, "recording to replay", &path.display().to_string());
     h.get_by_role_and_label(Role::Button, "Replay").click();
     h.run_steps(2);
-    assert!(h.state().settings().file.is_some());
+    assert_eq!(
+        h.state().settings().setup.source.kind,
+        leadline::setup::SourceKind::File
+    );
     run_until(&mut h, "a snapshot from the file at 250 Hz", |a| {
         a.view().snapshot.as_ref().is_some_and(|s| s.fs_hz == 250.0)
     });
@@ -379,8 +385,8 @@ fn display_settings_and_the_trace_png_button() {
         .click();
     h.get_by_role_and_label(Role::RadioButton, "Fixed").click();
     h.run_steps(2);
-    assert!(h.state().settings().sweep);
-    assert!(h.state().settings().fixed_range_uv > 0.0);
+    assert!(h.state().settings().setup.view.sweep);
+    assert!(h.state().settings().setup.view.fixed_range_uv > 0.0);
     h.get_by_label("Files").click();
     h.run_steps(2);
     fill(&mut h, "trace PNG file", &png.display().to_string());
@@ -425,17 +431,19 @@ fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
             }
         })
         .unwrap();
-    let settings = Settings {
-        serial: Some(leadline::source::serial::SerialSpec {
-            path: path.clone(),
-            baud: 115_200,
-            format: None,
-            fs_hz: Some(250.0),
-            scale: leadline::scale::InputScale::default(),
-            physical_to_uv: 1e3,
-        }),
-        ..Settings::default()
-    };
+    let mut settings = Settings::default();
+    settings
+        .setup
+        .set_source(&leadline::source::SourceSpec::Serial(
+            leadline::source::serial::SerialSpec {
+                path: path.clone(),
+                baud: 115_200,
+                format: None,
+                fs_hz: Some(250.0),
+                scale: leadline::scale::InputScale::default(),
+                physical_to_uv: 1e3,
+            },
+        ));
     let app = LeadlineApp::new(
         settings,
         Arc::new(|| {}),
@@ -465,7 +473,7 @@ fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
     h.run_steps(2);
     h.get_by_label("10-bit 5 V, mid-scale").click();
     h.run_steps(2);
-    let fe = h.state().settings().front_ends[0];
+    let fe = h.state().settings().setup.front_ends()[0];
     assert_eq!((fe.adc.bits, fe.adc.vref_v, fe.adc.gain), (10, 5.0, 1000.0));
     let (frames_after, gaps) = wait_for(&mut h, 10);
     // The same stream went on: no reconnect, no gap, the frame count kept growing.
@@ -503,8 +511,8 @@ fn the_measure_view_measures_the_live_stream() {
     // Two simulated leads: the response from lead 1 to lead 2 is their lead factors' ratio in
     // the ECG band, where the leads share the heart's signal.
     let mut settings = Settings::default();
-    settings.synth.channels = 2;
-    settings.lower = leadline::gui::state::LowerView::Measure;
+    settings.setup.synth.channels = 2;
+    settings.setup.view.lower = leadline::gui::state::LowerView::Measure;
     let app = LeadlineApp::new(
         settings,
         Arc::new(|| {}),
@@ -555,8 +563,8 @@ fn the_measure_view_measures_the_live_stream() {
 fn emg_mode_sets_the_muscle_chain_and_shows_the_contractions() {
     // The simulator as a muscle at 1 kHz: contractions at 2–4 s and 7–9 s.
     let mut settings = Settings::default();
-    settings.synth.fs_hz = 1000.0;
-    settings.synth.muscle = Some(leadline::source::muscle::MuscleSettings::default());
+    settings.setup.synth.fs_hz = 1000.0;
+    settings.setup.synth.muscle = Some(leadline::source::muscle::MuscleSettings::default());
     let app = LeadlineApp::new(
         settings,
         Arc::new(|| {}),
@@ -566,10 +574,10 @@ fn emg_mode_sets_the_muscle_chain_and_shows_the_contractions() {
     .unwrap();
     let mut h = harness(app);
     h.run_steps(3);
-    let ecg_chain = h.state().settings().chain;
+    let ecg_chain = h.state().settings().setup.chain;
     h.get_by_label("EMG").click();
     h.run_steps(2);
-    let c = h.state().settings().chain;
+    let c = h.state().settings().setup.chain;
     assert!(h.state().settings().emg_mode);
     assert_eq!((c.highpass.corner_hz, c.lowpass.corner_hz), (20.0, 450.0));
     assert!(c.notch.enabled);
@@ -604,7 +612,7 @@ fn emg_mode_sets_the_muscle_chain_and_shows_the_contractions() {
     // Back to ECG: the chain from before returns.
     h.get_by_label("ECG").click();
     h.run_steps(2);
-    assert_eq!(h.state().settings().chain, ecg_chain);
+    assert_eq!(h.state().settings().setup.chain, ecg_chain);
     assert!(!h.state().settings().emg_mode);
 }
 

@@ -2,15 +2,15 @@
 
 use eframe::egui;
 
-use crate::gui::state::Settings;
 use crate::msg::Control;
+use crate::setup::ViewSetup;
 
 /// Draws the settings; returns a Control when the display rate changed.
-pub fn show(ui: &mut egui::Ui, s: &mut Settings) -> Option<crate::gui::action::Action> {
+pub fn show(ui: &mut egui::Ui, s: &mut ViewSetup) -> Option<crate::gui::action::Action> {
     controls(ui, s).map(crate::gui::action::Action::Control)
 }
 
-fn controls(ui: &mut egui::Ui, s: &mut Settings) -> Option<Control> {
+fn controls(ui: &mut egui::Ui, s: &mut ViewSetup) -> Option<Control> {
     let mut out = None;
     let r = ui
         .add(

@@ -105,16 +105,20 @@ fn draw(
         ui.centered_and_justified(|ui| ui.label("Waiting for the first samples…"));
         return events;
     };
-    let ch = settings.channel.min(snap.traces.len().saturating_sub(1));
+    let ch = settings
+        .setup
+        .view
+        .channel
+        .min(snap.traces.len().saturating_sub(1));
     let Some(trace) = snap.traces.get(ch) else {
         return events;
     };
-    let (factor, unit) = settings.unit.factor_and_label();
+    let (factor, unit) = settings.setup.view.unit.factor_and_label();
     let window = snap.window_s;
-    let sweep = settings.sweep && state.follow;
+    let sweep = settings.setup.view.sweep && state.follow;
     let x_max = snap.t_end_s.max(window);
     let x_min = x_max - window;
-    let readout = state.readout(settings.unit);
+    let readout = state.readout(settings.setup.view.unit);
     let height =
         ((ui.available_height() - if readout.is_some() { 34.0 } else { 12.0 }) / 2.0).max(80.0);
     if let Some(r) = &readout {
@@ -143,7 +147,7 @@ fn draw(
         let fixed = fixed_range(
             cols,
             id == "filtered-trace",
-            settings.fixed_range_uv,
+            settings.setup.view.fixed_range_uv,
             factor,
         );
         let resp = trace_plot(id, height, sweep, unit, link).show(ui, |pu| {
