@@ -3,10 +3,12 @@
 //! - [`synth`]: the built-in simulator (default), with [`ecg_model`] for the sinus waveform and
 //!   [`rhythm`] for the standards' irregular-rhythm cases, [`muscle`] for surface EMG.
 //! - [`serial`]: a board on a serial port; [`net`]: a Wi-Fi board over UDP or TCP;
-//!   [`replay`]: a recording streamed as a device. [`framing`]: what the board sources share.
+//!   [`replay`]: a recording streamed as a device. [`framing`]: what the board sources share;
+//!   [`link`]: the one reader of byte streams (serial and TCP), reopened when they go away.
 
 pub mod ecg_model;
 pub mod framing;
+pub mod link;
 pub mod muscle;
 pub mod net;
 pub mod replay;

@@ -18,8 +18,8 @@ use std::time::{Duration, Instant};
 
 use crossbeam_channel::Sender;
 
-use super::framing::{Blocker, Decoding};
-use super::serial::{SerialStatus, StreamEnd, read_stream};
+use super::framing::Blocker;
+use super::link::{self, Decoded, Link, StreamFormat};
 use crate::chan::send_blocking;
 use crate::msg::RawBlock;
 use crate::scale::InputScale;
@@ -28,8 +28,6 @@ use crate::wire::{Format, WireStats, ascii, binary};
 
 /// How long a frame may wait for the ones before it.
 pub const REORDER_WINDOW: Duration = Duration::from_millis(50);
-/// Retry period of a dropped TCP link.
-const RECONNECT_EVERY: Duration = Duration::from_millis(500);
 /// Read timeout: how often the threads look at the stop flag.
 const READ_TIMEOUT: Duration = Duration::from_millis(20);
 /// Largest datagram read (the UDP maximum).
@@ -282,95 +280,93 @@ pub fn resolve(host: &str, port: u16) -> Result<SocketAddr, String> {
         .ok_or_else(|| format!("cannot resolve {host}: no address"))
 }
 
-/// Runs the TCP source: connects, reads until the link drops, reconnects every 0.5 s.
-pub fn run_tcp(spec: TcpSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: NetHandle) {
-    let mut decoding = Decoding::new(spec.format);
-    let mut blocker = Blocker::new(spec.fs_hz, spec.scale, spec.physical_to_uv);
-    let mut ever = false;
-    // The stream reader reports through a serial-style status; copied into ours after each read.
-    let link: super::serial::StatusHandle = Default::default();
-    while !stop.load(Ordering::Relaxed) {
-        let addr = match resolve(&spec.host, spec.port) {
-            Ok(a) => a,
-            Err(e) => {
-                set(&status, |s| {
-                    s.connected = false;
-                    s.message = e.clone();
-                    s.error = Some(e);
-                });
-                wait(stop, RECONNECT_EVERY);
-                continue;
-            }
-        };
-        let stream = match TcpStream::connect_timeout(&addr, Duration::from_secs(2)) {
-            Ok(s) => s,
-            Err(e) => {
-                set(&status, |s| {
-                    s.connected = false;
-                    s.message = format!("waiting for {addr}: {e}");
-                });
-                wait(stop, RECONNECT_EVERY);
-                continue;
-            }
-        };
+/// A TCP connection to a board as a [`Link`]: connected again every half second while it is
+/// down.
+struct TcpLink {
+    spec: TcpSpec,
+    status: NetHandle,
+    peer: Option<SocketAddr>,
+}
+
+impl Link for TcpLink {
+    type Stream = TcpStream;
+
+    fn open(&mut self) -> Result<TcpStream, String> {
+        let addr = resolve(&self.spec.host, self.spec.port).inspect_err(|e| {
+            set(&self.status, |s| {
+                s.connected = false;
+                s.message.clone_from(e);
+                s.error = Some(e.clone());
+            });
+        })?;
+        let stream = TcpStream::connect_timeout(&addr, Duration::from_secs(2)).map_err(|e| {
+            let why = format!("waiting for {addr}: {e}");
+            set(&self.status, |s| {
+                s.connected = false;
+                s.message.clone_from(&why);
+            });
+            why
+        })?;
         let _ = stream.set_read_timeout(Some(READ_TIMEOUT));
         let _ = stream.set_nodelay(true);
-        if ever {
-            blocker.mark_gap();
-            set(&status, |s| s.reconnects += 1);
-        }
-        ever = true;
-        set(&status, |s| {
+        self.peer = Some(addr);
+        Ok(stream)
+    }
+
+    fn opened(&mut self, again: bool) {
+        let peer = self.peer;
+        set(&self.status, |s| {
+            s.reconnects += u64::from(again);
             s.connected = true;
             s.error = None;
-            s.peer = Some(addr);
-            s.message = format!("connected to {addr}");
+            s.peer = peer;
+            s.message = format!(
+                "connected to {}",
+                peer.map_or(String::new(), |p| p.to_string())
+            );
         });
-        let counting = Counting {
-            inner: stream,
-            status: Arc::clone(&status),
-            link: Arc::clone(&link),
-        };
-        match read_stream(counting, &mut decoding, &mut blocker, &out, stop, &link) {
-            StreamEnd::Stopped => return,
-            StreamEnd::Lost(why) => set(&status, |s| {
-                s.connected = false;
-                s.message = format!("link to {addr} lost: {why}; reconnecting");
-            }),
-        }
     }
-}
 
-/// A TCP stream that copies byte counts and the decoder's status into the network status.
-struct Counting {
-    inner: TcpStream,
-    status: NetHandle,
-    link: super::serial::StatusHandle,
-}
-
-impl std::io::Read for Counting {
-    fn read(&mut self, buf: &mut [u8]) -> std::io::Result<usize> {
-        let n = self.inner.read(buf)?;
-        let link: Option<SerialStatus> = self.link.lock().ok().map(|g| g.clone());
+    fn lost(&mut self, why: &str) {
+        let peer = self.peer.map_or(String::new(), |p| p.to_string());
         set(&self.status, |s| {
-            s.bytes += n as u64;
-            if let Some(l) = link {
-                s.wire = l.wire;
-                s.format = l.format;
-                s.fs_hz = l.fs_hz;
-                s.estimated = l.estimated;
-                s.spread_hz = l.spread_hz;
+            s.connected = false;
+            s.message = format!("link to {peer} lost: {why}; reconnecting");
+        });
+    }
+
+    fn decoded(&mut self, d: &Decoded) {
+        set(&self.status, |s| {
+            s.bytes += d.bytes as u64;
+            s.wire = d.wire;
+            s.format = d.format;
+            if let Some(r) = d.rate {
+                s.fs_hz = Some(r.fs_hz);
+                s.estimated = r.estimated;
+                s.spread_hz = r.spread_hz;
             }
         });
-        Ok(n)
     }
 }
 
-fn wait(stop: &AtomicBool, d: Duration) {
-    let until = Instant::now() + d;
-    while Instant::now() < until && !stop.load(Ordering::Relaxed) {
-        std::thread::sleep(Duration::from_millis(20));
-    }
+/// Runs the TCP source: connects, reads until the link drops, reconnects every 0.5 s.
+pub fn run_tcp(spec: TcpSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: NetHandle) {
+    let how = StreamFormat {
+        format: spec.format,
+        fs_hz: spec.fs_hz,
+        scale: spec.scale,
+        physical_to_uv: spec.physical_to_uv,
+    };
+    link::run(
+        &mut TcpLink {
+            spec,
+            status,
+            peer: None,
+        },
+        how,
+        &out,
+        stop,
+    );
 }
 
 /// The source text of a network source, as `--source` and setups write it.

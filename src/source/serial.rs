@@ -7,23 +7,19 @@
 //! of the first two seconds of frames (and shown as estimated, with its spread). The binary
 //! sequence counter makes the sample index jump over lost frames, so the DSP thread counts them.
 
-use std::io::Read;
-use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::atomic::AtomicBool;
 use std::sync::{Arc, Mutex};
-use std::time::{Duration, Instant};
+use std::time::Duration;
 
 use crossbeam_channel::Sender;
 
-use super::framing::{Blocker, Decoding};
-use crate::chan::send_blocking;
+use super::link::{self, Decoded, Link, StreamFormat};
 use crate::msg::RawBlock;
 use crate::scale::InputScale;
-use crate::wire::{Format, Frame, WireStats};
+use crate::wire::{Format, WireStats};
 
 /// Read timeout: how long a read waits before the thread looks at the stop flag.
 const READ_TIMEOUT: Duration = Duration::from_millis(50);
-/// Retry period while the device is gone.
-const REOPEN_EVERY: Duration = Duration::from_millis(500);
 
 /// What to open.
 #[derive(Debug, Clone, PartialEq)]
@@ -91,109 +87,63 @@ pub fn list_ports() -> Vec<String> {
         .unwrap_or_default()
 }
 
-/// Runs until `stop` is set or the receiver hangs up.
-pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: StatusHandle) {
-    let mut decoding = Decoding::new(spec.format);
-    let mut blocker = Blocker::new(spec.fs_hz, spec.scale, spec.physical_to_uv);
-    let mut ever_connected = false;
-    while !stop.load(Ordering::Relaxed) {
-        let port = match open(&spec.path, spec.baud) {
-            Ok(p) => p,
-            Err(e) => {
-                set_status(&status, |s| {
-                    s.connected = false;
-                    s.message = format!("waiting for device {}: {e}", spec.path);
-                });
-                let until = Instant::now() + REOPEN_EVERY;
-                while Instant::now() < until && !stop.load(Ordering::Relaxed) {
-                    std::thread::sleep(Duration::from_millis(20));
-                }
-                continue;
-            }
-        };
-        if ever_connected {
-            blocker.mark_gap();
-            set_status(&status, |s| s.reconnects += 1);
-        }
-        ever_connected = true;
-        set_status(&status, |s| {
-            s.connected = true;
-            s.message = format!("reading {} at {} baud", spec.path, spec.baud);
-        });
-        let ended = read_stream(port, &mut decoding, &mut blocker, &out, stop, &status);
-        match ended {
-            StreamEnd::Stopped => return,
-            StreamEnd::Lost(why) => set_status(&status, |s| {
+/// A serial port as a [`Link`]: opened again every half second while it is gone.
+struct Port {
+    spec: SerialSpec,
+    status: StatusHandle,
+}
+
+impl Link for Port {
+    type Stream = Box<dyn serialport::SerialPort>;
+
+    fn open(&mut self) -> Result<Self::Stream, String> {
+        open(&self.spec.path, self.spec.baud).map_err(|e| {
+            let why = format!("waiting for device {}: {e}", self.spec.path);
+            set_status(&self.status, |s| {
                 s.connected = false;
-                s.message = format!("device {} lost: {why}; waiting for it", spec.path);
-            }),
-        }
+                s.message.clone_from(&why);
+            });
+            why
+        })
     }
-}
 
-/// How a stream ended.
-#[derive(Debug)]
-pub enum StreamEnd {
-    /// The stop flag was set or the receiver hung up.
-    Stopped,
-    /// The device or peer went away (end of file or a read error).
-    Lost(String),
-}
-
-/// Reads a byte stream (a serial port, a TCP connection, anything that reads with a short
-/// timeout) until it ends, decoding frames and sending blocks; waits, never drops.
-pub fn read_stream(
-    mut reader: impl Read,
-    decoding: &mut Decoding,
-    blocker: &mut Blocker,
-    out: &Sender<RawBlock>,
-    stop: &AtomicBool,
-    status: &StatusHandle,
-) -> StreamEnd {
-    let mut buf = vec![0u8; 8192];
-    let mut frames: Vec<Frame> = Vec::new();
-    let mut blocks = Vec::new();
-    loop {
-        if stop.load(Ordering::Relaxed) {
-            return StreamEnd::Stopped;
-        }
-        let n = match reader.read(&mut buf) {
-            Ok(0) => {
-                // End of file: a pseudo-terminal whose other side closed, a peer that hung up.
-                std::thread::sleep(Duration::from_millis(20));
-                return StreamEnd::Lost("the other end closed".into());
-            }
-            Ok(n) => n,
-            Err(e)
-                if e.kind() == std::io::ErrorKind::TimedOut
-                    || e.kind() == std::io::ErrorKind::WouldBlock
-                    || e.kind() == std::io::ErrorKind::Interrupted =>
-            {
-                continue;
-            }
-            Err(e) => return StreamEnd::Lost(e.to_string()),
-        };
-        frames.clear();
-        let fmt = decoding.push(&buf[..n], &mut frames);
-        let now = Instant::now();
-        let wire_stats = decoding.stats();
-        set_status(status, |s| {
-            s.format = fmt;
-            s.wire = wire_stats;
+    fn opened(&mut self, again: bool) {
+        let (path, baud) = (&self.spec.path, self.spec.baud);
+        set_status(&self.status, |s| {
+            s.reconnects += u64::from(again);
+            s.connected = true;
+            s.message = format!("reading {path} at {baud} baud");
         });
-        blocks.clear();
-        blocker.push(&mut frames, now, decoding.fs_hz(), &mut blocks);
-        if let Some(r) = blocker.rate() {
-            set_status(status, |s| {
+    }
+
+    fn lost(&mut self, why: &str) {
+        let path = &self.spec.path;
+        set_status(&self.status, |s| {
+            s.connected = false;
+            s.message = format!("device {path} lost: {why}; waiting for it");
+        });
+    }
+
+    fn decoded(&mut self, d: &Decoded) {
+        set_status(&self.status, |s| {
+            s.format = d.format;
+            s.wire = d.wire;
+            if let Some(r) = d.rate {
                 s.fs_hz = Some(r.fs_hz);
                 s.estimated = r.estimated;
                 s.spread_hz = r.spread_hz;
-            });
-        }
-        for b in blocks.drain(..) {
-            if !send_blocking(out, b, stop) {
-                return StreamEnd::Stopped;
             }
-        }
+        });
     }
+}
+
+/// Runs until `stop` is set or the receiver hangs up.
+pub fn run(spec: SerialSpec, out: Sender<RawBlock>, stop: &AtomicBool, status: StatusHandle) {
+    let how = StreamFormat {
+        format: spec.format,
+        fs_hz: spec.fs_hz,
+        scale: spec.scale,
+        physical_to_uv: spec.physical_to_uv,
+    };
+    link::run(&mut Port { spec, status }, how, &out, stop);
 }
