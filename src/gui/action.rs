@@ -12,9 +12,8 @@ use crate::source::replay::ReplayCommand;
 use crate::source::serial::SerialSpec;
 use crate::source::{SourceSpec, SynthSettings};
 
-use super::panels::files::FilesAction;
-use super::panels::record::RecordAction;
-use super::state::LowerView;
+use crate::export::c_header::CFormat;
+use crate::setup::LowerView;
 
 /// Where the samples should come from.
 #[derive(Debug, Clone)]
@@ -68,4 +67,26 @@ pub enum Action {
     EmgMode(bool),
     /// Open or close the help.
     Help(bool),
+}
+
+/// What the user asked of the recorder.
+#[derive(Debug, Clone, PartialEq)]
+pub enum RecordAction {
+    Start(crate::recorder::RecordRequest),
+    Stop,
+    Marker(String),
+}
+
+/// What the user asked of the Files section: each writes where the user typed.
+#[derive(Debug, Clone, PartialEq)]
+pub enum FilesAction {
+    OpenSetup(PathBuf),
+    SaveSetup(PathBuf),
+    ExportC {
+        path: PathBuf,
+        format: CFormat,
+        prefix: String,
+    },
+    TracePng(PathBuf),
+    SpectrumPng(PathBuf),
 }

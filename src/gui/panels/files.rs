@@ -1,9 +1,9 @@
 //! Files: setups (open/save), the chain as a C header for firmware, PNGs of the trace and
 //! spectrum. Each writes where the user typed; the app carries the action out.
 
-use std::path::PathBuf;
-
 use eframe::egui;
+
+pub use crate::gui::action::FilesAction;
 
 use crate::export::c_header::CFormat;
 
@@ -34,20 +34,6 @@ impl Default for FilesPanel {
             failed: false,
         }
     }
-}
-
-/// What the user asked for.
-#[derive(Debug, Clone, PartialEq)]
-pub enum FilesAction {
-    OpenSetup(PathBuf),
-    SaveSetup(PathBuf),
-    ExportC {
-        path: PathBuf,
-        format: CFormat,
-        prefix: String,
-    },
-    TracePng(PathBuf),
-    SpectrumPng(PathBuf),
 }
 
 fn path_row(ui: &mut egui::Ui, name: &str, text: &mut String, tip: &str) {

@@ -3,6 +3,8 @@
 
 use eframe::egui;
 
+pub use crate::gui::action::RecordAction;
+
 use crate::recorder::{RecordRequest, RecordValues, RecorderStatus};
 
 /// What the user has typed for recording.
@@ -26,14 +28,6 @@ impl Default for RecordPanel {
             markers_placed: 0,
         }
     }
-}
-
-/// What the user asked for.
-#[derive(Debug, Clone, PartialEq)]
-pub enum RecordAction {
-    Start(RecordRequest),
-    Stop,
-    Marker(String),
 }
 
 impl RecordPanel {
