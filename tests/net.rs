@@ -4,6 +4,8 @@
 // Helpers outside #[test] functions unwrap too: a panic is the failure report.
 #![allow(clippy::unwrap_used)]
 
+mod common;
+
 use std::net::{SocketAddr, TcpListener, UdpSocket};
 use std::sync::Arc;
 use std::time::{Duration, Instant};
@@ -47,7 +49,7 @@ fn start(spec: &str, fs: f64) -> Result<Pipeline, leadline::pipeline::PipelineEr
 }
 
 fn value(frame: u64, ch: usize) -> i32 {
-    ((frame * 7 + ch as u64 * 1000) % 4096) as i32
+    common::pattern(frame, ch)
 }
 
 /// Collects (first_sample, received) of record blocks until `until` or `deadline`.
@@ -231,21 +233,18 @@ fn a_udp_port_in_use_and_a_host_that_does_not_resolve_say_so() {
     let e = r.err().unwrap().to_string();
     assert!(e.contains("already in use"), "{e}");
     // record: exit 1 with the reason on one line, and the summary on stdout.
-    let o = std::process::Command::new(env!("CARGO_BIN_EXE_leadline"))
-        .args([
-            "record",
-            "--source",
-            "tcp:no-such-host.invalid:5006",
-            "--seconds",
-            "1",
-            "--out",
-            std::env::temp_dir()
-                .join(format!("ll-net-{}.csv", std::process::id()))
-                .to_str()
-                .unwrap(),
-        ])
-        .output()
-        .unwrap();
+    let o = common::leadline([
+        "record",
+        "--source",
+        "tcp:no-such-host.invalid:5006",
+        "--seconds",
+        "1",
+        "--out",
+        std::env::temp_dir()
+            .join(format!("ll-net-{}.csv", std::process::id()))
+            .to_str()
+            .unwrap(),
+    ]);
     assert_eq!(o.status.code(), Some(1));
     let err = String::from_utf8_lossy(&o.stderr);
     assert!(err.contains("cannot resolve no-such-host.invalid"), "{err}");

@@ -4,6 +4,8 @@
 // Helpers outside #[test] functions unwrap too: a panic is the failure report.
 #![allow(clippy::unwrap_used)]
 
+mod common;
+
 use std::io::Write;
 use std::sync::Arc;
 use std::time::{Duration, Instant};
@@ -74,8 +76,7 @@ fn paced_writer(
 }
 
 fn value(frame: usize, ch: usize) -> i32 {
-    // A pattern that exercises the whole 12-bit range and differs per channel.
-    ((frame * 7 + ch * 1000) % 4096) as i32
+    common::pattern(frame as u64, ch)
 }
 
 fn collect(

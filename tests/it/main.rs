@@ -1,9 +1,11 @@
 //! The integration tests in one binary (linking each file as its own binary was a large part of
-//! a build on two cores). Each module is one area; `common` holds what they share. The timing
+//! a build on two cores). Each module is one area; `tests/common` holds what all the test
+//! binaries share. The timing
 //! tests that must not share the process with others stay binaries of their own:
 //! `tests/serial.rs` (pty, 60 s), `tests/net.rs` (UDP and TCP, 60 s) and `tests/soak.rs`
 //! (2 minutes; it measures the process's memory).
 
+#[path = "../common/mod.rs"]
 mod common;
 
 mod analog;

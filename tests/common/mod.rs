@@ -1,4 +1,5 @@
-//! What the test modules share.
+//! What the integration tests share: scratch files, the binary, the test pattern a simulated
+//! board sends. Included by `tests/it`, `tests/serial.rs` and `tests/net.rs`.
 // Helpers unwrap: a panic is the failure report.
 #![allow(clippy::unwrap_used, dead_code)]
 
@@ -36,4 +37,9 @@ where
         String::from_utf8_lossy(&out.stderr)
     );
     out
+}
+
+/// The test pattern a simulated board sends: every 12-bit code in turn, different per channel.
+pub fn pattern(frame: u64, ch: usize) -> i32 {
+    ((frame * 7 + ch as u64 * 1000) % 4096) as i32
 }
