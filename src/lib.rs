@@ -7,22 +7,27 @@
 //! ```text
 //!  source thread            DSP thread                               GUI thread (eframe)
 //!  synth | serial | udp     front end → chain → display columns      drains Snapshots in logic(),
-//!  | tcp | file               → readout, spectrum, measurements      draws in ui(), sends Control
+//!  | tcp | file               → readout, spectrum, measurements      draws in ui(); panels return
+//!                                                                     Actions, applied after drawing
 //!    │                        → RecordBlock (never dropped)
 //!    ▼                         │
 //!  RawBlock ──bounded──▶ process::run ──Snapshot, drop-oldest──▶ gui::app
 //!            ◀────────────── Control (unbounded, tiny) ◀──────────────
 //! ```
 //! - [`pipeline`] is the only place that creates channels and starts (named) threads.
-//! - [`source`]: where samples come from ([`source::synth`] is the default; serial, UDP, TCP,
-//!   file replay).
+//! - [`source`]: where samples come from ([`source::synth`] is the default; serial and TCP
+//!   through one byte-stream reader, [`source::link`]; UDP; file replay).
+//! - [`setup`]: the one persisted configuration (TOML), which the monitor's settings hold.
+//! - [`chan`]: the two ways a thread sends (wait, or replace the oldest).
 //! - [`recorder`]: every processed sample to EDF+/BDF+/CSV/raw files, on its own thread.
 //! - [`process`]: the DSP thread body. [`dsp`]: filter designs and the runtime chain.
 //! - [`scale`]: counts → volts at the ADC → µV at the electrodes, per channel.
 //! - [`analysis`]: beats, the heart-rate readout, quality, mains. [`conform`]: the standards'
 //!   checks of a chain. [`measure`]: a built front end measured. [`analog`]: parts, circuit,
 //!   schematic, netlist.
-//! - [`wire`]: byte formats to and from a microcontroller. [`gui`], [`cli`]: the two front doors.
+//! - [`wire`]: byte formats to and from a microcontroller. [`store`]: recordings read and written.
+//!   [`export`]: plots and C headers. [`sound`]: the tone and the signal as audio.
+//! - [`gui`], [`cli`]: the two front doors.
 //! - `dsp`, `analysis`, `analog`, `conform`, `measure`, `scale` and `wire` never import egui.
 //!
 //! # Units and conventions
