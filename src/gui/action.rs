@@ -67,6 +67,8 @@ pub enum Action {
     EmgMode(bool),
     /// Open or close the help.
     Help(bool),
+    /// The first-start caution was read and confirmed.
+    CautionConfirmed,
 }
 
 /// What the user asked of the recorder.

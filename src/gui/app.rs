@@ -1018,6 +1018,10 @@ impl LeadlineApp {
             Action::Theme(t) => self.settings.setup.view.theme = t,
             Action::EmgMode(on) => self.set_emg_mode(on, fs),
             Action::Help(open) => self.help_open = open,
+            Action::CautionConfirmed => {
+                self.caution_open = false;
+                super::state::acknowledge_caution();
+            }
         }
     }
 
@@ -1203,10 +1207,10 @@ impl LeadlineApp {
                 self.central(ui, fs);
             });
 
-        panels::help::show(ui.ctx(), &mut self.help_open);
-        if panels::caution::first_start(ui.ctx(), &mut self.caution_open) {
-            super::state::acknowledge_caution();
-        }
+        self.actions
+            .extend(panels::help::show(ui.ctx(), self.help_open));
+        self.actions
+            .extend(panels::caution::first_start(ui.ctx(), self.caution_open));
 
         let actions = std::mem::take(&mut self.actions);
         if !actions.is_empty() {

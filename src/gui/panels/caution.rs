@@ -2,10 +2,10 @@
 
 use eframe::egui;
 
-/// Shows the first-start caution while `open`. Returns true when the user confirmed it.
-pub fn first_start(ctx: &egui::Context, open: &mut bool) -> bool {
-    if !*open {
-        return false;
+/// Shows the first-start caution while `open`; the action when the user confirmed it.
+pub fn first_start(ctx: &egui::Context, open: bool) -> Option<crate::gui::action::Action> {
+    if !open {
+        return None;
     }
     let mut confirmed = false;
     egui::Window::new("Before you connect electrodes")
@@ -23,10 +23,7 @@ pub fn first_start(ctx: &egui::Context, open: &mut bool) -> bool {
                 confirmed = true;
             }
         });
-    if confirmed {
-        *open = false;
-    }
-    confirmed
+    confirmed.then_some(crate::gui::action::Action::CautionConfirmed)
 }
 
 /// The one-line reminder in the status bar.

@@ -22,10 +22,15 @@ pub const SHORTCUTS: &[(&str, &str)] = &[
     ("F1 or ?", "this help"),
 ];
 
-/// Draws the help window while `open`.
-pub fn show(ctx: &egui::Context, open: &mut bool) {
+/// Draws the help window while `open`; the action that closes it when its close button is
+/// pressed.
+pub fn show(ctx: &egui::Context, open: bool) -> Option<crate::gui::action::Action> {
+    if !open {
+        return None;
+    }
+    let mut still_open = true;
     egui::Window::new("Help")
-        .open(open)
+        .open(&mut still_open)
         .collapsible(false)
         .resizable(false)
         .default_width(440.0)
@@ -45,4 +50,5 @@ pub fn show(ctx: &egui::Context, open: &mut bool) {
             ui.label(egui::RichText::new("Mains coupling").strong());
             ui.label("Open Spectrum, press H (Hold as before), change the bench (charger, grounding), and read the change of each mains line in dB.");
         });
+    (!still_open).then_some(crate::gui::action::Action::Help(false))
 }
