@@ -138,12 +138,17 @@ pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: 
     let height = ui.available_height().max(120.0);
     ui.horizontal_top(|ui| {
         ui.allocate_ui(egui::vec2(width * 0.62, height), |ui| {
+            // A wide row (the twin-T's parts) scrolls sideways inside the table's share, the
+            // text below wraps there: the response plot keeps the rest of the width.
+            ui.set_max_width(width * 0.62);
             egui::ScrollArea::vertical()
                 .id_salt("parts-table")
                 .auto_shrink([false, false])
                 .show(ui, |ui| {
                     ui.vertical(|ui| {
-                        table(ui, &stages);
+                        egui::ScrollArea::horizontal()
+                            .id_salt("parts-grid-scroll")
+                            .show(ui, |ui| table(ui, &stages));
                         ui.horizontal(|ui| {
                             ui.label("op-amp input bias");
                             ui.add(
