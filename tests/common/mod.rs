@@ -12,16 +12,29 @@ pub fn tmp(area: &str, name: &str) -> PathBuf {
     d.join(name)
 }
 
+/// The leadline binary as a command, to add arguments (paths too) and run or spawn.
+pub fn command() -> std::process::Command {
+    std::process::Command::new(env!("CARGO_BIN_EXE_leadline"))
+}
+
+/// Runs `cmd` and fails the test with its stderr unless it succeeded.
+pub fn run_ok(cmd: &mut std::process::Command) -> std::process::Output {
+    let out = cmd.output().unwrap();
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    out
+}
+
 /// Runs the leadline binary with `args` and returns its output.
 pub fn leadline<I, S>(args: I) -> std::process::Output
 where
     I: IntoIterator<Item = S>,
     S: AsRef<std::ffi::OsStr>,
 {
-    std::process::Command::new(env!("CARGO_BIN_EXE_leadline"))
-        .args(args)
-        .output()
-        .unwrap()
+    command().args(args).output().unwrap()
 }
 
 /// Runs the leadline binary and fails the test with its stderr unless it succeeded.

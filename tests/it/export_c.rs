@@ -78,17 +78,12 @@ const CHAIN_FLAGS: [&str; 8] = [
 fn run_c(format: &str, prefix: &str, input: &str) -> Vec<String> {
     let d = dir();
     let header = d.join(format!("filters_{format}.h"));
-    let out = Command::new(env!("CARGO_BIN_EXE_leadline"))
-        .arg("export-c")
-        .args(CHAIN_FLAGS)
-        .args(["--format", format, "--prefix", prefix, "--out"])
-        .arg(&header)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
+    crate::common::run_ok(
+        crate::common::command()
+            .arg("export-c")
+            .args(CHAIN_FLAGS)
+            .args(["--format", format, "--prefix", prefix, "--out"])
+            .arg(&header),
     );
     let (ty, scan, print) = match format {
         "f32" => ("float", "%f", "%.9g\\n\", (double)"),
@@ -246,7 +241,7 @@ fn q31_header_is_bit_exact_with_the_rust_model_and_within_1e_4_of_the_peak() {
 
 #[test]
 fn a_bad_prefix_or_an_unfit_gain_is_refused_with_exit_2() {
-    let out = Command::new(env!("CARGO_BIN_EXE_leadline"))
+    let out = crate::common::command()
         .arg("export-c")
         .args(CHAIN_FLAGS)
         .args(["--prefix", "my-filter", "--out"])
@@ -255,7 +250,7 @@ fn a_bad_prefix_or_an_unfit_gain_is_refused_with_exit_2() {
         .unwrap();
     assert_eq!(out.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&out.stderr).contains("not a C identifier"));
-    let out = Command::new(env!("CARGO_BIN_EXE_leadline"))
+    let out = crate::common::command()
         .arg("export-c")
         .args(CHAIN_FLAGS)
         .args(["--gain", "3", "--format", "q31", "--out"])

@@ -179,17 +179,13 @@ fn edf_and_bdf_match_pyedflib_and_edfio_and_our_reader() {
     }
 }
 
-fn leadline() -> Command {
-    Command::new(env!("CARGO_BIN_EXE_leadline"))
-}
-
 #[test]
 fn kill_9_during_record_leaves_a_valid_file_with_all_but_the_last_second() {
     for name in ["killed.edf", "killed.bdf"] {
         let path = tmp(name);
         let _ = std::fs::remove_file(&path);
         let started = Instant::now();
-        let mut child = leadline()
+        let mut child = crate::common::command()
             .args(["record", "--source", "synth", "--seconds", "60", "--out"])
             .arg(&path)
             .spawn()
@@ -285,17 +281,12 @@ fn filter_converts_by_extension_and_each_format_reads_back() {
     let csv = tmp("conv.csv");
     store::write(&csv, &rec, store::FileUnit::Microvolts).unwrap();
     let edf_path = tmp("conv.edf");
-    let out = leadline()
-        .args(["filter", "--units", "uV", "--input"])
-        .arg(&csv)
-        .arg("--out")
-        .arg(&edf_path)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
+    crate::common::run_ok(
+        crate::common::command()
+            .args(["filter", "--units", "uV", "--input"])
+            .arg(&csv)
+            .arg("--out")
+            .arg(&edf_path),
     );
     let back = store::read(&edf_path, &ReadOptions::default()).unwrap();
     assert_eq!(back.len(), rec.len());
@@ -314,17 +305,12 @@ fn filter_converts_by_extension_and_each_format_reads_back() {
     let raw = tmp("conv.f64");
     let bdf = tmp("conv.bdf");
     for (i, o) in [(&edf_path, &raw), (&edf_path, &bdf)] {
-        let out = leadline()
-            .args(["filter", "--units", "uV", "--input"])
-            .arg(i)
-            .arg("--out")
-            .arg(o)
-            .output()
-            .unwrap();
-        assert!(
-            out.status.success(),
-            "{}",
-            String::from_utf8_lossy(&out.stderr)
+        crate::common::run_ok(
+            crate::common::command()
+                .args(["filter", "--units", "uV", "--input"])
+                .arg(i)
+                .arg("--out")
+                .arg(o),
         );
     }
     let r = store::read(
@@ -348,7 +334,7 @@ fn filter_converts_by_extension_and_each_format_reads_back() {
         assert!((x - y).abs() <= 2500.0 / 16_777_215.0, "{x} vs {y}");
     }
     // An unknown extension is refused with the list of formats (exit 2).
-    let out = leadline()
+    let out = crate::common::command()
         .args(["filter", "--input"])
         .arg(&csv)
         .arg("--out")
@@ -363,7 +349,7 @@ fn filter_converts_by_extension_and_each_format_reads_back() {
 fn record_writes_each_format_its_extension_names() {
     for ext in ["edf", "bdf", "csv", "f32"] {
         let path = tmp(&format!("rec.{ext}"));
-        let out = leadline()
+        let out = crate::common::command()
             .args([
                 "record",
                 "--source",
@@ -415,17 +401,12 @@ fn record_takes_its_source_and_chain_from_a_setup() {
     )
     .unwrap();
     let path = tmp("from-setup.edf");
-    let out = leadline()
-        .args(["record", "--seconds", "1.5", "--filtered", "--config"])
-        .arg(&setup)
-        .arg("--out")
-        .arg(&path)
-        .output()
-        .unwrap();
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
+    crate::common::run_ok(
+        crate::common::command()
+            .args(["record", "--seconds", "1.5", "--filtered", "--config"])
+            .arg(&setup)
+            .arg("--out")
+            .arg(&path),
     );
     let rec = store::read(&path, &ReadOptions::default()).unwrap();
     assert_eq!(rec.fs_hz, 250.0);
