@@ -49,6 +49,7 @@ pub mod export;
 pub mod gui;
 pub mod measure;
 pub mod msg;
+pub mod numeric;
 pub mod pipeline;
 pub mod process;
 pub mod recorder;

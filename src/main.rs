@@ -4,16 +4,12 @@
 
 use std::process::ExitCode;
 
-use clap::Parser;
 use leadline::cli::{Cli, Command, MonitorArgs};
 
 fn main() -> ExitCode {
-    let cli = Cli::parse();
+    let cli = Cli::parse_args();
     let result = match cli.command {
-        None => leadline::gui::run(&MonitorArgs {
-            size: "1280x800".into(),
-            ..MonitorArgs::default()
-        }),
+        None => leadline::gui::run(&MonitorArgs::default()),
         Some(Command::Monitor(a)) => leadline::gui::run(&a),
         Some(Command::Simulate(a)) => leadline::cli::simulate::run(&a),
         Some(Command::Sos(a)) => leadline::cli::sos::run(&a),

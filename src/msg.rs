@@ -149,8 +149,10 @@ pub struct BeatView {
     pub rate_at_s: f64,
     /// Variability over the accepted intervals.
     pub hrv: Option<Hrv>,
-    /// Signal quality.
+    /// Signal quality (noise, artefact, clipping), as of the last evaluation.
     pub quality: Quality,
+    /// How regular the rhythm is, 0–1 (None: too few intervals); never part of the quality.
+    pub regularity: Option<f64>,
     /// The averaged beat, raw and filtered.
     pub template: Option<Arc<Template>>,
 }

@@ -16,7 +16,7 @@ use crate::msg::RecordBlock;
 use crate::store::csv::CsvSink;
 use crate::store::edf::{EdfKind, EdfSpec, EdfWriter, GAP};
 use crate::store::raw::RawSink;
-use crate::store::{Sink, StoreError};
+use crate::store::{Finished, Sink, StoreError};
 
 /// File formats the recorder writes, named by extension.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -108,8 +108,11 @@ pub struct RecorderStatus {
     pub elapsed_s: f64,
     /// Bytes in the current (or last) file.
     pub bytes: u64,
-    /// Frames in the current (or last) file.
+    /// Frames in the current (or last) file: what the file holds (after a failed write, the
+    /// whole frames that reached it).
     pub frames: u64,
+    /// Frames of padding after the data in the last file (EDF/BDF fill their last record).
+    pub padded_frames: u64,
     /// Markers placed in the current (or last) file.
     pub markers: u64,
     /// Samples held at the file's range ends (EDF/BDF).
@@ -199,9 +202,11 @@ impl Active {
                 };
                 Box::new(CsvSink::create(&path, b.fs_hz, b.channels, note)?)
             }
-            RecordFormat::F32 | RecordFormat::F64 => {
-                Box::new(RawSink::create(&path, self.format == RecordFormat::F32)?)
-            }
+            RecordFormat::F32 | RecordFormat::F64 => Box::new(RawSink::create(
+                &path,
+                self.format == RecordFormat::F32,
+                b.channels,
+            )?),
         };
         self.sink = Some(sink);
         for text in std::mem::take(&mut self.early) {
@@ -300,8 +305,33 @@ impl Active {
         self.sink.as_ref().map_or(0, |s| s.clipped())
     }
 
-    fn finish(self) -> Result<u64, StoreError> {
-        self.sink.map_or(Ok(0), |s| s.finish())
+    /// Closes the file. After a failed write (`failed`) nothing more is written: the file is
+    /// cut back to its whole frames. Returns what the file holds, and the error if closing
+    /// failed.
+    fn finish(self, failed: bool) -> (Finished, Option<StoreError>) {
+        let Some(mut sink) = self.sink else {
+            return (Finished::default(), None);
+        };
+        if failed {
+            sink.cut_to_held();
+            let held = Finished {
+                bytes: sink.bytes(),
+                frames: sink.frames_held(),
+                padded_frames: 0,
+            };
+            return (held, None);
+        }
+        match sink.finish() {
+            Ok(f) => (f, None),
+            Err(e) => (
+                Finished {
+                    bytes: sink.bytes(),
+                    frames: sink.frames_held(),
+                    padded_frames: 0,
+                },
+                Some(e),
+            ),
+        }
     }
 }
 
@@ -318,23 +348,36 @@ fn human_bytes(b: u64) -> String {
 /// Finishes a recording and says how it ended (`why`: the write error that stopped it).
 fn end(status: &StatusHandle, a: Active, why: Option<String>) {
     let path = a.req.path.clone();
-    let (frames, markers, elapsed) = (a.frames, a.markers, a.now_s());
-    let clipped = a.clipped();
-    let result = a.finish();
+    let (markers, clipped, fs) = (a.markers, a.clipped(), a.time_fs);
+    let (held, error) = a.finish(why.is_some());
+    let elapsed = if fs > 0.0 {
+        held.frames as f64 / fs
+    } else {
+        0.0
+    };
     set(status, &|s| {
         s.active = None;
-        s.frames = frames;
+        s.frames = held.frames;
+        s.padded_frames = held.padded_frames;
         s.markers = markers;
         s.elapsed_s = elapsed;
         s.clipped = clipped;
-        match (&result, &why) {
-            (Ok(bytes), None) => {
-                s.bytes = *bytes;
+        s.bytes = held.bytes;
+        match (&error, &why) {
+            (None, None) => {
                 s.failed = false;
                 s.message = format!(
-                    "saved {} ({elapsed:.1} s, {}){}",
+                    "saved {} ({elapsed:.1} s, {}){}{}",
                     path.display(),
-                    human_bytes(*bytes),
+                    human_bytes(held.bytes),
+                    if held.padded_frames > 0 {
+                        format!(
+                            "; the last record is filled with {} frames of padding after the data's end (marked in the file)",
+                            held.padded_frames
+                        )
+                    } else {
+                        String::new()
+                    },
                     if clipped > 0 {
                         format!(
                             "; {clipped} samples were outside the file's range and held at its ends"
@@ -346,11 +389,17 @@ fn end(status: &StatusHandle, a: Active, why: Option<String>) {
             }
             (_, Some(w)) => {
                 s.failed = true;
-                s.message = format!("recording stopped: {w}; what was written before is kept");
+                s.message = format!(
+                    "recording stopped: {w}; the file keeps the {} whole frames written before",
+                    held.frames
+                );
             }
-            (Err(e), None) => {
+            (Some(e), None) => {
                 s.failed = true;
-                s.message = format!("recording stopped: {e}; what was written before is kept");
+                s.message = format!(
+                    "recording stopped: {e}; the file keeps the {} whole frames written before",
+                    held.frames
+                );
             }
         }
     });

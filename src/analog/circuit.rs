@@ -6,7 +6,7 @@
 //! Layout of each stage (nodes `in` → … → `out`, ground `0`):
 //! - in-amp: U (gain 1 + K/Rg) with Rg across its gain pins;
 //! - RC high-/low-pass, then a unity follower (the next stage must not load it);
-//! - unity-gain Sallen–Key high-/low-pass (REFERENCE.md §7, TI "Op Amps for Everyone" ch. 16);
+//! - unity-gain Sallen–Key high-/low-pass (docs/REFERENCES.md §7, TI "Op Amps for Everyone" ch. 16);
 //! - twin-T: each R made of two series E-series resistors, R/2 of two such R in parallel, 2C of two
 //!   C in parallel; the T's output buffered by a follower, whose output feeds a divider
 //!   (Rk1 over Rk2) setting k; a second follower drives the T's centre node with k·V_out.
@@ -501,27 +501,15 @@ pub fn notch_tolerance(stage: &mut Stage, t: &super::tolerance::Tolerances, main
         centre.push(fc);
     }
     let pct = |v: &mut Vec<f64>| Percentiles {
-        p5: if v.is_empty() {
-            f64::NAN
-        } else {
-            super::tolerance::percentile(v, 0.05)
-        },
-        p50: if v.is_empty() {
-            f64::NAN
-        } else {
-            super::tolerance::percentile(v, 0.50)
-        },
-        p95: if v.is_empty() {
-            f64::NAN
-        } else {
-            super::tolerance::percentile(v, 0.95)
-        },
+        p5: crate::numeric::percentile(v, 5.0),
+        p50: crate::numeric::percentile(v, 50.0),
+        p95: crate::numeric::percentile(v, 95.0),
     };
     let share = misses as f64 / draws as f64;
     stage.notch_depth_db = Some(pct(&mut depth));
     stage.notch_centre_hz = Some(pct(&mut centre));
     stage.miss_share = Some(share);
-    // The mains band: ±1 % of nominal (EN 50160, 99.5 % of a year; REFERENCE.md §3).
+    // The mains band: ±1 % of nominal (EN 50160, 99.5 % of a year; docs/REFERENCES.md §3).
     stage.mains_band_hz = Some((0.99 * mains_hz, 1.01 * mains_hz));
     stage.centre_in_band_share = Some(in_band as f64 / draws as f64);
     let mut advice = Vec::new();
@@ -556,7 +544,7 @@ mod tests {
 
     #[test]
     fn each_stage_of_the_circuit_equals_its_transfer_function() {
-        // The nodal analysis of the built circuit against the stages' exact H(s) (REFERENCE.md
+        // The nodal analysis of the built circuit against the stages' exact H(s) (docs/REFERENCES.md
         // §7: Sallen–Key after TI's "Op Amps for Everyone"; twin-T H(s) from sympy).
         let stages = realise(&ChainSettings::default(), &PartsOptions::default()).unwrap();
         for (i, s) in stages.iter().enumerate() {
@@ -627,5 +615,20 @@ mod notch_tests {
         let q2 = notch_only(2.0, 0.01, 0.05).miss_share.unwrap();
         let q30 = notch_only(30.0, 0.01, 0.05).miss_share.unwrap();
         assert!(q2 < q30, "Q 2: {q2}, Q 30: {q30}");
+    }
+
+    #[test]
+    fn notch_centre_percentiles_straddle_the_built_centre() {
+        // Parts drawn symmetrically about their values (±1 % R, ±5 % C) scatter the centre
+        // both ways: its 5th and 95th percentiles must lie either side of the built centre, and
+        // the median near it (a 0–1 fraction passed as a percentile once put all three below).
+        let s = notch_only(10.0, 0.01, 0.05);
+        let c = s.notch_centre_hz.unwrap();
+        let built = s.realised_hz.unwrap();
+        assert!(c.p5 < built && built < c.p95, "{c:?} around {built}");
+        assert!((c.p50 - built).abs() < 0.01 * built, "{c:?} around {built}");
+        // f0 = 1/(2πRC) moves by about ±5 % with these parts: the 90 % interval is wider than
+        // 1 Hz at 50 Hz and narrower than 10 Hz.
+        assert!(c.p95 - c.p5 > 1.0 && c.p95 - c.p5 < 10.0, "{c:?}");
     }
 }

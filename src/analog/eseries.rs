@@ -122,7 +122,7 @@ mod tests {
 
     #[test]
     fn iec_60063_values() {
-        // REFERENCE.md §7 and §9 #20 [S] (Wikipedia "E series of preferred numbers"; IEC 60063).
+        // docs/REFERENCES.md §7 and §9 #20 [S] (Wikipedia "E series of preferred numbers"; IEC 60063).
         let e24 = Series::E24.values();
         assert_eq!(e24.len(), 24);
         assert!(e24.contains(&4.3) && !e24.contains(&4.2));
@@ -134,7 +134,7 @@ mod tests {
             Series::E48.values(),
             e96.iter().step_by(2).copied().collect::<Vec<_>>()
         );
-        // E24 has 8 values that the rounding rule does not give (REFERENCE.md §7 [C]).
+        // E24 has 8 values that the rounding rule does not give (docs/REFERENCES.md §7 [C]).
         let rule: Vec<f64> = (0..24)
             .map(|i| (10f64.powf(i as f64 / 24.0) * 10.0).round() / 10.0)
             .collect();
@@ -144,7 +144,7 @@ mod tests {
 
     #[test]
     fn nearest_and_pairs() {
-        // REFERENCE.md §9 #16 [C]: 28.135 kΩ → 27 kΩ in E24, 28.0 kΩ in E96.
+        // docs/REFERENCES.md §9 #16 [C]: 28.135 kΩ → 27 kΩ in E24, 28.0 kΩ in E96.
         assert_eq!(Series::E24.nearest(28_135.0), 27_000.0);
         assert_eq!(Series::E96.nearest(28_135.0), 28_000.0);
         assert_eq!(Series::E12.nearest(0.096), 0.1);

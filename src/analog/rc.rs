@@ -28,7 +28,7 @@ mod tests {
 
     #[test]
     fn reference_rc_corners() {
-        // REFERENCE.md §9 #15 [C] (fc = 1/(2πRC), textbook): 3.3 MΩ × 1 µF → 0.04823 Hz;
+        // docs/REFERENCES.md §9 #15 [C] (fc = 1/(2πRC), textbook): 3.3 MΩ × 1 µF → 0.04823 Hz;
         // τ = 3.2 s → 0.0497 Hz; 0.05 Hz ↔ τ = 3.183 s.
         assert!((corner_hz(3.3e6, 1e-6) - 0.04823).abs() < 1e-5);
         assert!((corner_hz(3.2e6, 1e-6) - 0.0497).abs() < 1e-4);

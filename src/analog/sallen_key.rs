@@ -56,7 +56,7 @@ mod tests {
 
     #[test]
     fn reference_sallen_key_values() {
-        // REFERENCE.md §9 #16 [C] (TI Op Amps for Everyone ch. 16; sympy): LP 40 Hz, Q 0.7071,
+        // docs/REFERENCES.md §9 #16 [C] (TI Op Amps for Everyone ch. 16; sympy): LP 40 Hz, Q 0.7071,
         // C2 = 100 nF, C1 = 200 nF → equal R = 28.135 kΩ.
         let (r1, r2) =
             lowpass_resistors(40.0, std::f64::consts::FRAC_1_SQRT_2, 200e-9, 100e-9).unwrap();

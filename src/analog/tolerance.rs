@@ -35,20 +35,7 @@ impl Default for Tolerances {
     }
 }
 
-/// The p-th percentile (0–100) of `v` (sorted in place), by linear interpolation.
-pub fn percentile(v: &mut [f64], p: f64) -> f64 {
-    v.sort_by(f64::total_cmp);
-    if v.is_empty() {
-        return f64::NAN;
-    }
-    let x = p / 100.0 * (v.len() - 1) as f64;
-    let (i, f) = (x.floor() as usize, x.fract());
-    if i + 1 < v.len() {
-        v[i] * (1.0 - f) + v[i + 1] * f
-    } else {
-        v[i]
-    }
-}
+pub use crate::numeric::percentile;
 
 /// A value drawn uniformly within ±`tol` of `nominal`.
 pub fn draw(rng: &mut Rng, nominal: f64, tol: f64) -> f64 {

@@ -31,7 +31,7 @@ mod tests {
 
     #[test]
     fn reference_twin_t_values() {
-        // REFERENCE.md §9 #19 [C] (sympy) / [S] f0 = 1/(2πRC): 50 Hz with 100 nF → R = 31.831 kΩ;
+        // docs/REFERENCES.md §9 #19 [C] (sympy) / [S] f0 = 1/(2πRC): 50 Hz with 100 nF → R = 31.831 kΩ;
         // 60 Hz → 26.526 kΩ; Q(k) = 0.25, 0.5, 1, 2.5, 5, 12.5 for k = 0, .5, .75, .9, .95, .98.
         let r50 = 1.0 / (TAU * 50.0 * 100e-9);
         assert!((r50 - 31_831.0).abs() < 1.0 && (f0_hz(r50, 100e-9) - 50.0).abs() < 1e-9);

@@ -216,6 +216,11 @@ pub fn analyse(x_uv: &[f64], fs: f64, psd: &Psd) -> Result<MainsReport, MainsErr
             rms_uv: rms_at(hz),
         });
     }
+    if harmonics.is_empty() || !f0.is_finite() {
+        // The fundamental sits at or above Nyquist's guard (a rate just over 100 Hz), or the
+        // signal holds values that are not numbers.
+        return Err(MainsError::RateTooLow(fs));
+    }
     let near_mains = |f: f64| {
         harmonics
             .iter()

@@ -3,7 +3,9 @@
 //! and band powers ([`mains`]); surface EMG ([`emg`]).
 
 pub mod beats;
+pub mod devset;
 pub mod emg;
+pub mod heldout;
 pub mod mains;
 pub mod quality;
 pub mod rate;

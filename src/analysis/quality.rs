@@ -1,7 +1,9 @@
 //! Is the signal good enough to count beats? Judged over the last two seconds of input-referred µV
 //! and the converter's rail flags: a floating input (lead off), a flat line, clipping, and heavy
 //! noise (the QRS detector's signal level hardly above its noise level) each lower a simple
-//! quality index; the heart rate is suppressed below 0.5.
+//! quality index; the heart rate is suppressed below 0.5. The index speaks of the signal only,
+//! never of the rhythm: how regular the beats come is the rate meter's own figure
+//! (`RateMeter::regularity`), so a clean irregular rhythm reads as a clean signal.
 
 use std::collections::VecDeque;
 
@@ -117,9 +119,7 @@ impl QualityMonitor {
         if self.r_amps.len() < 5 {
             return None;
         }
-        let mut v: Vec<f64> = self.r_amps.iter().copied().collect();
-        v.sort_by(f64::total_cmp);
-        Some(v[v.len() / 2])
+        Some(crate::numeric::median(&self.r_amps))
     }
 
     /// Share of the window's samples that sat on an ADC rail.
@@ -161,8 +161,15 @@ impl QualityMonitor {
         } else if rail_frac > 0.01 {
             (0.4, Some(Problem::Clipping))
         } else {
+            // Two views of the noise, the better one counts: the detector's signal level over
+            // its noise level (which an irregular rhythm's tall T waves also raise), and the
+            // beats' median R amplitude over the noise between samples (which it does not).
             let snr = self.detector_snr.unwrap_or(10.0);
-            (0.5 + 0.5 * ((snr - 2.5) / 7.5).clamp(0.0, 1.0), None)
+            let by_detector = ((snr - 2.5) / 7.5).clamp(0.0, 1.0);
+            let by_noise = self.noise_ratio_db().map_or(0.0, |db| {
+                ((db - NOISE_DB_POOR) / (NOISE_DB_CLEAN - NOISE_DB_POOR)).clamp(0.0, 1.0)
+            });
+            (0.5 + 0.5 * by_detector.max(by_noise), None)
         };
         Quality {
             index,
@@ -172,11 +179,40 @@ impl QualityMonitor {
     }
 }
 
+/// R amplitude over the sample-to-sample noise at which the noise view calls a signal poor (no
+/// credit) and clean (full credit), dB: an R wave 10× and 100× the noise's standard deviation
+/// (common practice for a readable ECG trace, our own choice of ends).
+const NOISE_DB_POOR: f64 = 20.0;
+const NOISE_DB_CLEAN: f64 = 40.0;
+
+impl QualityMonitor {
+    /// The beats' median R amplitude over the noise of the window, dB. The noise is the robust
+    /// standard deviation of the first differences (median |Δx| / (0.6745·√2), exact for white
+    /// noise), which the QRS (a few percent of the samples) and slow waves hardly move. None
+    /// before 5 beats.
+    pub fn noise_ratio_db(&self) -> Option<f64> {
+        let r = self.median_r_uv()?;
+        let mut d: Vec<f64> = self
+            .values
+            .iter()
+            .zip(self.values.iter().skip(1))
+            .map(|(a, b)| (b - a).abs())
+            .collect();
+        if d.len() < 8 {
+            return None;
+        }
+        let sigma = (crate::numeric::percentile(&mut d, 50.0)
+            / (0.674_49 * std::f64::consts::SQRT_2))
+            .max(0.1);
+        Some(20.0 * (r / sigma).log10())
+    }
+}
+
 /// Beats whose R amplitude the scaling check keeps.
 const R_AMPS_KEPT: usize = 15;
 
 /// Plausible R amplitudes at the electrodes, µV: 0.1–5 mV (common practice for surface ECG;
-/// REFERENCE.md §3 gives 0.1–5 mV for ECG amplitudes).
+/// docs/REFERENCES.md §3 gives 0.1–5 mV for ECG amplitudes).
 pub const PLAUSIBLE_R_UV: (f64, f64) = (100.0, 5000.0);
 
 /// The scaling check from its two figures (see [`QualityMonitor::scale_check`]).

@@ -24,6 +24,10 @@ pub struct RateSample {
     pub time_s: f64,
     /// What the readout showed.
     pub state: RateState,
+    /// The signal quality shown with it, % (noise, artefact, clipping; not the rhythm).
+    pub quality_pct: f64,
+    /// How regular the rhythm was, % of successive intervals within 12 % (None: too few).
+    pub regularity_pct: Option<f64>,
 }
 
 /// Detector, meter and quality check of one channel.
@@ -33,6 +37,7 @@ pub struct Readout {
     detector: Detector,
     meter: RateMeter,
     quality: QualityMonitor,
+    last_quality: super::quality::Quality,
     /// Sample index of the next evaluation.
     next_eval: u64,
     /// Step between evaluations, samples (one second, rounded).
@@ -58,6 +63,11 @@ impl Readout {
             detector: Detector::new(fs)?,
             meter: RateMeter::new(fs),
             quality: QualityMonitor::new(fs),
+            last_quality: super::quality::Quality {
+                index: 0.0,
+                problem: None,
+                inverted: false,
+            },
             next_eval: eval_every,
             eval_every,
             shown: RateState::Settling,
@@ -96,6 +106,11 @@ impl Readout {
     /// The quality check.
     pub fn quality(&self) -> &QualityMonitor {
         &self.quality
+    }
+
+    /// The quality verdict of the last evaluation: the figure the readout shows.
+    pub fn shown_quality(&self) -> super::quality::Quality {
+        self.last_quality
     }
 
     /// One block of the channel (µV) and, per sample, whether it sat on an ADC rail (`rails`
@@ -181,9 +196,12 @@ impl Readout {
                     self.next_eval,
                 );
                 self.shown = self.meter.state(self.next_eval);
+                self.last_quality = q;
                 evals.push(RateSample {
                     time_s: self.next_eval as f64 / self.fs,
                     state: self.shown,
+                    quality_pct: 100.0 * q.index,
+                    regularity_pct: self.meter.regularity().map(|r| 100.0 * r),
                 });
                 self.next_eval += self.eval_every;
             }

@@ -52,15 +52,18 @@ pub fn run(a: &BeatsArgs) -> Result<usize> {
     }
     let meter = readout.meter();
     if let Some(path) = &a.rate_out {
-        let mut rate = String::from("time_s,bpm,state,reason\n");
+        let mut rate = String::from("time_s,bpm,state,reason,quality_pct,regularity_pct\n");
         for e in &evals {
             let _ = writeln!(
                 rate,
-                "{},{},{},{}",
+                "{},{},{},{},{:.0},{}",
                 e.time_s,
                 e.state.bpm().map_or(String::new(), |b| format!("{b:.1}")),
                 e.state.name(),
-                e.state.reason()
+                e.state.reason(),
+                e.quality_pct,
+                e.regularity_pct
+                    .map_or(String::new(), |r| format!("{r:.0}"))
             );
         }
         std::fs::write(path, rate).with_context(|| format!("cannot write {}", path.display()))?;

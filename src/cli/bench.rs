@@ -3,7 +3,7 @@
 use std::hint::black_box;
 use std::time::Instant;
 
-use anyhow::Result;
+use anyhow::{Context, Result};
 use serde::Serialize;
 
 use super::{BenchArgs, BenchWhat};
@@ -205,9 +205,61 @@ struct BeatFigures {
     /// The heart-rate readout as `leadline beats` and the monitor run it: detector, meter,
     /// quality, shape check and the once-a-second evaluation, in 10 ms blocks.
     readout_ms: f64,
+    /// The annotated records scored with the product's tuning (in-sample: these records are
+    /// the ones the tuning was chosen on).
+    in_sample: Vec<RecordFigure>,
+    in_sample_gross_se_pct: f64,
+    in_sample_gross_ppv_pct: f64,
+    /// Tuned on three records, scored on the other two, all ten splits.
+    held_out: Option<crate::analysis::heldout::SplitReport>,
+    /// The simulator-made development set, with the product's tuning.
+    development: Vec<crate::analysis::devset::CaseScore>,
 }
 
-fn beats(record: Option<&std::path::Path>) -> Result<BeatFigures> {
+#[derive(Serialize)]
+struct RecordFigure {
+    name: String,
+    se_pct: f64,
+    ppv_pct: f64,
+}
+
+/// The annotated records in `dir`: every `NAME.hea` with a `NAME.beats.csv` of reference beats
+/// (first column: sample index).
+///
+/// # Errors
+/// A record or its annotations cannot be read.
+pub fn annotated(dir: &std::path::Path) -> Result<Vec<crate::analysis::heldout::Annotated>> {
+    let mut names: Vec<String> = std::fs::read_dir(dir)
+        .with_context(|| format!("cannot list {}", dir.display()))?
+        .filter_map(|e| e.ok())
+        .filter_map(|e| {
+            let p = e.path();
+            (p.extension().is_some_and(|x| x == "hea") && p.with_extension("beats.csv").exists())
+                .then(|| p.file_stem()?.to_str().map(str::to_string))
+                .flatten()
+        })
+        .collect();
+    names.sort();
+    let mut out = Vec::new();
+    for name in names {
+        let r = crate::store::wfdb::read(&dir.join(format!("{name}.hea")))?;
+        let text = std::fs::read_to_string(dir.join(format!("{name}.beats.csv")))?;
+        let reference = text
+            .lines()
+            .skip(1)
+            .filter_map(|l| l.split(',').next()?.trim().parse::<u64>().ok())
+            .collect();
+        out.push(crate::analysis::heldout::Annotated {
+            name,
+            fs_hz: r.fs_hz,
+            x: r.channels.into_iter().next().unwrap_or_default(),
+            reference,
+        });
+    }
+    Ok(out)
+}
+
+fn beats(record: Option<&std::path::Path>, dir: &std::path::Path) -> Result<BeatFigures> {
     let (name, fs, x) = match record {
         Some(p) => {
             let r = crate::store::wfdb::read(p)?;
@@ -254,6 +306,27 @@ fn beats(record: Option<&std::path::Path>) -> Result<BeatFigures> {
         }
         readout_best = readout_best.min(t.elapsed().as_secs_f64());
     }
+    use crate::analysis::beats::{Score, Tuning};
+    let records = if dir.is_dir() {
+        annotated(dir)?
+    } else {
+        Vec::new()
+    };
+    let mut gross = Score::default();
+    let in_sample = records
+        .iter()
+        .map(|r| {
+            let s = crate::analysis::heldout::score_record(r, Tuning::default(), 0);
+            gross = gross.add(&s);
+            RecordFigure {
+                name: r.name.clone(),
+                se_pct: 100.0 * s.se(),
+                ppv_pct: 100.0 * s.ppv(),
+            }
+        })
+        .collect();
+    let held_out = (records.len() >= 3)
+        .then(|| crate::analysis::heldout::cross_check(&records, &Tuning::grid()));
     Ok(BeatFigures {
         record: name,
         samples: x.len(),
@@ -261,6 +334,11 @@ fn beats(record: Option<&std::path::Path>) -> Result<BeatFigures> {
         beats: n,
         detect_ms: best * 1e3,
         readout_ms: readout_best * 1e3,
+        in_sample,
+        in_sample_gross_se_pct: 100.0 * gross.se(),
+        in_sample_gross_ppv_pct: 100.0 * gross.ppv(),
+        held_out,
+        development: crate::analysis::devset::score_all(Tuning::default()),
     })
 }
 
@@ -543,11 +621,51 @@ pub fn run(a: &BenchArgs) -> Result<()> {
             println!("{}", serde_json::to_string(&f)?);
         }
         BenchWhat::Beats => {
-            let f = beats(a.record.as_deref())?;
+            let f = beats(a.record.as_deref(), &a.annotated)?;
             println!(
                 "{}: {} samples at {} Hz, {} beats in {:.1} ms (detector alone); the whole readout in 10 ms blocks: {:.1} ms",
                 f.record, f.samples, f.fs_hz, f.beats, f.detect_ms, f.readout_ms
             );
+            for r in &f.in_sample {
+                println!(
+                    "in-sample  {:>6}: Se {:6.2} %  +P {:6.2} %",
+                    r.name, r.se_pct, r.ppv_pct
+                );
+            }
+            if !f.in_sample.is_empty() {
+                println!(
+                    "in-sample  gross : Se {:6.2} %  +P {:6.2} %",
+                    f.in_sample_gross_se_pct, f.in_sample_gross_ppv_pct
+                );
+            }
+            if let Some(h) = &f.held_out {
+                for r in &h.records {
+                    println!(
+                        "held out   {:>6}: Se {:6.2} %  +P {:6.2} %  (tuned on 3 others, 4 splits)",
+                        r.name, r.se_pct, r.ppv_pct
+                    );
+                }
+                println!(
+                    "held out   gross : Se {:6.2} %  +P {:6.2} %  over {} splits",
+                    h.gross_se_pct,
+                    h.gross_ppv_pct,
+                    h.splits.len()
+                );
+                for (t, w) in h.wins.iter().filter(|w| w.1 > 0) {
+                    println!(
+                        "  chosen {w} times: threshold {}, search back after {} RR, relocation {}",
+                        t.threshold,
+                        t.search_back_rr,
+                        if t.relocate { "on" } else { "off" }
+                    );
+                }
+            }
+            for c in &f.development {
+                println!(
+                    "development {:<18}: {:4} beats  Se {:6.2} %  +P {:6.2} %",
+                    c.case, c.beats, c.se_pct, c.ppv_pct
+                );
+            }
             println!("{}", serde_json::to_string(&f)?);
         }
         BenchWhat::Wire => {

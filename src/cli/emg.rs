@@ -21,8 +21,15 @@ struct Report<'a> {
     advice: Vec<String>,
 }
 
-fn pair(v: Option<&Vec<f64>>) -> Option<(f64, f64)> {
-    v.and_then(|v| (v.len() == 2).then(|| (v[0], v[1])))
+/// A START,END pair of seconds, in order.
+fn pair(v: Option<&Vec<f64>>, name: &str) -> Result<Option<(f64, f64)>, BadInput> {
+    match v.map(Vec::as_slice) {
+        None => Ok(None),
+        Some(&[a, b]) if a < b => Ok(Some((a, b))),
+        Some(_) => Err(BadInput(format!(
+            "--{name}: expected START,END in seconds with START before END"
+        ))),
+    }
 }
 
 /// Runs the command.
@@ -34,13 +41,20 @@ pub fn run(a: &EmgArgs) -> Result<()> {
     let x = &rec.channels[ch];
     let fs = rec.fs_hz;
     let settings = EmgSettings {
-        band_hz: (a.band[0], a.band.get(1).copied().unwrap_or(450.0)),
+        band_hz: match a.band.as_slice() {
+            &[lo, hi] if lo < hi => (lo, hi),
+            _ => {
+                return Err(
+                    BadInput("--band: expected LOW,HIGH in Hz with LOW below HIGH".into()).into(),
+                );
+            }
+        },
         notch_hz: a.notch,
         envelope_hz: a.envelope_hz,
         rms_ms: a.rms_ms,
         k_sd: a.k,
-        baseline_s: pair(a.baseline.as_ref()),
-        mvc_s: pair(a.mvc.as_ref()),
+        baseline_s: pair(a.baseline.as_ref(), "baseline")?,
+        mvc_s: pair(a.mvc.as_ref(), "mvc")?,
         ..EmgSettings::default()
     };
     let an = analyse(x, fs, &settings).map_err(|e| BadInput(e.to_string()))?;

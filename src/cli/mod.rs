@@ -7,6 +7,7 @@ pub mod emg;
 pub mod export_c;
 pub mod filter;
 pub mod measure;
+pub mod num;
 pub mod parts;
 pub mod record;
 pub mod response;
@@ -34,6 +35,42 @@ use clap::{Args, Parser, Subcommand, ValueEnum};
 pub struct Cli {
     #[command(subcommand)]
     pub command: Option<Command>,
+}
+
+impl Cli {
+    /// The command line's definition: negative numbers reach the range checks (so `--fs -1`
+    /// says what range it wants instead of "unexpected argument").
+    pub fn definition() -> clap::Command {
+        fn negatives(c: clap::Command) -> clap::Command {
+            c.allow_negative_numbers(true).mut_subcommands(negatives)
+        }
+        negatives(<Cli as clap::CommandFactory>::command())
+    }
+
+    /// Parses the process's arguments. A value out of its range is one line on stderr and exit 2;
+    /// help and version print as usual.
+    pub fn parse_args() -> Self {
+        use clap::FromArgMatches as _;
+        let parsed = Self::definition()
+            .try_get_matches()
+            .and_then(|m| Self::from_arg_matches(&m));
+        match parsed {
+            Ok(cli) => cli,
+            Err(e) => {
+                use clap::error::ErrorKind;
+                if matches!(
+                    e.kind(),
+                    ErrorKind::ValueValidation | ErrorKind::InvalidValue
+                ) {
+                    let text = e.to_string();
+                    let line = text.lines().next().unwrap_or_default();
+                    eprintln!("leadline: {}", line.trim_start_matches("error: "));
+                    std::process::exit(2);
+                }
+                e.exit()
+            }
+        }
+    }
 }
 
 /// The caution every command that touches a person's signal prints in its help.
@@ -103,19 +140,19 @@ pub struct SoundArgs {
     #[arg(long)]
     pub signal: bool,
     /// Tone pitch, Hz (200–4000).
-    #[arg(long, default_value_t = 1000.0, value_name = "HZ")]
+    #[arg(value_parser = num::real(200.0, 4000.0, "Hz"), long, default_value_t = 1000.0, value_name = "HZ")]
     pub pitch: f64,
     /// Tone volume, 0–1 of full scale.
-    #[arg(long, default_value_t = 0.3, value_name = "V")]
+    #[arg(value_parser = num::real(0.0, 1.0, ""), long, default_value_t = 0.3, value_name = "V")]
     pub volume: f64,
     /// Tone length, ms.
-    #[arg(long, default_value_t = 60.0, value_name = "MS")]
+    #[arg(value_parser = num::real(5.0, 1000.0, "ms"), long, default_value_t = 60.0, value_name = "MS")]
     pub tone_ms: f64,
     /// Signal gain: 1 mV is full scale × this (a limiter keeps peaks under 0.9).
-    #[arg(long, default_value_t = 1.0, value_name = "G")]
+    #[arg(value_parser = num::real(0.01, 1000.0, ""), long, default_value_t = 1.0, value_name = "G")]
     pub signal_gain: f64,
     /// Output rate, Hz.
-    #[arg(long, default_value_t = crate::sound::DEFAULT_RATE_HZ, value_name = "HZ")]
+    #[arg(value_parser = num::whole::<u32>(8000, 192_000), long, default_value_t = crate::sound::DEFAULT_RATE_HZ, value_name = "HZ")]
     pub rate: u32,
     /// The WAV file (16-bit PCM mono).
     #[arg(long, value_name = "FILE")]
@@ -131,26 +168,26 @@ pub struct EmgArgs {
     #[arg(long, default_value = "0", value_name = "K|NAME")]
     pub channel: String,
     /// Resting baseline for the onset threshold, s: START,END (default: the quietest second).
-    #[arg(long, value_name = "START,END", value_delimiter = ',', num_args = 2)]
+    #[arg(value_parser = num::time_s(), long, value_name = "START,END", value_delimiter = ',')]
     pub baseline: Option<Vec<f64>>,
     /// A maximum voluntary contraction, s: START,END; each contraction's RMS is then also
     /// given as % of it.
-    #[arg(long, value_name = "START,END", value_delimiter = ',', num_args = 2)]
+    #[arg(value_parser = num::time_s(), long, value_name = "START,END", value_delimiter = ',')]
     pub mvc: Option<Vec<f64>>,
     /// Linear envelope's low-pass corner, Hz (2–10).
-    #[arg(long, default_value_t = 6.0, value_name = "HZ")]
+    #[arg(value_parser = num::real(0.5, 50.0, "Hz"), long, default_value_t = 6.0, value_name = "HZ")]
     pub envelope_hz: f64,
     /// Moving-RMS window, ms (50–250).
-    #[arg(long, default_value_t = 100.0, value_name = "MS")]
+    #[arg(value_parser = num::real(10.0, 2000.0, "ms"), long, default_value_t = 100.0, value_name = "MS")]
     pub rms_ms: f64,
     /// Onset threshold: baseline mean + K standard deviations.
-    #[arg(long, default_value_t = 3.0, value_name = "K")]
+    #[arg(value_parser = num::real(0.5, 20.0, ""), long, default_value_t = 3.0, value_name = "K")]
     pub k: f64,
     /// Band-pass corners, Hz: LOW,HIGH.
-    #[arg(long, value_name = "LOW,HIGH", value_delimiter = ',', num_args = 2, default_values_t = [20.0, 450.0])]
+    #[arg(value_parser = num::corner_hz(), long, value_name = "LOW,HIGH", value_delimiter = ',', default_values_t = [20.0, 450.0])]
     pub band: Vec<f64>,
     /// Mains notch at this frequency and its harmonics in the band, Hz (50 or 60).
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::mains_hz(), long, value_name = "HZ")]
     pub notch: Option<f64>,
     /// CSV: time_s,envelope_uv,rms_uv.
     #[arg(long, value_name = "FILE")]
@@ -193,7 +230,7 @@ pub struct MeasureResponseArgs {
     #[arg(long, value_name = "K|NAME")]
     pub output: String,
     /// Welch segment length (power of two, 256–16384); default about 8 s.
-    #[arg(long, value_name = "N")]
+    #[arg(value_parser = num::whole::<usize>(256, 16_384), long, value_name = "N")]
     pub segment: Option<usize>,
     /// CSV: freq_hz,mag_db,phase_deg,coherence.
     #[arg(long, value_name = "FILE")]
@@ -215,7 +252,7 @@ pub struct MeasureStepsArgs {
     #[command(flatten)]
     pub src: InputArgs,
     /// The generator's amplitude at the electrodes, µV peak.
-    #[arg(long, value_name = "UV")]
+    #[arg(value_parser = num::real(0.1, 1e6, "µV"), long, value_name = "UV")]
     pub amplitude_uv: f64,
     /// Channel, index or name.
     #[arg(long, default_value = "0", value_name = "K|NAME")]
@@ -236,13 +273,13 @@ pub struct MeasureNoiseArgs {
     #[command(flatten)]
     pub src: InputArgs,
     /// Band, Hz (zero-phase band-pass).
-    #[arg(long, value_name = "LO,HI", value_delimiter = ',', default_values_t = [0.05, 150.0])]
+    #[arg(value_parser = num::corner_hz(), long, value_name = "LO,HI", value_delimiter = ',', default_values_t = [0.05, 150.0])]
     pub band: Vec<f64>,
     /// Channel, index or name.
     #[arg(long, default_value = "0", value_name = "K|NAME")]
     pub channel: String,
     /// Limit, µV peak-to-peak (default 30: recalled from memory of the ECG standards).
-    #[arg(long, default_value_t = 30.0, value_name = "UV")]
+    #[arg(value_parser = num::real(0.1, 1e6, "µV"), long, default_value_t = 30.0, value_name = "UV")]
     pub limit_uv: f64,
     /// JSON: rms_uv, p2p_uv, density_uv_per_rthz, corner_hz, pass.
     #[arg(long, value_name = "FILE")]
@@ -255,10 +292,10 @@ pub struct MeasureCmrrArgs {
     #[command(flatten)]
     pub src: InputArgs,
     /// The common-mode amplitude applied, µV RMS (1 V RMS = 1000000).
-    #[arg(long, value_name = "UV")]
+    #[arg(value_parser = num::real(1.0, 1e7, "µV"), long, value_name = "UV")]
     pub cm_uv: f64,
     /// Its frequency, Hz (default: the mains, 50).
-    #[arg(long, default_value_t = 50.0, value_name = "HZ")]
+    #[arg(value_parser = num::corner_hz(), long, default_value_t = 50.0, value_name = "HZ")]
     pub cm_hz: f64,
     /// The generator was stepped through frequencies by hand: one CMRR per steady step (the
     /// report gains `steps`).
@@ -278,7 +315,7 @@ pub struct ConformArgs {
     #[command(flatten)]
     pub chain: ChainArgs,
     /// Sample rate the chain runs at, Hz.
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
     pub fs: f64,
     /// Judge for diagnostic recording (0.67 Hz at −0.9 dB, 150 Hz) instead of monitoring
     /// (−3 dB, 40 Hz).
@@ -302,7 +339,7 @@ pub struct ExportCArgs {
     #[command(flatten)]
     pub chain: ChainArgs,
     /// Sample rate the firmware runs the filter at, Hz.
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
     pub fs: f64,
     /// Sample format: f32 (float), q15 (int16_t), q31 (int32_t).
     #[arg(long, value_enum, default_value_t = CFormatArg::F32)]
@@ -341,28 +378,28 @@ pub struct PartsArgs {
     #[command(flatten)]
     pub chain: ChainArgs,
     /// Sample rate of the digital chain the parts stand in for, Hz.
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
     pub fs: f64,
     /// Resistor series: E6, E12, E24, E48, E96, E192.
     #[arg(long, default_value = "E24", value_name = "SERIES")]
     pub series: String,
     /// A capacitor value you have, F (repeatable); default E6 values 1 nF–10 µF.
-    #[arg(long, value_name = "F")]
+    #[arg(value_parser = num::real(1e-12, 0.01, "F"), long, value_name = "F")]
     pub capacitor: Vec<f64>,
     /// In-amp target gain.
-    #[arg(long, value_name = "G")]
+    #[arg(value_parser = num::real(1.0, 10_000.0, "V/V"), long, value_name = "G")]
     pub inamp_gain: Option<f64>,
     /// In-amp constant K of G = 1 + K/Rg, ohms, from its datasheet.
-    #[arg(long, value_name = "OHMS")]
+    #[arg(value_parser = num::real(1.0, 1e7, "Ω"), long, value_name = "OHMS")]
     pub inamp_k: Option<f64>,
     /// Resistor tolerance, % (for the spread).
-    #[arg(long, default_value_t = 1.0, value_name = "PCT")]
+    #[arg(value_parser = num::real(0.0, 50.0, "%"), long, default_value_t = 1.0, value_name = "PCT")]
     pub r_tol: f64,
     /// Capacitor tolerance, %.
-    #[arg(long, default_value_t = 5.0, value_name = "PCT")]
+    #[arg(value_parser = num::real(0.0, 50.0, "%"), long, default_value_t = 5.0, value_name = "PCT")]
     pub c_tol: f64,
     /// Monte Carlo draws (at least 2000).
-    #[arg(long, default_value_t = 2000, value_name = "N")]
+    #[arg(value_parser = num::whole::<usize>(100, 1_000_000), long, default_value_t = 2000, value_name = "N")]
     pub draws: usize,
     /// Output: parts.json.
     #[arg(long, value_name = "FILE")]
@@ -371,10 +408,10 @@ pub struct PartsArgs {
     #[arg(long, value_name = "FILE")]
     pub budget: Option<PathBuf>,
     /// Electrode offset to tolerate, ± mV.
-    #[arg(long, default_value_t = 300.0, value_name = "MV")]
+    #[arg(value_parser = num::real(0.0, 1000.0, "mV"), long, default_value_t = 300.0, value_name = "MV")]
     pub offset_mv: f64,
     /// Input bias current of your op-amps, A (for the offset it makes in the large resistors).
-    #[arg(long, default_value_t = 1e-9, value_name = "A")]
+    #[arg(value_parser = num::real(0.0, 1e-3, "A"), long, default_value_t = 1e-9, value_name = "A")]
     pub bias_current: f64,
     /// Also write the schematic of the whole chain (SVG).
     #[arg(long, value_name = "FILE.svg")]
@@ -404,7 +441,7 @@ pub struct RecordArgs {
     #[arg(long, value_name = "FILE")]
     pub config: Option<PathBuf>,
     /// How long to record, s (the command exits after this even if nothing arrived).
-    #[arg(long, value_name = "S")]
+    #[arg(value_parser = num::seconds(), long, value_name = "S")]
     pub seconds: f64,
     /// Output file; its extension chooses the format: .edf (EDF+, 16-bit), .bdf (BDF+, 24-bit),
     /// .csv, or raw little-endian .f32/.f64.
@@ -423,7 +460,7 @@ pub struct RecordArgs {
     #[command(flatten)]
     pub chain: ChainArgs,
     /// Sample rate, Hz, when the source does not say (else estimated from arrival).
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
     pub fs: Option<f64>,
     /// The board's front end (a serial source's counts are scaled by it).
     #[command(flatten)]
@@ -438,10 +475,10 @@ pub struct InputArgs {
     #[arg(long, value_name = "FILE")]
     pub input: PathBuf,
     /// Sample rate, Hz, for files that do not carry one.
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
     pub fs: Option<f64>,
     /// Channels per frame of a raw input.
-    #[arg(long, default_value_t = 1, value_name = "N")]
+    #[arg(value_parser = num::whole::<usize>(1, 64), long, default_value_t = 1, value_name = "N")]
     pub channels: usize,
     /// Unit of the input values (and of a filtered output): V, mV, uV, or counts (ADC counts of
     /// a CSV or raw file, scaled by the --adc-* options or the --config setup's front end).
@@ -555,17 +592,17 @@ pub fn load_setup(path: Option<&std::path::Path>) -> anyhow::Result<Option<crate
 #[derive(Debug, Clone, Args, Default)]
 pub struct ScaleArgs {
     /// ADC resolution, bits (8–24).
-    #[arg(long, value_name = "N", value_delimiter = ',')]
+    #[arg(value_parser = num::whole::<u32>(8, 24), long, value_name = "N", value_delimiter = ',')]
     pub adc_bits: Vec<u32>,
     /// ADC reference, V: a unipolar converter spans 0…V, a bipolar one −V…+V.
-    #[arg(long, value_name = "V", value_delimiter = ',')]
+    #[arg(value_parser = num::real(0.01, 100.0, "V"), long, value_name = "V", value_delimiter = ',')]
     pub adc_vref: Vec<f64>,
     /// Count of a zero signal: mid (mid-scale, single-supply boards; the default), bipolar
     /// (two's-complement counts; 0 means the same), or a count.
-    #[arg(long, value_name = "COUNTS|mid|bipolar", value_delimiter = ',')]
-    pub adc_zero: Vec<String>,
+    #[arg(value_parser = num::zero, long, value_name = "COUNTS|mid|bipolar", value_delimiter = ',')]
+    pub adc_zero: Vec<num::ZeroArg>,
     /// Total gain from the electrodes to the ADC pin, V/V (in-amp × later stages).
-    #[arg(long, value_name = "G", value_delimiter = ',')]
+    #[arg(value_parser = num::gain(), long, value_name = "G", value_delimiter = ',')]
     pub frontend_gain: Vec<f64>,
 }
 
@@ -633,26 +670,24 @@ impl ScaleArgs {
                 gain,
                 bipolar: from.is_some_and(|f| f.adc.bipolar),
             };
-            match zero.map(|z| z.trim().to_ascii_lowercase()) {
+            match zero {
                 None => {
                     adc.offset_counts = match from {
                         Some(f) if f.adc.bits == bits => f.adc.offset_counts,
                         _ => adc.default_zero(),
                     }
                 }
-                Some(z) if z == "mid" => {
+                Some(num::ZeroArg::Mid) => {
                     adc.bipolar = false;
                     adc.offset_counts = adc.default_zero();
                 }
-                Some(z) if z == "bipolar" || z == "0" => {
+                Some(num::ZeroArg::Bipolar) => {
                     adc.bipolar = true;
                     adc.offset_counts = 0.0;
                 }
-                Some(z) => {
+                Some(&num::ZeroArg::Counts(c)) => {
                     adc.bipolar = false;
-                    adc.offset_counts = z.parse::<f64>().map_err(|_| {
-                        BadInput(format!("--adc-zero {z}: expected mid, bipolar or a count"))
-                    })?;
+                    adc.offset_counts = c;
                 }
             }
             adc.validate()
@@ -682,7 +717,9 @@ pub struct BeatsArgs {
     pub summary: Option<PathBuf>,
     /// The heart-rate readout once a second, as the monitor shows it: CSV with
     /// time_s,bpm,state,reason (state: settling, ok, no_beat, unreliable; bpm empty when no
-    /// number is shown).
+    /// number is shown), quality_pct (the signal quality the monitor shows with it: noise,
+    /// artefact, clipping) and regularity_pct (the share of successive intervals within 12 %;
+    /// the rhythm, kept apart from the quality).
     #[arg(long, value_name = "FILE")]
     pub rate_out: Option<PathBuf>,
 }
@@ -693,7 +730,7 @@ pub struct SpectrumArgs {
     #[command(flatten)]
     pub src: InputArgs,
     /// Welch segment length (power of two, 256–16384); default about 4 s of signal.
-    #[arg(long, value_name = "N")]
+    #[arg(value_parser = num::whole::<usize>(256, 16_384), long, value_name = "N")]
     pub segment: Option<usize>,
     /// PSD output: CSV with freq_hz,psd (µV²/Hz at the electrodes).
     #[arg(long, value_name = "FILE")]
@@ -736,56 +773,59 @@ pub struct BenchArgs {
     #[arg(value_enum)]
     pub what: BenchWhat,
     /// Samples to process.
-    #[arg(long, default_value_t = 10_000_000, value_name = "N")]
+    #[arg(value_parser = num::whole::<usize>(1, 1_000_000_000), long, default_value_t = 10_000_000, value_name = "N")]
     pub samples: usize,
     /// WFDB record (.hea) for `bench beats`; without it a simulated 30-minute record is used.
     #[arg(long, value_name = "FILE")]
     pub record: Option<PathBuf>,
+    /// `bench beats`: a folder of annotated WFDB records (NAME.hea with NAME.beats.csv) for the
+    /// in-sample and the three-against-two held-out figures.
+    #[arg(long, value_name = "DIR", default_value = "tests/data/mitdb")]
+    pub annotated: PathBuf,
 }
 
 /// The filter chain on the command line. Each stage is used only when its corner is given.
 #[derive(Debug, Clone, Args, Default)]
 pub struct ChainArgs {
     /// High-pass corner (−3 dB), Hz.
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::corner_hz(), long, value_name = "HZ")]
     pub highpass: Option<f64>,
     /// High-pass Butterworth order (1–8).
-    #[arg(long, default_value_t = 2, value_name = "N")]
+    #[arg(value_parser = num::order(), long, default_value_t = 2, value_name = "N")]
     pub highpass_order: u32,
     /// Mains notch frequency, Hz, or `auto` (filter only): the frequency and harmonics measured
     /// in the input's own spectrum, printed on stderr.
-    #[arg(long, value_name = "HZ|auto")]
-    pub notch: Option<String>,
+    #[arg(value_parser = num::notch, long, value_name = "HZ|auto")]
+    pub notch: Option<num::NotchArg>,
     /// Notch Q (−3 dB bandwidth = frequency / Q).
-    #[arg(long, default_value_t = 30.0, value_name = "Q")]
+    #[arg(value_parser = num::q(), long, default_value_t = 30.0, value_name = "Q")]
     pub notch_q: f64,
     /// Extra notches at harmonics 2… (0–4).
-    #[arg(long, default_value_t = 0, value_name = "N")]
+    #[arg(value_parser = num::whole::<u32>(0, 4), long, default_value_t = 0, value_name = "N")]
     pub notch_harmonics: u32,
     /// Low-pass corner (−3 dB), Hz.
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::corner_hz(), long, value_name = "HZ")]
     pub lowpass: Option<f64>,
     /// Low-pass Butterworth order (1–8).
-    #[arg(long, default_value_t = 4, value_name = "N")]
+    #[arg(value_parser = num::order(), long, default_value_t = 4, value_name = "N")]
     pub lowpass_order: u32,
     /// Plain gain after the filters, V/V.
-    #[arg(long, default_value_t = 1.0, value_name = "G")]
+    #[arg(value_parser = num::gain(), long, default_value_t = 1.0, value_name = "G")]
     pub gain: f64,
 }
 
 impl ChainArgs {
     /// The notch frequency given, or None for none or `auto`.
     fn notch_hz(&self) -> Option<f64> {
-        self.notch
-            .as_deref()
-            .and_then(|t| t.trim().parse::<f64>().ok())
+        match self.notch {
+            Some(num::NotchArg::Hz(f)) => Some(f),
+            _ => None,
+        }
     }
 
     /// True when `--notch auto` was given.
     pub fn notch_auto(&self) -> bool {
-        self.notch
-            .as_deref()
-            .is_some_and(|t| t.trim().eq_ignore_ascii_case("auto"))
+        self.notch == Some(num::NotchArg::Auto)
     }
 
     /// True when any stage's flag was given.
@@ -793,24 +833,17 @@ impl ChainArgs {
         self.highpass.is_some() || self.notch.is_some() || self.lowpass.is_some()
     }
 
-    /// Checks `--notch`: a number, or `auto` where the command has an input to measure.
+    /// Checks `--notch auto`: it needs an input to measure.
     ///
     /// # Errors
     /// [`BadInput`] naming the value.
     pub fn check_notch(&self, auto_allowed: bool) -> Result<(), BadInput> {
-        match self.notch.as_deref() {
-            None => Ok(()),
-            Some(_) if self.notch_auto() && auto_allowed => Ok(()),
-            Some(_) if self.notch_auto() => Err(BadInput(
+        if self.notch_auto() && !auto_allowed {
+            return Err(BadInput(
                 "--notch auto measures the input's mains: it works with `filter`; give a frequency here".into(),
-            )),
-            Some(t) => match t.trim().parse::<f64>() {
-                Ok(f) if f.is_finite() && f > 0.0 => Ok(()),
-                _ => Err(BadInput(format!(
-                    "--notch {t}: expected a frequency in Hz or auto"
-                ))),
-            },
+            ));
         }
+        Ok(())
     }
 
     /// The chain these flags describe (an automatic notch starts at 50 Hz until measured).
@@ -856,7 +889,7 @@ pub struct SosArgs {
     #[command(flatten)]
     pub chain: ChainArgs,
     /// Sample rate, Hz.
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
     pub fs: f64,
 }
 
@@ -866,10 +899,11 @@ pub struct ResponseArgs {
     #[command(flatten)]
     pub chain: ChainArgs,
     /// Sample rate, Hz.
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
     pub fs: f64,
     /// Number of log-spaced frequencies from 0.01 Hz to just below Nyquist.
     #[arg(
+        value_parser = num::whole::<usize>(2, 100_000),
         long,
         default_value_t = 512,
         value_name = "N",
@@ -877,7 +911,7 @@ pub struct ResponseArgs {
     )]
     pub points: usize,
     /// Explicit frequencies, Hz, comma-separated.
-    #[arg(long, value_name = "F1,F2,..", value_delimiter = ',')]
+    #[arg(value_parser = num::corner_hz(), long, value_name = "F1,F2,..", value_delimiter = ',')]
     pub freqs: Option<Vec<f64>>,
     /// Output CSV (freq_hz,mag_db,phase_deg,group_delay_s), or - for standard output.
     #[arg(long, default_value = "-", value_name = "FILE")]
@@ -952,13 +986,13 @@ pub struct MonitorArgs {
     #[arg(long, conflicts_with = "config")]
     pub fresh: bool,
     /// Simulator sample rate, Hz (125–4000).
-    #[arg(long, value_name = "HZ")]
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
     pub fs: Option<f64>,
     /// Simulator channels (1–8).
-    #[arg(long, value_name = "N")]
+    #[arg(value_parser = num::whole::<usize>(1, 8), long, value_name = "N")]
     pub channels: Option<usize>,
     /// Close the window after this many seconds and exit 0 (smoke tests, screenshots).
-    #[arg(long, value_name = "SECONDS")]
+    #[arg(value_parser = num::seconds(), long, value_name = "SECONDS")]
     pub exit_after: Option<f64>,
     /// Save a PNG of the window just before exiting (needs --exit-after).
     #[arg(long, value_name = "PNG", requires = "exit_after")]
@@ -969,7 +1003,7 @@ pub struct MonitorArgs {
     pub view: Option<StartView>,
     /// Run the real window for SECONDS (after a 2 s warm-up), then print frame rate, app time
     /// per frame, latency, CPU and memory; the last line is JSON.
-    #[arg(long, value_name = "SECONDS")]
+    #[arg(value_parser = num::real(0.5, 3600.0, "s"), long, value_name = "SECONDS")]
     pub bench: Option<f64>,
     /// With --bench: the beat tone and the signal's sound on (rendered and discarded when
     /// there is no sound card), to measure what sound costs.
@@ -979,8 +1013,8 @@ pub struct MonitorArgs {
     #[arg(long)]
     pub paused: bool,
     /// Window size in logical pixels, WIDTHxHEIGHT.
-    #[arg(long, value_name = "WxH", default_value = "1280x800")]
-    pub size: String,
+    #[arg(value_parser = num::window_size, long, value_name = "WxH", default_value = "1280x800")]
+    pub size: num::WindowSize,
     /// The board's front end (a serial source's counts are scaled by it; also in the monitor's
     /// Front end section).
     #[command(flatten)]
@@ -1066,43 +1100,43 @@ pub enum Units {
 #[derive(Debug, Clone, Args)]
 pub struct SimulateArgs {
     /// Sample rate, Hz (125–4000).
-    #[arg(long, default_value_t = 500.0, value_name = "HZ")]
+    #[arg(value_parser = num::rate_hz(), long, default_value_t = 500.0, value_name = "HZ")]
     pub fs: f64,
     /// Length of the stream, s (default 10; with --pty, until stopped).
-    #[arg(long, value_name = "S")]
+    #[arg(value_parser = num::seconds(), long, value_name = "S")]
     pub seconds: Option<f64>,
     /// Channels (1–8).
-    #[arg(long, default_value_t = 1, value_name = "N")]
+    #[arg(value_parser = num::whole::<usize>(1, 8), long, default_value_t = 1, value_name = "N")]
     pub channels: usize,
     /// Mean heart rate, bpm.
-    #[arg(long, default_value_t = 72.0, value_name = "BPM")]
+    #[arg(value_parser = num::real(20.0, 300.0, "bpm"), long, default_value_t = 72.0, value_name = "BPM")]
     pub hr: f64,
     /// Heart-rate variability (standard deviation), bpm.
-    #[arg(long, default_value_t = 1.0, value_name = "BPM")]
+    #[arg(value_parser = num::real(0.0, 50.0, "bpm"), long, default_value_t = 1.0, value_name = "BPM")]
     pub hrv: f64,
     /// Random seed: the same seed and options give the same bytes.
-    #[arg(long, default_value_t = 1, value_name = "N")]
+    #[arg(value_parser = num::whole::<u64>(0, 4_294_967_295), long, default_value_t = 1, value_name = "N")]
     pub seed: u64,
     /// Mains frequency, Hz.
-    #[arg(long, default_value_t = 50.0, value_name = "HZ")]
+    #[arg(value_parser = num::mains_hz(), long, default_value_t = 50.0, value_name = "HZ")]
     pub mains: f64,
     /// Mains fundamental, RMS µV.
-    #[arg(long, default_value_t = 30.0, value_name = "UV")]
+    #[arg(value_parser = num::real(0.0, 1e5, "µV"), long, default_value_t = 30.0, value_name = "UV")]
     pub mains_uv: f64,
     /// Respiration-like baseline wander, RMS µV.
-    #[arg(long, default_value_t = 60.0, value_name = "UV")]
+    #[arg(value_parser = num::real(0.0, 1e5, "µV"), long, default_value_t = 60.0, value_name = "UV")]
     pub wander_uv: f64,
     /// Slow electrode drift, RMS µV.
-    #[arg(long, default_value_t = 40.0, value_name = "UV")]
+    #[arg(value_parser = num::real(0.0, 1e5, "µV"), long, default_value_t = 40.0, value_name = "UV")]
     pub drift_uv: f64,
     /// Broadband muscle-like noise, RMS µV.
-    #[arg(long, default_value_t = 8.0, value_name = "UV")]
+    #[arg(value_parser = num::real(0.0, 1e5, "µV"), long, default_value_t = 8.0, value_name = "UV")]
     pub noise_uv: f64,
     /// Electrode offset, mV (DC).
-    #[arg(long, default_value_t = 25.0, value_name = "MV")]
+    #[arg(value_parser = num::real(0.0, 1000.0, "mV"), long, default_value_t = 25.0, value_name = "MV")]
     pub offset_mv: f64,
     /// R-wave amplitude, mV.
-    #[arg(long, default_value_t = 1.2, value_name = "MV")]
+    #[arg(value_parser = num::real(0.05, 10.0, "mV"), long, default_value_t = 1.2, value_name = "MV")]
     pub r_mv: f64,
     /// The reading laptop is on its mains charger (stronger mains coupling).
     #[arg(long)]
@@ -1124,22 +1158,22 @@ pub struct SimulateArgs {
     #[arg(long)]
     pub muscle: bool,
     /// Contraction force, % of maximum (RMS at 100 %: --full-uv).
-    #[arg(long, default_value_t = 40.0, value_name = "PCT")]
+    #[arg(value_parser = num::percent(), long, default_value_t = 40.0, value_name = "PCT")]
     pub force: f64,
     /// RMS of a full-force contraction at the electrodes, µV.
-    #[arg(long, default_value_t = 600.0, value_name = "UV")]
+    #[arg(value_parser = num::real(1.0, 1e5, "µV"), long, default_value_t = 600.0, value_name = "UV")]
     pub full_uv: f64,
     /// Length of each contraction, s.
-    #[arg(long, default_value_t = 2.0, value_name = "S")]
+    #[arg(value_parser = num::real(0.1, 600.0, "s"), long, default_value_t = 2.0, value_name = "S")]
     pub contract_s: f64,
     /// Rest between contractions, s.
-    #[arg(long, default_value_t = 3.0, value_name = "S")]
+    #[arg(value_parser = num::real(0.0, 600.0, "s"), long, default_value_t = 3.0, value_name = "S")]
     pub rest_s: f64,
     /// Share of the heart's signal that reaches the electrodes with --muscle (0–1).
-    #[arg(long, default_value_t = 0.15, value_name = "SHARE")]
+    #[arg(value_parser = num::real(0.0, 1.0, ""), long, default_value_t = 0.15, value_name = "SHARE")]
     pub ecg_share: f64,
     /// Fall of the muscle's upper spectral corner per contraction, % (fatigue).
-    #[arg(long, default_value_t = 0.0, value_name = "PCT")]
+    #[arg(value_parser = num::real(0.0, 50.0, "%"), long, default_value_t = 0.0, value_name = "PCT")]
     pub fatigue: f64,
     /// Output format.
     #[arg(long, value_enum, default_value_t = SimFormat::Csv)]
@@ -1154,7 +1188,7 @@ pub struct SimulateArgs {
     #[arg(long)]
     pub pty: bool,
     /// Baud rate the stream must fit (for --pty; the pseudo-terminal itself ignores it).
-    #[arg(long, default_value_t = 921_600, value_name = "B")]
+    #[arg(value_parser = num::whole::<u32>(300, 4_000_000), long, default_value_t = 921_600, value_name = "B")]
     pub baud: u32,
     /// Send the stream in real time as UDP datagrams to HOST:PORT (binary frames unless
     /// --format ascii), as a Wi-Fi board would.
@@ -1162,7 +1196,7 @@ pub struct SimulateArgs {
     pub udp: Option<String>,
     /// Listen on TCP PORT (loopback) and stream in real time to the client that connects, as a
     /// Wi-Fi board that listens would.
-    #[arg(long, value_name = "PORT", conflicts_with = "pty")]
+    #[arg(value_parser = num::whole::<u16>(1, 65_535), long, value_name = "PORT", conflicts_with = "pty")]
     pub tcp_listen: Option<u16>,
 }
 

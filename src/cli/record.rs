@@ -17,7 +17,10 @@ use crate::source::{Pacing, SourceSpec};
 #[derive(Debug, serde::Serialize)]
 struct Summary {
     out: String,
+    /// Frames of data the file holds.
     frames: u64,
+    /// Frames of padding after the data (EDF/BDF fill their last record; marked in the file).
+    padded_frames: u64,
     lost: u64,
     duplicate: u64,
     late: u64,
@@ -161,6 +164,7 @@ pub fn run(a: &RecordArgs) -> Result<()> {
     let summary = Summary {
         out: a.out.display().to_string(),
         frames: status.frames,
+        padded_frames: status.padded_frames,
         lost: match (&net, &serial) {
             (Some(n), _) => n.order.lost,
             (None, Some(s)) => s.wire.lost_frames,

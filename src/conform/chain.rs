@@ -2,11 +2,11 @@
 //!
 //! - **Impulse test**: a 3 mV × 100 ms pulse through the chain from rest. After the pulse the
 //!   output may leave the baseline by at most 100 µV and recover with a slope of at most
-//!   300 µV/s (Maji & Burke, IEEE TIM 69(3):825–835, 2020; REFERENCE.md §3). Measured from
+//!   300 µV/s (Maji & Burke, IEEE TIM 69(3):825–835, 2020; docs/REFERENCES.md §3). Measured from
 //!   150 ms after the pulse's end (the low-pass's ringing at the falling edge is over by then) to
 //!   5 s after it.
 //! - **Gain at 0.67 Hz**: at least −0.9 dB for diagnostic recordings, −3 dB for monitoring
-//!   (REFERENCE.md §3, from the J Electrocardiol 2009 note; the figures recalled from memory).
+//!   (docs/REFERENCES.md §3, from the J Electrocardiol 2009 note; the figures recalled from memory).
 //! - **Upper corner**: the −3 dB frequency above the pass band, at or above 150 Hz (diagnostic)
 //!   or 40 Hz (monitoring) (Kligfield et al. 2007; Prutchi & Norris table 2.1). The mains notch
 //!   is left out of this figure (a narrow notch is allowed in both modes).

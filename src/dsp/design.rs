@@ -265,12 +265,12 @@ mod tests {
 
     #[test]
     fn cookbook_lowpass_check_value() {
-        // REFERENCE.md §9 #1 (RBJ cookbook LPF, fs 500, f0 40, Q 1/√2) — identical to order-2 Butterworth.
+        // docs/REFERENCES.md §9 #1 (RBJ cookbook LPF, fs 500, f0 40, Q 1/√2) — identical to order-2 Butterworth.
         let s = butterworth_lowpass(2, 40.0, 500.0).unwrap()[0];
         assert!((s.b0 - 0.046_131_802_1).abs() < 1e-10);
         assert!((s.a1 + 1.307_285_028_8).abs() < 1e-10);
         assert!((s.a2 - 0.491_812_237_2).abs() < 1e-10);
-        // REFERENCE.md §9 #2 (RBJ HPF fs 500, f0 0.5, Q 1/√2).
+        // docs/REFERENCES.md §9 #2 (RBJ HPF fs 500, f0 0.5, Q 1/√2).
         let h = butterworth_highpass(2, 0.5, 500.0).unwrap()[0];
         assert!((h.b0 - 0.995_566_972_0).abs() < 1e-10);
         assert!((h.a1 + 1.991_114_292_2).abs() < 1e-10);
@@ -296,7 +296,7 @@ mod tests {
 
     #[test]
     fn exact_bandwidth_notch_matches_scipy_iirnotch() {
-        // REFERENCE.md §9 #4b: scipy.signal.iirnotch(50, 30, fs=500) and (60, 30, fs=500).
+        // docs/REFERENCES.md §9 #4b: scipy.signal.iirnotch(50, 30, fs=500) and (60, 30, fs=500).
         let n = notch(50.0, 30.0, 500.0).unwrap();
         assert!((n.b0 - 0.989_636_18).abs() < 1e-8);
         assert!((n.b1 + 1.601_264_97).abs() < 1e-8);

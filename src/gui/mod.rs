@@ -16,25 +16,6 @@ use anyhow::{Context, Result};
 pub use app::{AppOptions, LeadlineApp};
 
 use crate::cli::{BadInput, MonitorArgs};
-
-fn parse_size(s: &str) -> Result<[f32; 2]> {
-    let (w, h) = s
-        .split_once('x')
-        .ok_or_else(|| BadInput(format!("--size {s}: expected WIDTHxHEIGHT, e.g. 1280x800")))?;
-    let w: f32 = w
-        .trim()
-        .parse()
-        .map_err(|_| BadInput(format!("--size {s}: bad width")))?;
-    let h: f32 = h
-        .trim()
-        .parse()
-        .map_err(|_| BadInput(format!("--size {s}: bad height")))?;
-    if !(320.0..=8000.0).contains(&w) || !(240.0..=8000.0).contains(&h) {
-        return Err(BadInput(format!("--size {s}: between 320x240 and 8000x8000")).into());
-    }
-    Ok([w, h])
-}
-
 /// The settings to start with: `--config`, else the remembered setup (unless `--fresh`), else
 /// the defaults; then the command line's own options on top.
 ///
@@ -136,7 +117,7 @@ pub fn run(args: &MonitorArgs) -> Result<()> {
         ))
         .into());
     }
-    let size = parse_size(&args.size)?;
+    let size = [args.size.width, args.size.height];
     let settings = start_settings(args)?;
     let opts = AppOptions {
         exit_after_s: args.exit_after,

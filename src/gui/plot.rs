@@ -38,6 +38,85 @@ pub fn column_points(c: &Columns, scale: f64) -> Vec<[f64; 2]> {
     pts
 }
 
+/// Pixels between labelled values of a value axis: egui_plot hides a label closer than 20.
+const LABEL_PX: f64 = 26.0;
+
+/// The step of a value axis: the largest 1-2-5 step that leaves at least three labelled
+/// values in `span`, and no more labels than fit `LABEL_PX` apart (`px_per_unit`).
+pub fn value_step(span: f64, px_per_unit: f64) -> f64 {
+    if !(span.is_finite() && span > 0.0) {
+        return 1.0;
+    }
+    let nice = |x: f64, up: bool| {
+        let e = x.log10().floor();
+        let m = x / 10f64.powf(e);
+        let k = if up {
+            [1.0, 2.0, 5.0, 10.0]
+                .into_iter()
+                .find(|&k| k >= m - 1e-9)
+                .unwrap_or(10.0)
+        } else {
+            [10.0, 5.0, 2.0, 1.0]
+                .into_iter()
+                .find(|&k| k <= m + 1e-9)
+                .unwrap_or(1.0)
+        };
+        k * 10f64.powf(e)
+    };
+    let most = nice(span / 3.0, false);
+    let least = if px_per_unit > 0.0 {
+        nice(LABEL_PX / px_per_unit, true)
+    } else {
+        most
+    };
+    // Too short a plot for three labels 26 px apart: keep three anyway (egui shows them
+    // from 20 px).
+    least.min(most)
+}
+
+/// Grid for a value axis (a trace's µV or mV): at least three labelled values at any zoom
+/// (egui_plot's own grid labels only powers of ten, so a ±450 µV trace showed "0" alone), with
+/// faint lines at a fifth of the step.
+pub fn value_spacer(input: GridInput) -> Vec<GridMark> {
+    let (lo, hi) = input.bounds;
+    let span = hi - lo;
+    if !(lo.is_finite() && hi.is_finite() && span > 0.0) {
+        return Vec::new();
+    }
+    // egui_plot's base step is the value of its smallest grid spacing, 8 points.
+    let px_per_unit = if input.base_step_size > 0.0 {
+        8.0 / input.base_step_size
+    } else {
+        0.0
+    };
+    let step = value_step(span, px_per_unit);
+    let minor = step / 5.0;
+    let mut marks = Vec::new();
+    let first = (lo / minor).ceil() as i64;
+    let last = (hi / minor).floor() as i64;
+    if last - first > 2000 {
+        return marks;
+    }
+    for k in first..=last {
+        marks.push(GridMark {
+            value: k as f64 * minor,
+            step_size: if k % 5 == 0 { step } else { minor },
+        });
+    }
+    marks
+}
+
+/// Labels of [`value_spacer`]'s marks: as many decimals as the step needs, minor marks bare.
+pub fn value_label(mark: GridMark) -> String {
+    let decimals = (-mark.step_size.log10().floor()).max(0.0) as usize;
+    let v = if mark.value.abs() < mark.step_size * 1e-6 {
+        0.0
+    } else {
+        mark.value
+    };
+    format!("{v:.decimals$}")
+}
+
 /// Grid for an axis in log10(Hz): a labelled line per decade, fainter lines at 2…9 × each decade.
 /// egui_plot fades lines and labels by `step_size` in pixels; the sizes given here are chosen so
 /// decades stay labelled on a narrow plot, not the true spacing.
@@ -86,4 +165,44 @@ pub fn hover_text(pos: &HoverPosition<'_>, log: bool, unit: &str) -> String {
         format!("{name}\n")
     };
     format!("{head}{f:.3} Hz\n{:.2}{unit}", p.y)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The labelled marks of a trace axis (those egui_plot shows: at least 20 px apart).
+    fn labels(lo: f64, hi: f64, height_px: f64) -> Vec<String> {
+        let marks = value_spacer(GridInput {
+            bounds: (lo, hi),
+            base_step_size: 8.0 * (hi - lo) / height_px,
+        });
+        let px = height_px / (hi - lo);
+        marks
+            .iter()
+            .filter(|m| m.step_size * px >= 20.0)
+            .map(|m| value_label(*m))
+            .collect()
+    }
+
+    #[test]
+    fn a_trace_axis_has_three_labels_at_any_zoom() {
+        // A 1 mV beat with a little margin in mV and in µV, a 50 µV one in µV, and the case
+        // that showed "0" alone (±450 µV), each on a short (110 px) and a tall (400 px) plot.
+        for (lo, hi) in [
+            (-0.3, 1.2),
+            (-300.0, 1200.0),
+            (-10.0, 50.0),
+            (-450.0, 450.0),
+        ] {
+            for h in [110.0, 400.0] {
+                let l = labels(lo, hi, h);
+                assert!(l.len() >= 3, "{lo}…{hi} on {h} px: {l:?}");
+                let mut distinct = l.clone();
+                distinct.dedup();
+                assert_eq!(distinct.len(), l.len(), "{lo}…{hi}: {l:?}");
+            }
+        }
+        assert_eq!(labels(-0.3, 1.2, 110.0), ["0.0", "0.5", "1.0"]);
+    }
 }

@@ -1,6 +1,6 @@
 //! Common-mode rejection of a built front end: a common-mode sine of known amplitude on both
 //! inputs tied together; the channel's input-referred output at that frequency is what leaks
-//! through. CMRR = 20·log10(V_cm / V_diff) (REFERENCE.md §3 and §9 #23 for the dB equivalents).
+//! through. CMRR = 20·log10(V_cm / V_diff) (docs/REFERENCES.md §3 and §9 #23 for the dB equivalents).
 
 use serde::Serialize;
 

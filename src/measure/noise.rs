@@ -7,10 +7,10 @@ use super::MeasureError;
 use crate::dsp::chain::{self, ChainSettings};
 use crate::dsp::spectrum::{Welch, segment_for};
 
-/// Default band, Hz (the diagnostic ECG band; REFERENCE.md §3).
+/// Default band, Hz (the diagnostic ECG band; docs/REFERENCES.md §3).
 pub const BAND_HZ: (f64, f64) = (0.05, 150.0);
 /// Default limit, µV peak-to-peak (recalled from memory of the ECG standards: 30 µV p-v with
-/// 51 kΩ ‖ 47 nF in the leads; REFERENCE.md §3 marks it [M]).
+/// 51 kΩ ‖ 47 nF in the leads; docs/REFERENCES.md §3 marks it [M]).
 pub const LIMIT_P2P_UV: f64 = 30.0;
 
 /// The report of `measure noise` (its keys are the contract).

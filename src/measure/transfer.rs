@@ -187,8 +187,7 @@ pub fn estimate(
         .map(|p| p.mag_db)
         .filter(|m| *m >= top - 1.0)
         .collect();
-    near.sort_by(f64::total_cmp);
-    let passband = near[near.len() / 2];
+    let passband = crate::numeric::percentile(&mut near, 50.0);
     let level = passband - 3.0;
     let mut corners = Vec::new();
     for w in good.windows(2) {

@@ -93,7 +93,8 @@ impl BeatState {
             rate: self.readout.shown(),
             rate_at_s: self.readout.shown_at_s(),
             hrv: self.readout.meter().hrv(),
-            quality: self.readout.quality().quality(),
+            quality: self.readout.shown_quality(),
+            regularity: self.readout.meter().regularity(),
             template: self.template_frame.clone(),
         }
     }

@@ -7,7 +7,7 @@
 //! interval and shape). A ventricular beat has no P wave, a QRS about three times as wide and
 //! half again as tall, and a T wave of the opposite sign (common practice for a premature
 //! ventricular beat). The rhythms follow the descriptions of the standards' irregular-rhythm
-//! figures (ANSI/AAMI EC13 figure 3; REFERENCE.md §3, recalled from memory); the intervals of
+//! figures (ANSI/AAMI EC13 figure 3; docs/REFERENCES.md §3, recalled from memory); the intervals of
 //! the slow and rapid cases are our own choice with the expected mean rate. No recording is
 //! used.
 
@@ -220,7 +220,7 @@ mod tests {
 
     #[test]
     fn expected_rates_are_the_mean_interval() {
-        // The standards' expected reading is 60 / the mean RR of one period (REFERENCE.md §3,
+        // The standards' expected reading is 60 / the mean RR of one period (docs/REFERENCES.md §3,
         // recalled from memory: 80, 60, 120 and 90 bpm).
         for r in Rhythm::ALL.into_iter().skip(1) {
             let p = r.pattern(1.0);

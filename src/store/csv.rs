@@ -355,14 +355,34 @@ pub fn write(path: &Path, rec: &Recording, unit: FileUnit) -> Result<(), StoreEr
 /// A CSV recording being written: a header, then `time_s,ch1,…` rows and event lines, flushed
 /// to the OS at least every half second.
 pub struct CsvSink {
-    w: std::io::BufWriter<std::fs::File>,
+    file: std::fs::File,
     path: std::path::PathBuf,
     fs: f64,
     channels: usize,
+    /// Frames taken (held, or waiting in `line`).
     frames: u64,
+    /// Frames and bytes written to the OS in whole lines.
+    held_frames: u64,
     bytes: u64,
     line: String,
     last_flush: std::time::Instant,
+}
+
+impl CsvSink {
+    /// Writes the waiting lines; only a complete write counts them as held.
+    fn flush_lines(&mut self) -> Result<(), StoreError> {
+        use std::io::Write as _;
+        if !self.line.is_empty() {
+            self.file
+                .write_all(self.line.as_bytes())
+                .map_err(|e| StoreError::io(&self.path, e))?;
+            self.bytes += self.line.len() as u64;
+            self.line.clear();
+        }
+        self.held_frames = self.frames;
+        self.last_flush = std::time::Instant::now();
+        Ok(())
+    }
 }
 
 impl CsvSink {
@@ -385,11 +405,12 @@ impl CsvSink {
         }
         line.push('\n');
         Ok(Self {
-            w: std::io::BufWriter::new(f),
+            file: f,
             path: path.to_path_buf(),
             fs,
             channels: channels.max(1),
             frames: 0,
+            held_frames: 0,
             bytes: 0,
             line,
             last_flush: std::time::Instant::now(),
@@ -400,7 +421,6 @@ impl CsvSink {
 impl super::Sink for CsvSink {
     fn push(&mut self, frames: &[f64]) -> Result<(), StoreError> {
         use std::fmt::Write as _;
-        use std::io::Write as _;
         for frame in frames.chunks_exact(self.channels) {
             self.line.push_str(&time_text(self.frames, self.fs));
             for v in frame {
@@ -409,17 +429,23 @@ impl super::Sink for CsvSink {
             self.line.push('\n');
             self.frames += 1;
         }
-        self.w
-            .write_all(self.line.as_bytes())
-            .map_err(|e| StoreError::io(&self.path, e))?;
-        self.bytes += self.line.len() as u64;
-        self.line.clear();
-        // Data reach the OS at least once a second.
-        if self.last_flush.elapsed() >= std::time::Duration::from_millis(500) {
-            self.w.flush().map_err(|e| StoreError::io(&self.path, e))?;
-            self.last_flush = std::time::Instant::now();
+        // Data reach the OS at least once a second, in whole lines.
+        if self.line.len() >= 1 << 16
+            || self.last_flush.elapsed() >= std::time::Duration::from_millis(500)
+        {
+            self.flush_lines()?;
         }
         Ok(())
+    }
+
+    fn frames_held(&self) -> u64 {
+        self.held_frames
+    }
+
+    fn cut_to_held(&mut self) {
+        self.line.clear();
+        self.frames = self.held_frames;
+        let _ = self.file.set_len(self.bytes);
     }
 
     fn note(&mut self, t_s: f64, text: &str) {
@@ -431,17 +457,22 @@ impl super::Sink for CsvSink {
     }
 
     fn bytes(&self) -> u64 {
-        self.bytes
+        self.bytes + self.line.len() as u64
     }
 
-    fn finish(mut self: Box<Self>) -> Result<u64, StoreError> {
-        use std::io::Write as _;
-        let path = self.path.clone();
-        let io = |e| StoreError::io(&path, e);
-        self.w.write_all(self.line.as_bytes()).map_err(io)?;
-        self.w.flush().map_err(io)?;
-        self.w.get_ref().sync_all().map_err(io)?;
-        Ok(self.bytes + self.line.len() as u64)
+    fn finish(&mut self) -> Result<super::Finished, StoreError> {
+        if let Err(e) = self.flush_lines() {
+            super::Sink::cut_to_held(self);
+            return Err(e);
+        }
+        self.file
+            .sync_all()
+            .map_err(|e| StoreError::io(&self.path, e))?;
+        Ok(super::Finished {
+            bytes: self.bytes,
+            frames: self.held_frames,
+            padded_frames: 0,
+        })
     }
 }
 

@@ -13,7 +13,7 @@ pub mod raw;
 pub mod sink;
 pub mod wfdb;
 
-pub use sink::Sink;
+pub use sink::{Finished, Sink};
 
 use std::path::Path;
 

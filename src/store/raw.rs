@@ -95,48 +95,67 @@ pub fn write(path: &Path, rec: &Recording, kind: Sample, unit: FileUnit) -> Resu
 /// A raw recording being written: little-endian f32 or f64 values, frame after frame, flushed
 /// to the OS at least every half second. Raw files have nowhere to put notes.
 pub struct RawSink {
-    w: std::io::BufWriter<std::fs::File>,
+    file: std::fs::File,
     path: std::path::PathBuf,
     f32: bool,
+    /// Values per frame.
+    channels: usize,
+    /// Bytes written to the OS (whole frames only).
     bytes: u64,
+    /// Encoded frames waiting to be written.
+    buf: Vec<u8>,
     last_flush: std::time::Instant,
 }
 
 impl RawSink {
-    /// Creates `path` for f32 (`f32`) or f64 values.
+    /// Creates `path` for f32 (`f32`) or f64 values, `channels` to a frame.
     ///
     /// # Errors
     /// The file cannot be created.
-    pub fn create(path: &std::path::Path, f32: bool) -> Result<Self, StoreError> {
+    pub fn create(path: &std::path::Path, f32: bool, channels: usize) -> Result<Self, StoreError> {
         let f = std::fs::File::create(path).map_err(|e| StoreError::io(path, e))?;
         Ok(Self {
-            w: std::io::BufWriter::new(f),
+            file: f,
             path: path.to_path_buf(),
             f32,
+            channels: channels.max(1),
             bytes: 0,
+            buf: Vec::new(),
             last_flush: std::time::Instant::now(),
         })
+    }
+
+    fn frame_bytes(&self) -> u64 {
+        (self.channels.max(1) * if self.f32 { 4 } else { 8 }) as u64
+    }
+
+    fn flush_buf(&mut self) -> Result<(), StoreError> {
+        use std::io::Write as _;
+        if !self.buf.is_empty() {
+            self.file
+                .write_all(&self.buf)
+                .map_err(|e| StoreError::io(&self.path, e))?;
+            self.bytes += self.buf.len() as u64;
+            self.buf.clear();
+        }
+        self.last_flush = std::time::Instant::now();
+        Ok(())
     }
 }
 
 impl super::Sink for RawSink {
     fn push(&mut self, frames: &[f64]) -> Result<(), StoreError> {
-        use std::io::Write as _;
-        let mut buf = Vec::with_capacity(frames.len() * 8);
         for v in frames {
             if self.f32 {
-                buf.extend_from_slice(&(*v as f32).to_le_bytes());
+                self.buf.extend_from_slice(&(*v as f32).to_le_bytes());
             } else {
-                buf.extend_from_slice(&v.to_le_bytes());
+                self.buf.extend_from_slice(&v.to_le_bytes());
             }
         }
-        self.w
-            .write_all(&buf)
-            .map_err(|e| StoreError::io(&self.path, e))?;
-        self.bytes += buf.len() as u64;
-        if self.last_flush.elapsed() >= std::time::Duration::from_millis(500) {
-            self.w.flush().map_err(|e| StoreError::io(&self.path, e))?;
-            self.last_flush = std::time::Instant::now();
+        if self.buf.len() >= 1 << 16
+            || self.last_flush.elapsed() >= std::time::Duration::from_millis(500)
+        {
+            self.flush_buf()?;
         }
         Ok(())
     }
@@ -144,17 +163,31 @@ impl super::Sink for RawSink {
     fn note(&mut self, _t_s: f64, _text: &str) {}
 
     fn bytes(&self) -> u64 {
-        self.bytes
+        self.bytes + self.buf.len() as u64
     }
 
-    fn finish(mut self: Box<Self>) -> Result<u64, StoreError> {
-        use std::io::Write as _;
-        let path = self.path.clone();
-        self.w.flush().map_err(|e| StoreError::io(&path, e))?;
-        self.w
-            .get_ref()
+    fn frames_held(&self) -> u64 {
+        self.bytes / self.frame_bytes()
+    }
+
+    fn cut_to_held(&mut self) {
+        self.buf.clear();
+        self.bytes = self.frames_held() * self.frame_bytes();
+        let _ = self.file.set_len(self.bytes);
+    }
+
+    fn finish(&mut self) -> Result<super::Finished, StoreError> {
+        if let Err(e) = self.flush_buf() {
+            super::Sink::cut_to_held(self);
+            return Err(e);
+        }
+        self.file
             .sync_all()
-            .map_err(|e| StoreError::io(&path, e))?;
-        Ok(self.bytes)
+            .map_err(|e| StoreError::io(&self.path, e))?;
+        Ok(super::Finished {
+            bytes: self.bytes,
+            frames: self.frames_held(),
+            padded_frames: 0,
+        })
     }
 }

@@ -20,9 +20,28 @@ pub trait Sink: Send {
     fn clipped(&self) -> u64 {
         0
     }
-    /// Closes the file (flushed and synced). Returns its size in bytes.
+    /// Whole frames the file holds for certain now: written to the OS, never a part of one.
+    fn frames_held(&self) -> u64;
+    /// After a failed write: cuts the file back to the length that holds [`Sink::frames_held`]
+    /// frames, so no half-written line or record is left (best effort: a device that cannot
+    /// be cut keeps what it has).
+    fn cut_to_held(&mut self);
+    /// Closes the file (flushed and synced); nothing is pushed after.
     ///
     /// # Errors
-    /// The last write or the sync failed.
-    fn finish(self: Box<Self>) -> Result<u64, StoreError>;
+    /// The last write or the sync failed: the file is cut back to what [`Sink::frames_held`]
+    /// counts.
+    fn finish(&mut self) -> Result<Finished, StoreError>;
+}
+
+/// What a closed file holds.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub struct Finished {
+    /// File size, bytes.
+    pub bytes: u64,
+    /// Frames of real data in the file.
+    pub frames: u64,
+    /// Frames of padding after the data (EDF/BDF: the last record filled up to its length,
+    /// marked by an annotation at the data's end); 0 for formats that end where the data end.
+    pub padded_frames: u64,
 }

@@ -302,3 +302,30 @@ fn ngspice_runs_the_netlist_and_agrees_with_the_realised_response() {
     }
     assert!(checked > 100, "{checked} points compared");
 }
+
+/// The one percentile helper against numpy.percentile (method "linear") on the same draws:
+/// tests/reference/percentile.json, made by tests/reference/make_percentile.py (numpy 2.4.6).
+#[test]
+fn percentile_matches_numpy_on_the_same_draws() {
+    let path =
+        std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/percentile.json");
+    let doc: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(path).expect("fixture")).expect("json");
+    let mut compared = 0;
+    for case in doc["cases"].as_array().expect("cases") {
+        let values: Vec<f64> = serde_json::from_value(case["values"].clone()).expect("values");
+        let ps: Vec<f64> = serde_json::from_value(case["percentiles"].clone()).expect("ps");
+        let want: Vec<f64> = serde_json::from_value(case["expected"].clone()).expect("expected");
+        for (p, w) in ps.iter().zip(&want) {
+            let mut v = values.clone();
+            let got = leadline::numeric::percentile(&mut v, *p);
+            assert!(
+                (got - w).abs() <= 1e-12 * w.abs().max(1.0),
+                "p{p} of {} values: {got} against numpy's {w}",
+                values.len()
+            );
+            compared += 1;
+        }
+    }
+    assert_eq!(compared, 45);
+}

@@ -379,7 +379,7 @@ fn monitor_refuses_a_bad_setup_file_naming_the_line_and_key() {
 #[test]
 fn conform_reports_the_standards_checks_with_pass_and_advice() {
     // Limits: Maji & Burke, IEEE TIM 69(3), 2020 (impulse test); 0.67 Hz gain and upper corner
-    // from the ECG standards (REFERENCE.md §3; figures recalled from memory).
+    // from the ECG standards (docs/REFERENCES.md §3; figures recalled from memory).
     let report = tmp("conform.json");
     let o = leadline(&[
         "conform",
@@ -433,4 +433,98 @@ fn conform_reports_the_standards_checks_with_pass_and_advice() {
     assert_eq!(r["pass"]["impulse_slope"], true, "{r}");
     assert_eq!(r["pass"]["gain_at_0_67_hz"], true, "{r}");
     assert_eq!(r["mode"], "diagnostic");
+}
+
+/// Every numeric option of every command, found by walking the clap definitions (so a new
+/// option cannot escape), refuses NaN, an infinity, a negative value and an absurdly large one
+/// with exit 2 and one line that names the option.
+#[test]
+fn every_numeric_option_refuses_nan_inf_negative_and_absurd_values() {
+    use clap::builder::ValueParser;
+    use leadline::cli::num::{NotchArg, WindowSize, ZeroArg};
+    fn numeric(p: &ValueParser) -> bool {
+        use std::any::TypeId;
+        let t = p.type_id();
+        [
+            TypeId::of::<f64>(),
+            TypeId::of::<u32>(),
+            TypeId::of::<u64>(),
+            TypeId::of::<u16>(),
+            TypeId::of::<usize>(),
+            TypeId::of::<NotchArg>(),
+            TypeId::of::<ZeroArg>(),
+            TypeId::of::<WindowSize>(),
+        ]
+        .into_iter()
+        .any(|id| t == id)
+    }
+    fn walk(
+        cmd: &clap::Command,
+        path: &mut Vec<String>,
+        out: &mut Vec<(Vec<String>, String, usize)>,
+    ) {
+        for a in cmd.get_arguments() {
+            if let Some(long) = a.get_long()
+                && a.get_action().takes_values()
+                && numeric(a.get_value_parser())
+            {
+                // Options that take several values at once (START,END) get them all bad.
+                let n = a.get_num_args().map_or(1, |r| r.min_values()).max(1);
+                out.push((path.clone(), long.to_string(), n));
+            }
+        }
+        for sub in cmd.get_subcommands() {
+            path.push(sub.get_name().to_string());
+            walk(sub, path, out);
+            path.pop();
+        }
+    }
+    let mut options = Vec::new();
+    let mut definition = leadline::cli::Cli::definition();
+    definition.build();
+    walk(&definition, &mut Vec::new(), &mut options);
+    // The commands hold about a hundred numeric options; a walk that finds few is broken.
+    assert!(options.len() > 90, "{} options found", options.len());
+    let mut tried = 0;
+    for (path, long, n) in &options {
+        for bad in ["NaN", "inf", "-1", "1e308", "99999999999999"] {
+            let mut cmd = crate::common::command();
+            cmd.args(path)
+                .arg(format!("--{long}"))
+                .arg(vec![bad; *n].join(","));
+            let out = cmd.output().unwrap();
+            let err = String::from_utf8_lossy(&out.stderr);
+            let what = format!("{} --{long} {bad}", path.join(" "));
+            assert_eq!(out.status.code(), Some(2), "{what}: {err}");
+            let lines: Vec<&str> = err.lines().filter(|l| !l.trim().is_empty()).collect();
+            assert_eq!(lines.len(), 1, "{what}: {err}");
+            assert!(lines[0].contains(&format!("--{long}")), "{what}: {err}");
+            assert!(lines[0].len() < 200, "{what}: {err}");
+            tried += 1;
+        }
+    }
+    assert_eq!(tried, options.len() * 5);
+}
+
+/// `--fs -1` with a space reaches the range check instead of clap's "unexpected argument".
+#[test]
+fn a_negative_rate_says_what_range_it_wants() {
+    let out = crate::common::leadline(["conform", "--fs", "-1", "--report", "/dev/null"]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.contains("125–4000 Hz"), "{err}");
+    assert!(!err.contains("unexpected argument"), "{err}");
+    // A 1e308 corner is named as given, not as a 309-digit number.
+    let out = crate::common::leadline([
+        "filter",
+        "--input",
+        "x.csv",
+        "--out",
+        "y.csv",
+        "--highpass",
+        "1e308",
+    ]);
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(2), "{err}");
+    assert!(err.len() < 200 && err.contains("0.01–2000 Hz"), "{err}");
 }

@@ -1,6 +1,6 @@
 //! Filter designs, responses and filtered outputs against scipy.signal fixtures
 //! (tests/reference/filters.json, made by tests/reference/make_filters.py with scipy.signal 1.17.1),
-//! plus the REFERENCE.md check values.
+//! plus the docs/REFERENCES.md check values.
 // Helpers outside #[test] functions unwrap too: a panic is the failure report.
 #![allow(clippy::unwrap_used)]
 
@@ -242,7 +242,7 @@ fn default_chain_phase_delay_and_outputs_match_scipy() {
 
 #[test]
 fn reference_md_check_values() {
-    // REFERENCE.md §9 #4 (RBJ cookbook notch, analog-prototype Q): ours is the exact-bandwidth
+    // docs/REFERENCES.md §9 #4 (RBJ cookbook notch, analog-prototype Q): ours is the exact-bandwidth
     // design instead, so its −3 dB points sit at f0 ± f0/2Q, wider than the cookbook's
     // 49.226 / 50.785 Hz (§9 #4), i.e. about 7 % wider at 50 Hz / 500 Hz / Q 30.
     let n = design::notch(50.0, 30.0, 500.0).unwrap();

@@ -308,14 +308,19 @@ fn first_contact_messages_are_one_clear_line() {
     ]);
     assert_eq!(o.status.code(), Some(2));
     assert!(stderr(&o).contains("line 3"), "{}", stderr(&o));
-    // A NaN corner: no fourteen decimals.
+    // A NaN corner: refused while parsing, with the range it wants.
     let o = leadline(&["sos", "--fs", "249.99794851683447", "--highpass", "NaN"]);
     assert_eq!(o.status.code(), Some(2));
     let e = stderr(&o);
     assert!(
-        e.contains("is not a number") && e.contains("(125 Hz at fs = 250 Hz)"),
+        e.contains("--highpass") && e.contains("expected a finite number in 0.01–2000 Hz"),
         "{e}"
     );
+    // A corner the range allows but the rate does not: no fourteen decimals.
+    let o = leadline(&["sos", "--fs", "249.99794851683447", "--highpass", "1000"]);
+    assert_eq!(o.status.code(), Some(2));
+    let e = stderr(&o);
+    assert!(e.contains("(125 Hz at fs = 250 Hz)"), "{e}");
     // A flat input: no signal/mains ratio of −320 dB.
     let flat = tmp("flat.csv");
     std::fs::write(

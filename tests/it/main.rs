@@ -16,6 +16,7 @@ mod dsp_reference;
 mod emg_sound;
 mod export_c;
 mod front_end;
+mod fuzz;
 mod gui;
 mod heart_rate;
 mod measure;

@@ -175,7 +175,7 @@ fn noise_of_known_rms_is_measured_within_3_percent() {
 #[test]
 fn cmrr_of_a_known_leak_within_a_fifth_of_a_db() {
     // 1 V RMS of common mode at 50 Hz leaks 10 µV RMS into the input-referred channel, over
-    // 2 µV RMS of noise: CMRR = 20·log10(1e6 / 10) = 100 dB (REFERENCE.md §9 #23 for the form).
+    // 2 µV RMS of noise: CMRR = 20·log10(1e6 / 10) = 100 dB (docs/REFERENCES.md §9 #23 for the form).
     let fs = 1000.0;
     let mut rng = Rng::new(8);
     let x: Vec<f64> = (0..(20.0 * fs) as usize)

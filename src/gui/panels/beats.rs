@@ -18,9 +18,17 @@ pub fn rate_readout(ui: &mut egui::Ui, view: Option<&BeatView>) {
         ),
         Some(b) => {
             let q = b.quality;
+            let rhythm = match b.regularity {
+                Some(r) if r >= 0.75 => " · rhythm regular".to_string(),
+                Some(r) => format!(
+                    " · rhythm irregular ({:.0} % of intervals alike)",
+                    100.0 * r
+                ),
+                None => String::new(),
+            };
             let detail = match q.problem {
                 Some(p) => p.text().to_string(),
-                None => format!("quality {:.0} %", 100.0 * q.index),
+                None => format!("signal quality {:.0} %{rhythm}", 100.0 * q.index),
             };
             match b.rate {
                 crate::analysis::rate::RateState::Rate(_) => (b.rate.text(), RATE_COLOUR, detail),

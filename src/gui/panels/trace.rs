@@ -239,6 +239,8 @@ fn trace_plot(id: &str, height: f32, sweep: bool, unit: &str, link: egui::Id) ->
             "time (s)"
         })
         .y_axis_label(unit)
+        .y_grid_spacer(crate::gui::plot::value_spacer)
+        .y_axis_formatter(|m, _| crate::gui::plot::value_label(m))
         .link_axis(link, [true, false])
         .link_cursor(link, [true, false])
         .allow_drag(true)

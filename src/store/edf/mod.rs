@@ -1,7 +1,7 @@
 //! EDF+ (16-bit) and BDF+ (24-bit) recordings: a streaming, crash-safe writer and a reader.
 //!
 //! Layout per the EDF specification (Kemp et al. 1992), its EDF+ extension (Kemp & Olivan 2003)
-//! and BioSemi's BDF description; see REFERENCE.md §6. Files are always "continuous" (`EDF+C` /
+//! and BioSemi's BDF description; see docs/REFERENCES.md §6. Files are always "continuous" (`EDF+C` /
 //! `BDF+C`) with one annotation signal carrying the time-keeping TAL of every record, event
 //! markers and gap notes.
 //!
@@ -59,6 +59,8 @@ impl EdfKind {
 
 /// Text of the annotation that marks where real data end inside a padded last record.
 pub const DATA_END: &str = "leadline: end of data";
+/// The start of the annotation that says, in words, that the last record is padded.
+pub const PADDING: &str = "padding: ";
 /// Text of the annotation written where the stream had a gap (device lost and found again).
 pub const GAP: &str = "gap: device lost and found again";
 
@@ -124,7 +126,7 @@ mod tests {
 
     #[test]
     fn tal_bytes_match_the_spec_examples() {
-        // EDF+ specification (Kemp & Olivan 2003), the TAL examples; REFERENCE.md row 22.
+        // EDF+ specification (Kemp & Olivan 2003), the TAL examples; docs/REFERENCES.md §9 #22.
         let e = Event {
             onset_s: 180.0,
             duration_s: None,
@@ -147,11 +149,11 @@ mod tests {
 
     #[test]
     fn header_is_256_per_signal_and_fields_sit_at_their_offsets() {
-        // EDF spec (Kemp et al. 1992): header = 256·(ns+1) bytes; REFERENCE.md row 21 (ns = 2 → 768).
+        // EDF spec (Kemp et al. 1992): header = 256·(ns+1) bytes; docs/REFERENCES.md §9 #21 (ns = 2 → 768).
         let p = tmp("hdr.edf");
         let mut spec = EdfSpec::new(EdfKind::Edf, 500.0, vec!["ECG".into()], (-3276.8, 3276.7));
         spec.start = UNIX_EPOCH + Duration::from_secs(1_796_205_845); // 2026-12-02 10:04:05 UTC
-        let w = EdfWriter::create(&p, &spec).unwrap();
+        let mut w = EdfWriter::create(&p, &spec).unwrap();
         w.finish().unwrap();
         let b = std::fs::read(&p).unwrap();
         assert_eq!(b.len(), 768);

@@ -4,7 +4,7 @@ use std::path::Path;
 
 use super::header::Scaling;
 use super::tal::parse_tals;
-use super::{DATA_END, EdfKind};
+use super::{DATA_END, EdfKind, PADDING};
 use crate::store::{Recording, StoreError};
 
 /// One signal's header fields.
@@ -74,25 +74,52 @@ pub(super) fn parse_header(bytes: &[u8], path: &Path) -> Result<Header, StoreErr
             "not an EDF or BDF file (the version field is neither \"0\" nor 0xFF BIOSEMI)".into(),
         ));
     };
-    let num = |lo: usize, hi: usize, name: &str| -> Result<f64, StoreError> {
-        let t = text(&bytes[lo..hi]);
-        t.parse::<f64>()
-            .map_err(|_| bad(format!("header field '{name}' is not a number: {t:?}")))
-    };
-    let header_len = num(184, 192, "number of bytes in header")? as usize;
-    let count = num(236, 244, "number of data records")?;
-    let duration = num(244, 252, "duration of a data record")?;
-    let ns = num(252, 256, "number of signals")?;
-    if !((1.0..=4096.0).contains(&ns) && ns.fract() == 0.0) {
-        return Err(bad(format!("number of signals {ns} is not 1–4096")));
+    let ext = crate::store::extension_of(path);
+    match (kind, ext.as_str()) {
+        (EdfKind::Bdf, "edf") => {
+            return Err(bad(
+                "the version field says BDF (0xFF \"BIOSEMI\") but the name ends in .edf: a BDF file is named .bdf".into(),
+            ));
+        }
+        (EdfKind::Edf, "bdf") => {
+            return Err(bad(
+                "the version field says EDF (\"0\") but the name ends in .bdf: an EDF file is named .edf".into(),
+            ));
+        }
+        _ => {}
+    }
+    // Each field as the EDF specification defines it (Kemp et al. 1992; BDF: BioSemi's format
+    // description; docs/REFERENCES.md §6): whole numbers where it says so, and a range that the
+    // field's 8 characters can write without an exponent.
+    let field = |lo: usize, hi: usize| text(&bytes[lo..hi]);
+    let header_len = whole_field(&field(184, 192), "number of bytes in header").map_err(bad)?;
+    let count = whole_field(&field(236, 244), "number of data records").map_err(bad)?;
+    if count < -1 {
+        return Err(bad(format!(
+            "header field 'number of data records' is {count}: expected −1 (unknown) or a count"
+        )));
+    }
+    let duration = real_field(&field(244, 252), "duration of a data record").map_err(bad)?;
+    if !(duration > 0.0 && duration <= 86_400.0) {
+        return Err(bad(format!(
+            "header field 'duration of a data record' is {}: expected more than 0 and at most a day (s)",
+            crate::numeric::short(duration)
+        )));
+    }
+    let ns = whole_field(&field(252, 256), "number of signals").map_err(bad)?;
+    if !(1..=4096).contains(&ns) {
+        return Err(bad(format!(
+            "header field 'number of signals' is {ns}: expected 1–4096"
+        )));
     }
     let ns = ns as usize;
-    if header_len != 256 * (ns + 1) || bytes.len() < header_len {
+    if header_len != 256 * (ns as i64 + 1) || bytes.len() < 256 * (ns + 1) {
         return Err(bad(format!(
             "header size {header_len} does not match {ns} signals ({} expected) or the file is cut inside it",
             256 * (ns + 1)
         )));
     }
+    let header_len = 256 * (ns + 1);
     let h = &bytes[256..header_len];
     let mut offset = 0;
     let mut column = |width: usize| -> Vec<String> {
@@ -111,45 +138,60 @@ pub(super) fn parse_header(bytes: &[u8], path: &Path) -> Result<Header, StoreErr
     let dmaxs = column(8);
     let _prefilter = column(80);
     let sprs = column(8);
+    let (dlo, dhi) = kind.digital_range();
     let mut signals = Vec::with_capacity(ns);
     for i in 0..ns {
-        let f = |v: &str, name: &str| -> Result<f64, StoreError> {
-            v.parse::<f64>().map_err(|_| {
-                bad(format!(
-                    "signal {} ({}): '{name}' is not a number: {v:?}",
-                    i + 1,
-                    labels[i]
-                ))
-            })
-        };
-        let scaling = Scaling {
-            pmin: f(&pmins[i], "physical minimum")?,
-            pmax: f(&pmaxs[i], "physical maximum")?,
-            dmin: f(&dmins[i], "digital minimum")? as i32,
-            dmax: f(&dmaxs[i], "digital maximum")? as i32,
-        };
-        let spr = f(&sprs[i], "samples per record")?;
-        if !(spr >= 1.0 && spr.fract() == 0.0) {
-            return Err(bad(format!(
-                "signal {} ({}): samples per record {spr} is not a positive whole number",
-                i + 1,
-                labels[i]
+        let at = |e: String| bad(format!("signal {} ({}): {e}", i + 1, labels[i]));
+        let pmin = real_field(&pmins[i], "physical minimum").map_err(at)?;
+        let pmax = real_field(&pmaxs[i], "physical maximum").map_err(at)?;
+        let dmin = whole_field(&dmins[i], "digital minimum").map_err(at)?;
+        let dmax = whole_field(&dmaxs[i], "digital maximum").map_err(at)?;
+        for (v, name) in [(dmin, "digital minimum"), (dmax, "digital maximum")] {
+            if v < i64::from(dlo) || v > i64::from(dhi) {
+                return Err(at(format!(
+                    "'{name}' {v} is outside the format's {dlo}…{dhi}"
+                )));
+            }
+        }
+        if dmax <= dmin {
+            return Err(at(format!(
+                "'digital maximum' {dmax} is not above 'digital minimum' {dmin}"
             )));
         }
-        if scaling.dmax <= scaling.dmin || scaling.pmax == scaling.pmin {
-            return Err(bad(format!(
-                "signal {} ({}): empty physical or digital range",
-                i + 1,
-                labels[i]
+        if pmax == pmin {
+            return Err(at(format!(
+                "'physical minimum' and 'physical maximum' are both {}",
+                crate::numeric::short(pmin)
+            )));
+        }
+        let spr = whole_field(&sprs[i], "samples per record").map_err(at)?;
+        if spr < 1 {
+            return Err(at(format!(
+                "'samples per record' is {spr}: expected 1 or more"
+            )));
+        }
+        let rate = spr as f64 / duration;
+        if rate > MAX_RATE_HZ {
+            return Err(at(format!(
+                "{spr} samples per {} s record is {} Hz, above the {} Hz any biopotential converter runs at",
+                crate::numeric::short(duration),
+                crate::numeric::short(rate),
+                crate::numeric::short(MAX_RATE_HZ)
             )));
         }
         signals.push(Signal {
             label: labels[i].clone(),
             dimension: dims[i].clone(),
-            scaling,
+            scaling: Scaling {
+                pmin,
+                pmax,
+                dmin: dmin as i32,
+                dmax: dmax as i32,
+            },
             spr: spr as usize,
         });
     }
+    let count = count as f64;
     Ok(Header {
         kind,
         header_len,
@@ -157,6 +199,27 @@ pub(super) fn parse_header(bytes: &[u8], path: &Path) -> Result<Header, StoreErr
         duration,
         signals,
     })
+}
+
+/// The highest signal rate a file may claim, Hz.
+const MAX_RATE_HZ: f64 = 1e6;
+
+/// A header field that the specification defines as a whole number (8 characters at most, so
+/// no exponent and at most 99,999,999).
+fn whole_field(t: &str, name: &str) -> Result<i64, String> {
+    t.parse::<i64>()
+        .map_err(|_| format!("header field '{name}' is not a whole number: {t:?}"))
+}
+
+/// A header field that the specification defines as a number: finite, and no larger than its 8
+/// characters write without an exponent.
+fn real_field(t: &str, name: &str) -> Result<f64, String> {
+    match t.parse::<f64>() {
+        Ok(v) if v.is_finite() && v.abs() < 1e8 => Ok(v),
+        _ => Err(format!(
+            "header field '{name}' is not a number of at most 8 characters: {t:?}"
+        )),
+    }
 }
 
 /// True for the signal that carries annotations (EDF+/BDF+).
@@ -245,16 +308,18 @@ pub fn read_group(path: &Path, pick: Option<usize>) -> Result<Recording, StoreEr
         signals,
     } = parse_header(&bytes, path)?;
     let width = kind.bytes();
-    let record_len: usize = signals.iter().map(|s| s.spr * width).sum();
+    // The record's length from the header, then the number of records the file's own length
+    // confirms: nothing below is sized from a header field before this.
+    let record_len = signals
+        .iter()
+        .try_fold(0usize, |sum, s| s.spr.checked_mul(width)?.checked_add(sum))
+        .ok_or_else(|| bad("the signals' samples per record add up beyond any file".into()))?;
     let whole = (bytes.len() - header_len) / record_len;
     let records = if count >= 0.0 && (count as usize) <= whole {
         count as usize
     } else {
         whole
     };
-    if duration.is_nan() || duration <= 0.0 {
-        return Err(bad(format!("record duration {duration} s is not positive")));
-    }
     let is_ann = is_annotations;
     let chosen = choose_signal(path, &signals, pick)?;
     let spr = signals[chosen].spr;
@@ -266,6 +331,11 @@ pub fn read_group(path: &Path, pick: Option<usize>) -> Result<Recording, StoreEr
     let mut events = Vec::new();
     let mut infos = Vec::new();
     let mut notes = Vec::new();
+    if count > whole as f64 {
+        notes.push(format!(
+            "the header counts {count} data records but the file holds {whole} whole one(s): read those"
+        ));
+    }
     let mut sig_offset = 0;
     for s in &signals {
         let rate = s.spr as f64 / duration;
@@ -321,7 +391,8 @@ pub fn read_group(path: &Path, pick: Option<usize>) -> Result<Recording, StoreEr
         for c in &mut channels {
             c.truncate(n);
         }
-        events.retain(|e| e.text != DATA_END);
+        // The end marker and the padding note are the file's own bookkeeping, not events.
+        events.retain(|e| e.text != DATA_END && !e.text.starts_with(PADDING));
     }
     Ok(Recording {
         fs_hz,

@@ -7,7 +7,7 @@ use std::time::{Duration, Instant};
 
 use super::header::{Scaling, field, fit8, header_bytes, record_layout};
 use super::tal::{clean_text, onset_text, tal};
-use super::{ANNOTATION_BYTES, DATA_END, EdfKind, EdfSpec};
+use super::{ANNOTATION_BYTES, DATA_END, EdfKind, EdfSpec, PADDING};
 use crate::store::{Event, Recording, StoreError};
 
 /// What a finished (or stopped) file holds.
@@ -18,6 +18,8 @@ pub struct EdfSummary {
     pub records: u64,
     /// Frames of real data (without the last record's padding).
     pub frames: u64,
+    /// Frames of padding that fill the last record (after the data-end annotation).
+    pub padded_frames: u64,
     /// Samples held at the physical range's ends.
     pub clipped: u64,
     /// File size, bytes.
@@ -219,14 +221,36 @@ impl EdfWriter {
     ///
     /// # Errors
     /// The OS refused the write.
-    pub fn finish(mut self) -> Result<EdfSummary, StoreError> {
+    pub fn finish(&mut self) -> Result<EdfSummary, StoreError> {
+        let result = self.finish_records();
+        if result.is_err() {
+            // A half-written record is cut off; the header already counts only whole ones.
+            let _ = self.file.set_len(self.bytes);
+        }
+        result
+    }
+
+    fn finish_records(&mut self) -> Result<EdfSummary, StoreError> {
         let partial = self.pending[0].len();
+        let padded_frames = if partial > 0 {
+            (self.spr - partial) as u64
+        } else {
+            0
+        };
         if partial > 0 {
             let end = self.elapsed_s();
             self.events.push_back(Event {
                 onset_s: end,
                 duration_s: None,
                 text: DATA_END.into(),
+            });
+            // Said in words too, for any EDF+ reader: what follows the data is not signal.
+            self.events.push_back(Event {
+                onset_s: end,
+                duration_s: Some(padded_frames as f64 * self.duration_s / self.spr as f64),
+                text: format!(
+                    "{PADDING}{padded_frames} samples per signal repeat the last value to fill the record"
+                ),
             });
             for ch in &mut self.pending {
                 let last = ch.last().copied().unwrap_or(0.0);
@@ -250,6 +274,7 @@ impl EdfWriter {
             path: self.path.clone(),
             records: self.records,
             frames: self.frames,
+            padded_frames,
             clipped: self.clipped,
             bytes: self.bytes,
         })
@@ -319,7 +344,19 @@ impl crate::store::Sink for EdfWriter {
         EdfWriter::clipped(self)
     }
 
-    fn finish(self: Box<Self>) -> Result<u64, StoreError> {
-        EdfWriter::finish(*self).map(|s| s.bytes)
+    fn frames_held(&self) -> u64 {
+        (self.records * self.spr as u64).min(self.frames)
+    }
+
+    fn cut_to_held(&mut self) {
+        let _ = self.file.set_len(self.bytes);
+    }
+
+    fn finish(&mut self) -> Result<crate::store::Finished, StoreError> {
+        EdfWriter::finish(self).map(|s| crate::store::Finished {
+            bytes: s.bytes,
+            frames: s.frames,
+            padded_frames: s.padded_frames,
+        })
     }
 }
