@@ -570,7 +570,7 @@ fn a_clean_irregular_rhythm_reads_as_a_clean_signal() {
             assert!(reg < 50.0, "{}: regularity {reg:.0} %", rhythm.name());
         }
         let mut noisy = x.clone();
-        white(&mut noisy, 250.0, 9);
+        white(&mut noisy, 600.0, 9);
         let (_, evals) = read(&noisy, fs);
         let noisy_q = evals
             .iter()

@@ -250,6 +250,8 @@ fn a_full_disk_stops_the_recording_with_a_message_and_the_monitor_runs_on() {
     };
     assert!(status.failed, "{status:?}");
     assert!(status.active.is_none());
+    // The count is what the file holds (/dev/full keeps nothing), not what was pushed.
+    assert_eq!(status.frames, 0, "{status:?}");
     assert!(
         status.message.contains("recording stopped") && status.message.contains("full.csv"),
         "{}",
@@ -424,4 +426,33 @@ fn record_takes_its_source_and_chain_from_a_setup() {
     let at = 256 + ns * (16 + 80 + 8 * 5);
     let prefilter = String::from_utf8_lossy(&bytes[at..at + 80]).to_string();
     assert!(prefilter.contains("LP:30Hz(o2)"), "{prefilter}");
+}
+
+/// The summary counts the frames the file holds, and names the padding of the last EDF record
+/// (the EDF specification's records are all one length: Kemp et al. 1992; docs/REFERENCES.md §6).
+#[test]
+fn record_summary_counts_the_file_and_names_the_padding() {
+    let out = tmp("padded.edf");
+    let o = Command::new(env!("CARGO_BIN_EXE_leadline"))
+        .args(["record", "--source", "synth", "--seconds", "2.3", "--out"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    let stdout = String::from_utf8_lossy(&o.stdout);
+    let summary: serde_json::Value = serde_json::from_str(stdout.lines().last().unwrap()).unwrap();
+    let frames = summary["frames"].as_u64().unwrap();
+    let padded = summary["padded_frames"].as_u64().unwrap();
+    let rec = edf::read(&out).unwrap();
+    assert_eq!(rec.len() as u64, frames, "{summary}");
+    // Records are whole seconds or fractions of one: data plus padding fill whole records.
+    let bytes = std::fs::read(&out).unwrap();
+    let field = |a: usize, b: usize| String::from_utf8_lossy(&bytes[a..b]).trim().to_string();
+    let records: u64 = field(236, 244).parse().unwrap();
+    assert!(padded > 0, "2.3 s does not fill whole records: {summary}");
+    assert_eq!((frames + padded) % records, 0, "{summary}");
+    assert!(
+        padded < (frames + padded) / records,
+        "less than one record of padding"
+    );
 }
