@@ -36,6 +36,74 @@ pub fn median<'a>(values: impl IntoIterator<Item = &'a f64>) -> f64 {
     percentile(&mut v, 50.0)
 }
 
+/// The lowest and highest value of each run of `per` consecutive values (the last run may be
+/// shorter): the one min/max decimator behind every trace, envelope and plotted signal. Exact
+/// at the extremes: every value lies within its run's pair, and each pair's ends are values of
+/// the run, so no peak is lost. NaN values are skipped (a run of only NaN gives NaN, NaN).
+pub fn minmax_runs(x: &[f64], per: usize) -> (Vec<f64>, Vec<f64>) {
+    let per = per.max(1);
+    let n = x.len().div_ceil(per);
+    let (mut lo, mut hi) = (Vec::with_capacity(n), Vec::with_capacity(n));
+    for run in x.chunks(per) {
+        let (a, b) = run
+            .iter()
+            .filter(|v| !v.is_nan())
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
+                (a.min(v), b.max(v))
+            });
+        if a > b {
+            lo.push(f64::NAN);
+            hi.push(f64::NAN);
+        } else {
+            lo.push(a);
+            hi.push(b);
+        }
+    }
+    (lo, hi)
+}
+
+/// Reduces a polyline sorted by x to at most two points for each of `columns` equal x-intervals:
+/// the lowest and the highest, in x order (so the line's shape is kept). Exact at the extremes
+/// like [`minmax_runs`]. A line already that short is returned as it is.
+pub fn decimate_xy(pts: &[[f64; 2]], columns: usize) -> Vec<[f64; 2]> {
+    let (Some(first), Some(last)) = (pts.first(), pts.last()) else {
+        return Vec::new();
+    };
+    if pts.len() <= 2 * columns || columns == 0 {
+        return pts.to_vec();
+    }
+    let (x0, span) = (first[0], (last[0] - first[0]).max(f64::MIN_POSITIVE));
+    // The last point sits on the far edge: it belongs to the last column, not one past it.
+    let column = |x: f64| ((((x - x0) / span) * columns as f64) as usize).min(columns - 1);
+    let mut out = Vec::with_capacity(2 * columns + 2);
+    let mut i = 0;
+    while i < pts.len() {
+        let col = column(pts[i][0]);
+        let (mut lo, mut hi) = (pts[i], pts[i]);
+        let mut j = i + 1;
+        while j < pts.len() && column(pts[j][0]) == col {
+            if pts[j][1] < lo[1] {
+                lo = pts[j];
+            }
+            if pts[j][1] > hi[1] {
+                hi = pts[j];
+            }
+            j += 1;
+        }
+        if lo[0] <= hi[0] {
+            out.push(lo);
+            if hi != lo {
+                out.push(hi);
+            }
+        } else {
+            out.push(hi);
+            out.push(lo);
+        }
+        i = j;
+    }
+    out
+}
+
 /// A short form of a number for messages: `125`, `0.01`, `1e-12`, never 309 digits.
 pub fn short(v: f64) -> String {
     if v == 0.0 || !v.is_finite() {
@@ -66,5 +134,40 @@ mod tests {
         assert_eq!(median(&[3.0, 1.0, 2.0]), 2.0);
         assert_eq!(short(1e308), "1e308");
         assert_eq!(short(49.5), "49.5");
+    }
+
+    #[test]
+    fn min_max_runs_keep_every_extreme() {
+        // Random signals of awkward lengths, and a lone one-sample spike: every run's pair
+        // holds exactly the run's extremes, computed here the slow way.
+        let mut rng = crate::rng::Rng::new(4);
+        for (len, per) in [(1000, 7), (1001, 10), (5, 9), (4096, 1), (333, 333)] {
+            let mut x: Vec<f64> = (0..len).map(|_| rng.normal() * 100.0).collect();
+            x[len / 3] = 1e4;
+            let (lo, hi) = minmax_runs(&x, per);
+            assert_eq!(lo.len(), len.div_ceil(per));
+            for (k, run) in x.chunks(per).enumerate() {
+                let want_lo = run.iter().copied().fold(f64::MAX, f64::min);
+                let want_hi = run.iter().copied().fold(f64::MIN, f64::max);
+                assert_eq!((lo[k], hi[k]), (want_lo, want_hi));
+            }
+            assert_eq!(hi.iter().copied().fold(f64::MIN, f64::max), 1e4);
+        }
+        // The same for a polyline: a one-sample spike survives 10 000 → 100 columns.
+        let pts: Vec<[f64; 2]> = (0..10_000)
+            .map(|i| {
+                let y = if i == 4321 {
+                    5.0
+                } else {
+                    (f64::from(i) * 0.01).sin()
+                };
+                [f64::from(i), y]
+            })
+            .collect();
+        let d = decimate_xy(&pts, 100);
+        assert!(d.len() <= 200, "{}", d.len());
+        assert!(d.contains(&[4321.0, 5.0]));
+        let low = pts.iter().map(|p| p[1]).fold(f64::MAX, f64::min);
+        assert!(d.iter().any(|p| p[1] == low));
     }
 }

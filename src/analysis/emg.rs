@@ -624,9 +624,12 @@ pub fn view(raw: &[f64], fs: f64, t_end_s: f64, s: &EmgSettings) -> EmgView {
     match analyse(raw, fs, s) {
         Ok(an) => {
             let step = (raw.len() / 2000).max(1);
+            // The envelopes are never negative: each run's maximum is what a plot needs.
             let reduce = |v: &[f64]| -> Vec<f32> {
-                v.chunks(step)
-                    .map(|c| c.iter().copied().fold(f64::MIN, f64::max) as f32)
+                crate::numeric::minmax_runs(v, step)
+                    .1
+                    .iter()
+                    .map(|&m| m as f32)
                     .collect()
             };
             let shift = |b: &Burst| Burst {

@@ -42,7 +42,16 @@ impl Cli {
     /// says what range it wants instead of "unexpected argument").
     pub fn definition() -> clap::Command {
         fn negatives(c: clap::Command) -> clap::Command {
-            c.allow_negative_numbers(true).mut_subcommands(negatives)
+            // `-1` and `-inf` are values of a numeric option, for its range check to judge.
+            c.allow_negative_numbers(true)
+                .mut_args(|a| {
+                    if num::is_numeric(a.get_value_parser()) {
+                        a.allow_hyphen_values(true)
+                    } else {
+                        a
+                    }
+                })
+                .mut_subcommands(negatives)
         }
         negatives(<Cli as clap::CommandFactory>::command())
     }

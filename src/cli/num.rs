@@ -10,6 +10,24 @@
 
 pub use crate::numeric::short;
 
+/// True for the value parsers of this module (numbers and the few typed values holding one).
+pub fn is_numeric(p: &clap::builder::ValueParser) -> bool {
+    use std::any::TypeId;
+    let t = p.type_id();
+    [
+        TypeId::of::<f64>(),
+        TypeId::of::<u16>(),
+        TypeId::of::<u32>(),
+        TypeId::of::<u64>(),
+        TypeId::of::<usize>(),
+        TypeId::of::<NotchArg>(),
+        TypeId::of::<ZeroArg>(),
+        TypeId::of::<WindowSize>(),
+    ]
+    .into_iter()
+    .any(|id| t == id)
+}
+
 /// A value parser for a real number in `lo..=hi` (`unit` after the range in messages).
 pub fn real(
     lo: f64,

@@ -292,20 +292,13 @@ pub fn trace_png(
 /// Min/max columns of `x` (µV) at `fs`: about `n` columns, for plotting long signals.
 pub fn columns_of(x: &[f64], fs: f64, n: usize) -> Columns {
     let per = x.len().div_ceil(n.max(1)).max(1);
-    let mut c = Columns {
+    let (lo, hi) = crate::numeric::minmax_runs(x, per);
+    Columns {
         t0_s: 0.0,
         dt_s: per as f64 / fs,
-        min: Vec::new(),
-        max: Vec::new(),
-    };
-    for chunk in x.chunks(per) {
-        let (a, b) = chunk
-            .iter()
-            .fold((f64::MAX, f64::MIN), |(a, b), &v| (a.min(v), b.max(v)));
-        c.min.push(a as f32);
-        c.max.push(b as f32);
+        min: lo.iter().map(|&v| v as f32).collect(),
+        max: hi.iter().map(|&v| v as f32).collect(),
     }
-    c
 }
 
 /// A measured response (frequency, dB, trusted) as points over the design's gain (a line,

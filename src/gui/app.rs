@@ -245,7 +245,7 @@ impl LeadlineApp {
             && !self.paused
         {
             if let Some(b) = &mut self.bench {
-                b.on_snapshot(s.latency_ms);
+                b.on_snapshot(s.latency_ms, s.stats.snapshots_dropped);
             }
             // An automatic notch is moved by the DSP thread: show where it is now.
             if self.settings.setup.chain.notch.auto && s.chain.notch.auto {
@@ -1085,7 +1085,10 @@ impl LeadlineApp {
     fn lower_strip(&mut self, ui: &mut egui::Ui, fs: f64) {
         match self.settings.setup.view.lower {
             LowerView::Response => {
-                self.parts.update(&self.settings.setup.chain, fs);
+                let ctx = ui.ctx().clone();
+                self.parts.update(&self.settings.setup.chain, fs, move || {
+                    ctx.request_repaint()
+                });
                 panels::response::show(
                     ui,
                     &self.response,
@@ -1116,7 +1119,10 @@ impl LeadlineApp {
                 panels::parts::show(ui, &mut self.parts, &self.settings.setup.chain, fs);
             }
             LowerView::Measure => {
-                self.parts.update(&self.settings.setup.chain, fs);
+                let ctx = ui.ctx().clone();
+                self.parts.update(&self.settings.setup.chain, fs, move || {
+                    ctx.request_repaint()
+                });
                 let snap = self.view.snapshot.as_ref();
                 let sections = snap.map(|s| Arc::clone(&s.sections));
                 let n = snap.map_or(1, |s| s.traces.len());

@@ -28,6 +28,9 @@ pub struct BenchReport {
     pub eframe_frame_ms_p99: f64,
     /// Frames drawn with no new snapshot since the previous one.
     pub frames_without_new_data: u64,
+    /// Snapshots the DSP thread made but the window never drew (dropped for a newer one), over
+    /// the measured time.
+    pub display_drops: u64,
     pub snapshots: u64,
     pub latency_ms_median: f64,
     pub latency_ms_p99: f64,
@@ -50,6 +53,9 @@ pub struct BenchRun {
     eframe_ms: Vec<f64>,
     stale_frames: u64,
     latency_ms: Vec<f64>,
+    /// The pipeline's count of dropped snapshots: at the start of the measurement, and now.
+    drops_at_start: Option<u64>,
+    drops_now: u64,
     pub report: Option<BenchReport>,
 }
 
@@ -101,6 +107,8 @@ impl BenchRun {
             eframe_ms: Vec::new(),
             stale_frames: 0,
             latency_ms: Vec::new(),
+            drops_at_start: None,
+            drops_now: 0,
             report: None,
         }
     }
@@ -129,10 +137,12 @@ impl BenchRun {
         }
     }
 
-    /// One snapshot taken.
-    pub fn on_snapshot(&mut self, latency_ms: f64) {
+    /// One snapshot taken; `dropped` is the pipeline's running count of dropped snapshots.
+    pub fn on_snapshot(&mut self, latency_ms: f64, dropped: u64) {
         if self.measuring() {
             self.latency_ms.push(latency_ms);
+            self.drops_at_start.get_or_insert(dropped);
+            self.drops_now = dropped;
         }
     }
 
@@ -181,6 +191,9 @@ impl BenchRun {
             eframe_frame_ms_median: percentile(&mut e, 50.0),
             eframe_frame_ms_p99: percentile(&mut e, 99.0),
             frames_without_new_data: self.stale_frames,
+            display_drops: self
+                .drops_now
+                .saturating_sub(self.drops_at_start.unwrap_or(self.drops_now)),
             snapshots: l.len() as u64,
             latency_ms_median: percentile(&mut l, 50.0),
             latency_ms_p99: percentile(&mut l, 99.0),
@@ -198,7 +211,7 @@ impl BenchReport {
         let nan0 = |v: f64| if v.is_finite() { v } else { 0.0 };
         let mut s = format!(
             "monitor bench: view {}{}, {:.1} s measured after {WARM_UP_S} s warm-up\n\
-             frames {} ({:.1} frames/s, {} without new data); app time (logic + ui) per frame median {:.2} ms, p99 {:.2} ms, max {:.2} ms\n\
+             frames {} ({:.1} frames/s, {} without new data, {} display drops); app time (logic + ui) per frame median {:.2} ms, p99 {:.2} ms, max {:.2} ms\n\
              eframe's frame CPU time (app + tessellation + GL calls) median {:.2} ms, p99 {:.2} ms\n\
              snapshots {}; newest-sample age at snapshot median {:.2} ms, p99 {:.2} ms\n\
              process CPU {:.1} % of one core; resident {:.1} MB ({:+.1} MB over the run)\n",
@@ -208,6 +221,7 @@ impl BenchReport {
             self.frames,
             self.fps,
             self.frames_without_new_data,
+            self.display_drops,
             nan0(self.frame_ms_median),
             nan0(self.frame_ms_p99),
             nan0(self.frame_ms_max),

@@ -549,7 +549,11 @@ pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
             }
         }
         let now = Instant::now();
+        // The display path is paced by the GUI: a snapshot is made only once the previous one
+        // was taken, so none is built to be thrown away (the window drew too slowly for it)
+        // and none is dropped. Data never wait on this: blocks keep flowing to the recorder.
         if dsp.due(now)
+            && ports.snapshot_tx.is_empty()
             && let Some(snap) = dsp.snapshot(now, false)
         {
             offer(&ports, snap, &mut dsp.stats);

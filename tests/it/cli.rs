@@ -528,3 +528,188 @@ fn a_negative_rate_says_what_range_it_wants() {
     assert_eq!(out.status.code(), Some(2), "{err}");
     assert!(err.len() < 200 && err.contains("0.01–2000 Hz"), "{err}");
 }
+
+/// The hostile-input review's cases, each with its exit code and the one line expected.
+#[test]
+fn the_reviewed_bad_options_each_give_one_line_and_exit_2() {
+    let input = tmp("review.csv");
+    std::fs::write(&input, "time_s,ch1\n0,0\n0.004,1\n").unwrap();
+    let i = input.to_str().unwrap();
+    let out = tmp("review-out.csv");
+    let o = out.to_str().unwrap();
+    let rate = "125–4000 Hz";
+    let cases: Vec<(Vec<&str>, &str)> = vec![
+        (vec!["conform", "--fs", "NaN", "--report", o], rate),
+        (vec!["conform", "--fs", "-inf", "--report", o], rate),
+        (vec!["conform", "--fs", "-1", "--report", o], rate),
+        (vec!["conform", "--fs", "0", "--report", o], rate),
+        (vec!["conform", "--fs", "inf", "--report", o], rate),
+        (vec!["conform", "--fs", "1e308", "--report", o], rate),
+        (vec!["conform", "--fs", "1e9", "--report", o], rate),
+        (vec!["simulate", "--seconds=1e308"], "0.001–86400 s"),
+        (vec!["filter", "--fs=NaN", "--input", i, "--out", o], rate),
+        (vec!["filter", "--fs=inf", "--input", i, "--out", o], rate),
+        (vec!["emg", "--fs=NaN", "--input", i, "--out", o], rate),
+        (vec!["parts", "--fs=NaN", "--out", o], rate),
+        (
+            vec!["filter", "--input", i, "--out", o, "--highpass", "1e-308"],
+            "0.01–2000 Hz",
+        ),
+        (
+            vec!["parts", "--fs", "500", "--out", o, "--lowpass", "1e-308"],
+            "0.01–2000 Hz",
+        ),
+        (
+            vec![
+                "conform",
+                "--fs",
+                "500",
+                "--report",
+                o,
+                "--notch",
+                "50",
+                "--notch-q",
+                "1e308",
+            ],
+            "0.5–100",
+        ),
+        (
+            vec![
+                "sound",
+                "--input",
+                i,
+                "--out",
+                o,
+                "--notch",
+                "50",
+                "--notch-q",
+                "1e308",
+            ],
+            "0.5–100",
+        ),
+        (
+            vec![
+                "export-c",
+                "--fs",
+                "500",
+                "--out",
+                o,
+                "--highpass",
+                "1e-308",
+            ],
+            "0.01–2000 Hz",
+        ),
+        (
+            vec![
+                "measure",
+                "response",
+                "--input",
+                i,
+                "--stimulus",
+                "0",
+                "--output",
+                "1",
+                "--out",
+                o,
+                "--highpass",
+                "NaN",
+            ],
+            "0.01–2000 Hz",
+        ),
+        (
+            vec![
+                "measure",
+                "response",
+                "--input",
+                i,
+                "--stimulus",
+                "0",
+                "--output",
+                "1",
+                "--out",
+                o,
+                "--lowpass",
+                "-5",
+            ],
+            "0.01–2000 Hz",
+        ),
+        (
+            vec![
+                "measure",
+                "response",
+                "--input",
+                i,
+                "--stimulus",
+                "0",
+                "--output",
+                "1",
+                "--out",
+                o,
+                "--notch",
+                "NaN",
+            ],
+            "1–2000 Hz",
+        ),
+        (
+            vec![
+                "measure",
+                "response",
+                "--input",
+                i,
+                "--stimulus",
+                "0",
+                "--output",
+                "1",
+                "--out",
+                o,
+                "--notch-q",
+                "-1",
+            ],
+            "0.5–100",
+        ),
+        (
+            vec![
+                "measure",
+                "response",
+                "--input",
+                i,
+                "--stimulus",
+                "0",
+                "--output",
+                "1",
+                "--out",
+                o,
+                "--highpass-order",
+                "0",
+            ],
+            "1–8",
+        ),
+        (
+            vec![
+                "measure",
+                "response",
+                "--input",
+                i,
+                "--stimulus",
+                "0",
+                "--output",
+                "1",
+                "--out",
+                o,
+                "--lowpass-order",
+                "99",
+            ],
+            "1–8",
+        ),
+    ];
+    for (args, says) in cases {
+        let out = leadline(&args);
+        let err = String::from_utf8_lossy(&out.stderr);
+        let what = args.join(" ");
+        assert_eq!(out.status.code(), Some(2), "{what}: {err}");
+        let lines: Vec<&str> = err.lines().filter(|l| !l.trim().is_empty()).collect();
+        assert_eq!(lines.len(), 1, "{what}: {err}");
+        assert!(lines[0].contains(says), "{what}: {err}");
+        assert!(lines[0].len() < 160, "{what}: {err}");
+    }
+}

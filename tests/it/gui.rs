@@ -642,3 +642,91 @@ fn sound_without_a_sound_card_says_so_and_the_monitor_runs_on() {
             .is_some_and(|s| s.stats.frames > frames + 500)
     });
 }
+
+/// The numbers painted right of the side panel, grouped into columns by their right edge: a
+/// value axis is a column of numbers at different heights.
+fn value_axis_columns(h: &Harness<'static, LeadlineApp>, min_x: f32) -> Vec<Vec<String>> {
+    use eframe::egui::epaint::Shape;
+    fn walk(s: &Shape, out: &mut Vec<(f32, f32, String)>) {
+        match s {
+            Shape::Text(t) => {
+                let text = t.galley.text().trim().to_string();
+                if text.parse::<f64>().is_ok() {
+                    let r = t.visual_bounding_rect();
+                    out.push((r.max.x, r.center().y, text));
+                }
+            }
+            Shape::Vec(v) => v.iter().for_each(|s| walk(s, out)),
+            _ => {}
+        }
+    }
+    let mut texts = Vec::new();
+    for cs in &h.output().shapes {
+        walk(&cs.shape, &mut texts);
+    }
+    let mut cols: std::collections::BTreeMap<i32, Vec<(f32, String)>> = Default::default();
+    for (right, y, text) in texts {
+        if right >= min_x {
+            cols.entry((right / 3.0).round() as i32)
+                .or_default()
+                .push((y, text));
+        }
+    }
+    // Down one axis the values fall; where they rise again the next plot's axis begins.
+    let mut axes = Vec::new();
+    for mut c in cols.into_values() {
+        c.sort_by(|a, b| a.0.total_cmp(&b.0));
+        let mut axis: Vec<String> = Vec::new();
+        let mut last = f64::INFINITY;
+        for (_, text) in c {
+            let v: f64 = text.parse().unwrap();
+            if v >= last && !axis.is_empty() {
+                axes.push(std::mem::take(&mut axis));
+            }
+            last = v;
+            axis.push(text);
+        }
+        axes.push(axis);
+    }
+    axes
+}
+
+/// Every trace's value axis shows at least three labelled values, on a 1 mV signal and on a
+/// 50 µV one (a ±450 µV trace once showed "0" alone).
+#[test]
+fn the_trace_axes_have_three_labels_on_a_millivolt_and_a_fifty_microvolt_signal() {
+    for (r_mv, noise) in [(1.0, 8.0), (0.05, 1.0)] {
+        let mut settings = Settings::default();
+        settings.setup.synth.r_mv = r_mv;
+        settings.setup.synth.noise_uv = noise;
+        settings.setup.synth.mains_uv = 0.2 * noise;
+        settings.setup.view.lower = leadline::gui::state::LowerView::Hidden;
+        let app = LeadlineApp::new(
+            settings,
+            Arc::new(|| {}),
+            AppOptions::default(),
+            Arc::new(Mutex::new(Ok(()))),
+        )
+        .unwrap();
+        let mut h = harness_sized(app, [1280.0, 800.0]);
+        let deadline = Instant::now() + Duration::from_secs(20);
+        while h
+            .state()
+            .view()
+            .snapshot
+            .as_ref()
+            .is_none_or(|s| s.t_end_s < 4.0)
+        {
+            assert!(Instant::now() < deadline, "no data");
+            h.run_steps(1);
+            std::thread::sleep(Duration::from_millis(50));
+        }
+        h.run_steps(2);
+        // The side panel is about 300 px wide; the traces' axes are right of it.
+        let cols = value_axis_columns(&h, 320.0);
+        let axes: Vec<&Vec<String>> = cols.iter().filter(|c| c.len() >= 3).collect();
+        println!("R {r_mv} mV: columns of numbers {cols:?}");
+        // Two traces (before and after the filters), each with at least three values.
+        assert!(axes.len() >= 2, "R {r_mv} mV: {cols:?}");
+    }
+}

@@ -12,6 +12,16 @@ use crate::dsp::chain::ChainSettings;
 use crate::dsp::response;
 use crate::gui::plot::{FILTERED_COLOUR, RAW_COLOUR, decade_spacer};
 
+/// What a realisation depends on.
+type PartsKey = (ChainSettings, String, Series, u64, u64, u64);
+
+/// A realisation made off the UI thread.
+#[derive(Debug)]
+struct Realised {
+    stages: Result<Vec<Stage>, String>,
+    curves: Vec<[f64; 5]>,
+}
+
 /// The view's inputs and its cached result.
 #[derive(Debug, Clone)]
 pub struct PartsView {
@@ -20,7 +30,12 @@ pub struct PartsView {
     r_tol_pct: f64,
     c_tol_pct: f64,
     budget: crate::analog::gain_budget::Budget,
-    key: Option<(ChainSettings, String, Series, u64, u64, u64)>,
+    key: Option<PartsKey>,
+    /// The realisation running on its own thread (the Monte Carlo takes tens of ms: never in
+    /// a frame); its result replaces `stages` and `curves` when it arrives.
+    job: Option<crossbeam_channel::Receiver<Realised>>,
+    /// Realisations finished since the view was made (for the tests and the bench).
+    pub realisations: u64,
     stages: Result<Vec<Stage>, String>,
     curves: Vec<[f64; 5]>,
     /// Base path of the files "Save" writes (.svg, .cir, .csv are added).
@@ -45,6 +60,8 @@ impl Default for PartsView {
             c_tol_pct: 5.0,
             budget: Default::default(),
             key: None,
+            job: None,
+            realisations: 0,
             stages: Ok(Vec::new()),
             curves: Vec::new(),
         }
@@ -72,8 +89,30 @@ impl PartsView {
         self.stages.as_deref().ok()
     }
 
-    /// Re-realises when the chain or the inputs changed.
-    pub fn update(&mut self, chain: &ChainSettings, fs: f64) {
+    /// True while a realisation runs.
+    pub fn busy(&self) -> bool {
+        self.job.is_some()
+    }
+
+    /// Takes a finished realisation, if one arrived.
+    fn poll(&mut self) {
+        let Some(rx) = &self.job else { return };
+        match rx.try_recv() {
+            Ok(r) => {
+                self.stages = r.stages;
+                self.curves = r.curves;
+                self.realisations += 1;
+                self.job = None;
+            }
+            Err(crossbeam_channel::TryRecvError::Empty) => {}
+            Err(crossbeam_channel::TryRecvError::Disconnected) => self.job = None,
+        }
+    }
+
+    /// Re-realises, on a thread of its own, when the chain or the inputs changed; the last
+    /// result stays on screen meanwhile. `repaint` is called when a result is ready.
+    pub fn update(&mut self, chain: &ChainSettings, fs: f64, repaint: impl Fn() + Send + 'static) {
+        self.poll();
         let key = (
             *chain,
             self.caps_text.clone(),
@@ -82,7 +121,8 @@ impl PartsView {
             self.c_tol_pct.to_bits(),
             fs.to_bits(),
         );
-        if self.key.as_ref() == Some(&key) {
+        // Unchanged, or a realisation still runs (the next frame after it starts the newest).
+        if self.key.as_ref() == Some(&key) || self.job.is_some() {
             return;
         }
         self.key = Some(key);
@@ -94,6 +134,7 @@ impl PartsView {
             .collect();
         let Some(caps) = caps else {
             self.stages = Err("capacitors: write values like 1u 220n 100n".into());
+            self.curves.clear();
             return;
         };
         let tol = Tolerances {
@@ -109,16 +150,37 @@ impl PartsView {
             inamp: None,
             bias_current_a: 1e-9,
         };
-        self.stages = realise(chain, &opts).map_err(|e| e.to_string());
-        self.curves.clear();
-        if let (Ok(stages), Ok(digital)) = (&self.stages, chain.design(fs)) {
-            let freqs = response::log_frequencies(0.05, 0.45 * fs, 80);
-            let env = envelope(stages, &freqs, &tol);
-            for (f, (lo, hi)) in freqs.iter().zip(env) {
-                let d = 20.0 * response::magnitude(&digital, *f, fs).max(1e-12).log10();
-                let a = chain_db(stages, *f);
-                self.curves.push([f.log10(), d, a, lo, hi]);
-            }
+        let chain = *chain;
+        let (tx, rx) = crossbeam_channel::bounded(1);
+        let spawned = std::thread::Builder::new()
+            .name("leadline-parts".into())
+            .spawn(move || {
+                let stages = realise(&chain, &opts).map_err(|e| e.to_string());
+                let mut curves = Vec::new();
+                if let (Ok(stages), Ok(digital)) = (&stages, chain.design(fs)) {
+                    let freqs = response::log_frequencies(0.05, 0.45 * fs, 80);
+                    let env = envelope(stages, &freqs, &tol);
+                    for (f, (lo, hi)) in freqs.iter().zip(env) {
+                        let d = 20.0 * response::magnitude(&digital, *f, fs).max(1e-12).log10();
+                        let a = chain_db(stages, *f);
+                        curves.push([f.log10(), d, a, lo, hi]);
+                    }
+                }
+                let _ = tx.send(Realised { stages, curves });
+                repaint();
+            });
+        match spawned {
+            Ok(_) => self.job = Some(rx),
+            Err(e) => self.stages = Err(format!("cannot start the parts thread: {e}")),
+        }
+    }
+
+    /// Waits (up to `limit`) for a running realisation and takes it (tests, screenshots).
+    pub fn wait(&mut self, limit: std::time::Duration) {
+        let deadline = std::time::Instant::now() + limit;
+        while self.job.is_some() && std::time::Instant::now() < deadline {
+            std::thread::sleep(std::time::Duration::from_millis(5));
+            self.poll();
         }
     }
 }
@@ -126,7 +188,12 @@ impl PartsView {
 /// Draws the view.
 pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: f64) {
     controls(ui, view);
-    view.update(chain, fs);
+    let ctx = ui.ctx().clone();
+    view.update(chain, fs, move || ctx.request_repaint());
+    if view.busy() && view.realisations == 0 {
+        ui.label("Choosing parts…");
+        return;
+    }
     let stages = match &view.stages {
         Ok(s) => s.clone(),
         Err(e) => {

@@ -38,6 +38,10 @@ pub struct SpectrumView {
     gain_cache: Option<GainCache>,
     /// The estimate's curves, reduced for drawing, per estimate.
     curve_cache: Option<CurveCache>,
+    /// The held estimate's curve, reduced for drawing, once per hold.
+    before_cache: Option<(u64, bool, usize, Vec<[f64; 2]>)>,
+    /// Times the curves were reduced for drawing (once per estimate, not per frame).
+    pub rebuilds: u64,
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -68,6 +72,8 @@ impl Default for SpectrumView {
             before: None,
             gain_cache: None,
             curve_cache: None,
+            before_cache: None,
+            rebuilds: 0,
         }
     }
 }
@@ -159,6 +165,7 @@ fn draw(
         .as_ref()
         .is_none_or(|c| c.serial != frame.serial || c.log != log || c.columns != columns)
     {
+        view.rebuilds += 1;
         view.curve_cache = Some(CurveCache {
             serial: frame.serial,
             log,
@@ -173,11 +180,24 @@ fn draw(
         .map(|c| (c.raw.clone(), c.filtered.clone()))
         .unwrap_or_default();
     let top = raw.iter().map(|p| p[1]).fold(FLOOR_DB, f64::max).ceil();
+    let before = view.before.as_ref().map(|b| {
+        let fresh = view
+            .before_cache
+            .as_ref()
+            .is_some_and(|c| c.0 == b.serial && c.1 == log && c.2 == columns);
+        if !fresh {
+            view.before_cache = Some((b.serial, log, columns, curve(&b.raw)));
+        }
+        view.before_cache
+            .as_ref()
+            .map(|c| c.3.clone())
+            .unwrap_or_default()
+    });
     let plot = axes(ui, top, log);
     plot.show(ui, |pu| {
-        if let Some(b) = &view.before {
+        if let Some(b) = before {
             pu.line(
-                Line::new("before", PlotPoints::new(curve(&b.raw)))
+                Line::new("before", PlotPoints::new(b))
                     .color(BEFORE_COLOUR)
                     .style(LineStyle::Dashed { length: 6.0 }),
             );
@@ -407,44 +427,7 @@ fn chain_gain(
         .unwrap_or_default()
 }
 
-/// Reduces a polyline sorted by x to the lowest and highest point of each of `columns` equal
-/// x-intervals, in x order.
-pub fn decimate(pts: &[[f64; 2]], columns: usize) -> Vec<[f64; 2]> {
-    let (Some(first), Some(last)) = (pts.first(), pts.last()) else {
-        return Vec::new();
-    };
-    if pts.len() <= 2 * columns || columns == 0 {
-        return pts.to_vec();
-    }
-    let (x0, span) = (first[0], (last[0] - first[0]).max(f64::MIN_POSITIVE));
-    let mut out = Vec::with_capacity(2 * columns + 2);
-    let mut i = 0;
-    while i < pts.len() {
-        let col = (((pts[i][0] - x0) / span) * columns as f64) as usize;
-        let (mut lo, mut hi) = (pts[i], pts[i]);
-        let mut j = i + 1;
-        while j < pts.len() && ((((pts[j][0] - x0) / span) * columns as f64) as usize) == col {
-            if pts[j][1] < lo[1] {
-                lo = pts[j];
-            }
-            if pts[j][1] > hi[1] {
-                hi = pts[j];
-            }
-            j += 1;
-        }
-        if lo[0] <= hi[0] {
-            out.push(lo);
-            if hi != lo {
-                out.push(hi);
-            }
-        } else {
-            out.push(hi);
-            out.push(lo);
-        }
-        i = j;
-    }
-    out
-}
+pub use crate::numeric::decimate_xy as decimate;
 
 #[cfg(test)]
 mod decimate_tests {
