@@ -295,7 +295,7 @@ fn twin_t_cell(pen: &mut Pen, parts: &[&Part], y: f64, cell: f64) {
         pen.text(
             4.0,
             y + 172.0,
-            "R/2 = (1st+2nd) ∥ (3rd+4th); the three g are one node",
+            "R/2 = (1st+2nd) || (3rd+4th); the three g are one node",
             false,
         );
         pen.text(90.0, y + 124.0, "g", true);
@@ -305,7 +305,7 @@ fn twin_t_cell(pen: &mut Pen, parts: &[&Part], y: f64, cell: f64) {
             (90.0, y - 70.0),
             (90.0, y - 100.0),
             &[c2s[0], c2s[1]],
-            "∥",
+            "||",
             true,
         );
         pen.text(90.0, y - 104.0, "g", true);

@@ -37,6 +37,9 @@ pub struct AppOptions {
     pub bench_report: Arc<Mutex<Option<super::bench::BenchReport>>>,
     /// Sound on during the bench (rendered and discarded without a card).
     pub bench_sound: bool,
+    /// Set while the window is minimised or covered: the repaint request of each new snapshot
+    /// then waits a second instead of none (the display path slows with it).
+    pub unseen: Arc<std::sync::atomic::AtomicBool>,
 }
 
 type Shot = Arc<Mutex<Option<Arc<egui::ColorImage>>>>;
@@ -237,6 +240,12 @@ impl LeadlineApp {
     /// Latest data (tests read it).
     pub fn view(&self) -> &View {
         &self.view
+    }
+
+    /// How often the slow plot data were rebuilt: the spectrum's curves (once per estimate) and
+    /// the parts' realisation (once per chain). Frames without new data rebuild neither.
+    pub fn rebuilds(&self) -> (u64, u64) {
+        (self.spectrum.rebuilds, self.parts.realisations)
     }
 
     /// Takes the newest snapshot unless paused. Called from `logic` (and by tests).
@@ -666,10 +675,15 @@ impl LeadlineApp {
             ctx.tessellation_options_mut(|o| o.feathering = smooth);
         }
         if self.theme_applied != Some(self.settings.setup.view.theme) {
-            ctx.set_visuals(match self.settings.setup.view.theme {
+            let mut visuals = match self.settings.setup.view.theme {
                 crate::setup::Theme::Dark => egui::Visuals::dark(),
                 crate::setup::Theme::Light => egui::Visuals::light(),
-            });
+            };
+            // Soft shadows are wide blended quads: under software OpenGL the caution window's
+            // cost a tenth of a core at 30 frames/s. A frame line marks windows instead.
+            visuals.window_shadow = egui::epaint::Shadow::NONE;
+            visuals.popup_shadow = egui::epaint::Shadow::NONE;
+            ctx.set_visuals(visuals);
             self.theme_applied = Some(self.settings.setup.view.theme);
         }
     }
@@ -1236,6 +1250,13 @@ impl eframe::App for LeadlineApp {
     fn logic(&mut self, ctx: &egui::Context, frame: &mut eframe::Frame) {
         let t0 = Instant::now();
         let new_data = self.poll();
+        let hidden = ctx.input(|i| {
+            let v = i.viewport();
+            v.minimized == Some(true) || v.occluded == Some(true)
+        });
+        self.opts
+            .unseen
+            .store(hidden, std::sync::atomic::Ordering::Relaxed);
         self.apply_theme(ctx);
         self.remember(false);
         let previous = self.app_ms.1.take();

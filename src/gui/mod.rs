@@ -134,12 +134,14 @@ pub fn run(args: &MonitorArgs) -> Result<()> {
         } + if args.bench_sound { "+sound" } else { "" },
         bench_report: Arc::default(),
         bench_sound: args.bench_sound,
+        unseen: Arc::default(),
     };
     if let Some(b) = args.bench
         && !(b.is_finite() && b > 0.0)
     {
         return Err(BadInput(format!("--bench {b}: must be a positive number of seconds")).into());
     }
+    let unseen = Arc::clone(&opts.unseen);
     let report = Arc::clone(&opts.bench_report);
     let outcome = Arc::new(std::sync::Mutex::new(Ok(())));
     let outcome_app = Arc::clone(&outcome);
@@ -157,8 +159,16 @@ pub fn run(args: &MonitorArgs) -> Result<()> {
         Box::new(move |cc| {
             let ctx = cc.egui_ctx.clone();
             // A zero-delay request makes egui paint two frames; any non-zero delay paints one.
-            let notify: crate::process::Notify =
-                Arc::new(move || ctx.request_repaint_after(std::time::Duration::from_nanos(1)));
+            // A window nobody sees (minimised, covered) is repainted once a second.
+            let unseen = Arc::clone(&unseen);
+            let notify: crate::process::Notify = Arc::new(move || {
+                let wait = if unseen.load(std::sync::atomic::Ordering::Relaxed) {
+                    std::time::Duration::from_secs(1)
+                } else {
+                    std::time::Duration::from_nanos(1)
+                };
+                ctx.request_repaint_after(wait);
+            });
             let app = LeadlineApp::new(settings, notify, opts, outcome_app)?;
             Ok(Box::new(app))
         }),

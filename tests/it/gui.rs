@@ -730,3 +730,37 @@ fn the_trace_axes_have_three_labels_on_a_millivolt_and_a_fifty_microvolt_signal(
         assert!(axes.len() >= 2, "R {r_mv} mV: {cols:?}");
     }
 }
+
+/// Frames without new data rebuild no plot data: the spectrum's curves change once per
+/// estimate and the parts' realisation once per chain, whatever the frame rate.
+#[test]
+fn plots_are_not_rebuilt_on_frames_without_new_data() {
+    let mut h = harness(app());
+    let deadline = Instant::now() + Duration::from_secs(20);
+    while h.state().rebuilds().0 == 0 {
+        assert!(Instant::now() < deadline, "no spectrum");
+        h.run_steps(1);
+        std::thread::sleep(Duration::from_millis(50));
+    }
+    h.state_mut().apply(Action::Pause(true));
+    h.run_steps(2);
+    let before = h.state().rebuilds();
+    for _ in 0..30 {
+        h.run_steps(1);
+    }
+    assert_eq!(h.state().rebuilds(), before, "30 frames without new data");
+    // The parts view: realised once for the chain, then never again while it stands.
+    h.state_mut()
+        .apply(Action::Lower(leadline::gui::state::LowerView::Parts));
+    let deadline = Instant::now() + Duration::from_secs(20);
+    while h.state().rebuilds().1 == 0 {
+        assert!(Instant::now() < deadline, "no parts");
+        h.run_steps(1);
+        std::thread::sleep(Duration::from_millis(20));
+    }
+    let realised = h.state().rebuilds().1;
+    for _ in 0..30 {
+        h.run_steps(1);
+    }
+    assert_eq!(h.state().rebuilds().1, realised);
+}

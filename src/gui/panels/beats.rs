@@ -82,6 +82,8 @@ pub fn show(ui: &mut egui::Ui, view: Option<&BeatView>, fs: f64) {
             .map(|(i, &v)| [to_ms(i), v - t.filtered_measures.iso_uv])
             .collect();
         Plot::new("beat-template")
+            .show_background(false)
+            .grid_spacing(crate::gui::plot::GRID_SPACING)
             .width(width)
             .height(height)
             .legend(Legend::default())
@@ -105,6 +107,8 @@ pub fn show(ui: &mut egui::Ui, view: Option<&BeatView>, fs: f64) {
             .map(|w| [w[1] as f64 / fs, (w[1] - w[0]) as f64 / fs * 1e3])
             .collect();
         Plot::new("tachogram")
+            .show_background(false)
+            .grid_spacing(crate::gui::plot::GRID_SPACING)
             .width(width)
             .height(height)
             .x_axis_label("time (s)")

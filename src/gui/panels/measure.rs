@@ -293,6 +293,8 @@ fn response(
     let w = (ui.available_width() - 16.0) / 3.0;
     ui.horizontal(|ui| {
         Plot::new("measure-mag")
+            .show_background(false)
+            .grid_spacing(crate::gui::plot::GRID_SPACING)
             .width(w)
             .height(ui.available_height().max(120.0))
             .legend(Legend::default())
@@ -316,6 +318,8 @@ fn response(
                 }
             });
         Plot::new("measure-phase")
+            .show_background(false)
+            .grid_spacing(crate::gui::plot::GRID_SPACING)
             .width(w)
             .height(ui.available_height().max(120.0))
             .x_axis_label("frequency (log10 Hz)")
@@ -324,6 +328,8 @@ fn response(
                 pu.points(Points::new("phase", PlotPoints::new(phase)).radius(1.5));
             });
         Plot::new("measure-delay")
+            .show_background(false)
+            .grid_spacing(crate::gui::plot::GRID_SPACING)
             .width(w)
             .height(ui.available_height().max(120.0))
             .x_axis_label("frequency (log10 Hz)")
@@ -379,6 +385,8 @@ fn stepped(
         .filter_map(|f| db_design(f).map(|d| [f.log10(), d]))
         .collect();
     Plot::new("measure-steps")
+        .show_background(false)
+        .grid_spacing(crate::gui::plot::GRID_SPACING)
         .height(ui.available_height().max(120.0) - 30.0)
         .legend(Legend::default())
         .x_axis_label("frequency (log10 Hz)")
@@ -417,6 +425,8 @@ fn noise(ui: &mut egui::Ui, n: &crate::measure::noise::Noise) {
         .map(|p| [p[0].log10(), p[1].max(1e-9).log10()])
         .collect();
     Plot::new("measure-noise")
+        .show_background(false)
+        .grid_spacing(crate::gui::plot::GRID_SPACING)
         .height(ui.available_height().max(120.0))
         .x_axis_label("frequency (log10 Hz)")
         .y_axis_label("density (log10 µV/√Hz)")

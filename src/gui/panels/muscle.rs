@@ -157,6 +157,8 @@ fn envelope_plot(ui: &mut egui::Ui, v: &EmgView, trace: Option<&Columns>, width:
         .unwrap_or_default();
     let t_end = v.t0_s + v.rms.len() as f64 * v.dt_s;
     Plot::new("emg-envelope")
+        .show_background(false)
+        .grid_spacing(crate::gui::plot::GRID_SPACING)
         .width(width)
         .height(height)
         .legend(Legend::default())
@@ -206,6 +208,8 @@ fn envelope_plot(ui: &mut egui::Ui, v: &EmgView, trace: Option<&Columns>, width:
 fn median_plot(ui: &mut egui::Ui, v: &EmgView, width: f32, height: f32) {
     let trend: Vec<[f64; 2]> = v.trend.iter().map(|p| [p.0, p.1]).collect();
     Plot::new("emg-median")
+        .show_background(false)
+        .grid_spacing(crate::gui::plot::GRID_SPACING)
         .width(width)
         .height(height)
         .x_axis_label("time (s)")

@@ -375,6 +375,8 @@ fn save_row(
 fn response_plot(ui: &mut egui::Ui, c: &[[f64; 5]], height: f32) {
     let pts = |i: usize| PlotPoints::new(c.iter().map(|r| [r[0], r[i]]).collect());
     Plot::new("parts-response")
+        .show_background(false)
+        .grid_spacing(crate::gui::plot::GRID_SPACING)
         .height(height)
         .legend(Legend::default().position(egui_plot::Corner::LeftBottom))
         .x_axis_label("frequency (Hz)")

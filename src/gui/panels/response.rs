@@ -110,6 +110,8 @@ fn hz_ticks(mark: GridMark, _range: &std::ops::RangeInclusive<f64>) -> String {
 
 fn freq_plot(id: &str, y_label: &str, height: f32, width: f32, span: (f64, f64)) -> Plot<'static> {
     Plot::new(id.to_string())
+        .show_background(false)
+        .grid_spacing(crate::gui::plot::GRID_SPACING)
         .include_x(span.0)
         .include_x(span.1)
         .height(height)

@@ -317,6 +317,8 @@ fn mains_text(ui: &mut egui::Ui, frame: &SpectrumFrame, view: &SpectrumView) {
 /// (0 dB at the PSD's top `top`), decades on a log frequency axis.
 fn axes(ui: &egui::Ui, top: f64, log: bool) -> Plot<'static> {
     let mut plot = Plot::new("spectrum")
+        .show_background(false)
+        .grid_spacing(crate::gui::plot::GRID_SPACING)
         .height((ui.available_height() - 4.0).max(100.0))
         .x_axis_label("frequency (Hz)")
         .allow_drag(false)

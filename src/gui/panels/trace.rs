@@ -231,6 +231,8 @@ fn beat_times(snap: &crate::msg::Snapshot, ch: usize, x_min: f64) -> Vec<f64> {
 /// One trace's plot, linked in time with the other's.
 fn trace_plot(id: &str, height: f32, sweep: bool, unit: &str, link: egui::Id) -> Plot<'static> {
     Plot::new(id)
+        .show_background(false)
+        .grid_spacing(crate::gui::plot::GRID_SPACING)
         .height(height)
         .legend(Legend::default())
         .x_axis_label(if sweep {
