@@ -214,7 +214,7 @@ impl BenchReport {
              frames {} ({:.1} frames/s, {} without new data, {} display drops); app time (logic + ui) per frame median {:.2} ms, p99 {:.2} ms, max {:.2} ms\n\
              eframe's frame CPU time (app + tessellation + GL calls) median {:.2} ms, p99 {:.2} ms\n\
              snapshots {}; newest-sample age at snapshot median {:.2} ms, p99 {:.2} ms\n\
-             process CPU {:.1} % of one core; resident {:.1} MB ({:+.1} MB over the run)\n",
+             process CPU {}; resident {:.1} MB ({:+.1} MB over the run)\n",
             self.view,
             if self.paused { " (paused)" } else { "" },
             self.seconds,
@@ -230,7 +230,14 @@ impl BenchReport {
             self.snapshots,
             nan0(self.latency_ms_median),
             nan0(self.latency_ms_p99),
-            self.cpu_percent,
+            if self.cpu_percent.is_finite() {
+                format!(
+                    "{:.1} % of one core (whole process, /proc/self/stat)",
+                    self.cpu_percent
+                )
+            } else {
+                "not available: this system has no /proc/self/stat".to_string()
+            },
             self.rss_mb,
             self.rss_growth_mb
         );
