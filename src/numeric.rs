@@ -1,5 +1,6 @@
-//! Numeric helpers every room shares: the one percentile (and median) behind every statistic
-//! the product prints, and the short form of a number for messages.
+//! Numeric helpers every room shares, each tested once here: the one percentile (and median)
+//! behind every statistic the product prints, the one min/max decimator behind every plotted
+//! signal, golden-section search, decibels, and the short form of a number for messages.
 
 /// The p-th percentile (p in 0–100) of `v`, by linear interpolation between the closest ranks:
 /// the same definition as `numpy.percentile`'s default (`method="linear"`; docs/REFERENCES.md
@@ -104,6 +105,42 @@ pub fn decimate_xy(pts: &[[f64; 2]], columns: usize) -> Vec<[f64; 2]> {
     out
 }
 
+/// Decibels of an amplitude ratio: 20·log10(r).
+pub fn db20(r: f64) -> f64 {
+    20.0 * r.log10()
+}
+
+/// Decibels of a power ratio: 10·log10(r).
+pub fn db10(r: f64) -> f64 {
+    10.0 * r.log10()
+}
+
+/// The maximum of a unimodal `f` on [lo, hi] by golden-section search (40 steps: to about 1e-9
+/// of the interval). Returns where it is.
+pub fn golden_max(lo: f64, hi: f64, f: impl Fn(f64) -> f64) -> f64 {
+    let g = (5f64.sqrt() - 1.0) / 2.0;
+    let (mut a, mut b) = (lo, hi);
+    let mut c = b - g * (b - a);
+    let mut d = a + g * (b - a);
+    let (mut fc, mut fd) = (f(c), f(d));
+    for _ in 0..40 {
+        if fc > fd {
+            b = d;
+            d = c;
+            fd = fc;
+            c = b - g * (b - a);
+            fc = f(c);
+        } else {
+            a = c;
+            c = d;
+            fc = fd;
+            d = a + g * (b - a);
+            fd = f(d);
+        }
+    }
+    (a + b) / 2.0
+}
+
 /// A short form of a number for messages: `125`, `0.01`, `1e-12`, never 309 digits.
 pub fn short(v: f64) -> String {
     if v == 0.0 || !v.is_finite() {
@@ -169,5 +206,16 @@ mod tests {
         assert!(d.contains(&[4321.0, 5.0]));
         let low = pts.iter().map(|p| p[1]).fold(f64::MAX, f64::min);
         assert!(d.iter().any(|p| p[1] == low));
+    }
+
+    #[test]
+    fn decibels_and_golden_section_by_hand() {
+        // By hand: 20·log10(10) = 20, 10·log10(2) = 3.0103, a half is −6.0206 dB.
+        assert_eq!(db20(10.0), 20.0);
+        assert!((db10(2.0) - 3.010_299_956_6).abs() < 1e-9);
+        assert!((db20(0.5) + 6.020_599_913_3).abs() < 1e-9);
+        // −(x − 0.3)² peaks at 0.3; a sine's peak on [0, π] at π/2.
+        assert!((golden_max(0.0, 1.0, |x| -(x - 0.3) * (x - 0.3)) - 0.3).abs() < 1e-7);
+        assert!((golden_max(0.0, 3.0, f64::sin) - std::f64::consts::FRAC_PI_2).abs() < 1e-7);
     }
 }

@@ -437,7 +437,7 @@ pub fn opamp_need(s: &Stage, bias_a: f64) -> OpampNeed {
 }
 
 fn db(z: C) -> f64 {
-    20.0 * (z.0 * z.0 + z.1 * z.1).sqrt().max(1e-300).log10()
+    crate::numeric::db20((z.0 * z.0 + z.1 * z.1).sqrt().max(1e-300))
 }
 
 /// The twin-T's figures over the tolerance draws: depth at the mains frequency `mains_hz`, where
@@ -490,7 +490,7 @@ pub fn notch_tolerance(stage: &mut Stage, t: &super::tolerance::Tolerances, main
             no_notch += 1;
             continue;
         }
-        let fc = crate::analysis::mains::golden_max(best * 0.9975, best * 1.0025, |f| -mag(f));
+        let fc = crate::numeric::golden_max(best * 0.9975, best * 1.0025, |f| -mag(f));
 
         if (fc - mains_hz).abs() > half_bw {
             misses += 1;

@@ -38,5 +38,5 @@ pub fn poly_ratio_db(num: &[f64], den: &[f64], f: f64) -> f64 {
         })
     };
     let h = cdiv(eval(num), eval(den));
-    20.0 * (h.0 * h.0 + h.1 * h.1).sqrt().max(1e-300).log10()
+    crate::numeric::db20((h.0 * h.0 + h.1 * h.1).sqrt().max(1e-300))
 }

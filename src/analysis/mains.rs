@@ -135,32 +135,6 @@ fn dft_mag(xw: &[f64], f: f64, fs: f64) -> f64 {
     (re * re + im * im).sqrt()
 }
 
-/// The maximum of a unimodal `f` on [lo, hi] by golden-section search (to about 1e-9 of the
-/// interval).
-pub fn golden_max(lo: f64, hi: f64, f: impl Fn(f64) -> f64) -> f64 {
-    let g = (5f64.sqrt() - 1.0) / 2.0;
-    let (mut a, mut b) = (lo, hi);
-    let mut c = b - g * (b - a);
-    let mut d = a + g * (b - a);
-    let (mut fc, mut fd) = (f(c), f(d));
-    for _ in 0..40 {
-        if fc > fd {
-            b = d;
-            d = c;
-            fd = fc;
-            c = b - g * (b - a);
-            fc = f(c);
-        } else {
-            a = c;
-            c = d;
-            fc = fd;
-            d = a + g * (b - a);
-            fd = f(d);
-        }
-    }
-    (a + b) / 2.0
-}
-
 /// Measures the mains in `x_uv` (input-referred µV at `fs`), given its Welch PSD.
 ///
 /// # Errors
@@ -199,7 +173,7 @@ pub fn analyse(x_uv: &[f64], fs: f64, psd: &Psd) -> Result<MainsReport, MainsErr
         .map(|(i, v)| (v - mean) * w(i))
         .collect();
     let wsum: f64 = (0..n).map(w).sum();
-    let f0 = golden_max(f_peak - psd.bin_hz, f_peak + psd.bin_hz, |f| {
+    let f0 = crate::numeric::golden_max(f_peak - psd.bin_hz, f_peak + psd.bin_hz, |f| {
         dft_mag(&xw, f, fs)
     });
     let rms_at = |f: f64| 2.0 * dft_mag(&xw, f, fs) / wsum / std::f64::consts::SQRT_2;
@@ -234,7 +208,7 @@ pub fn analyse(x_uv: &[f64], fs: f64, psd: &Psd) -> Result<MainsReport, MainsErr
     };
     // Below 1e-6 µV² (1 nV rms) a band is empty: no ratio is given.
     let snr_db = (band_power.ecg_uv2 > 1e-6 && band_power.mains_uv2 > 1e-6)
-        .then(|| 10.0 * (band_power.ecg_uv2 / band_power.mains_uv2).log10());
+        .then(|| crate::numeric::db10(band_power.ecg_uv2 / band_power.mains_uv2));
     let mut around: Vec<f64> = psd
         .freqs_hz
         .iter()
@@ -249,7 +223,7 @@ pub fn analyse(x_uv: &[f64], fs: f64, psd: &Psd) -> Result<MainsReport, MainsErr
     let floor = around.get(around.len() / 2).copied().unwrap_or(0.0);
     let peak = psd.density[peak_bin];
     let prominence_db = if peak > 0.0 && floor > 0.0 {
-        10.0 * (peak / floor).log10()
+        crate::numeric::db10(peak / floor)
     } else if peak > 0.0 {
         f64::INFINITY.min(300.0)
     } else {

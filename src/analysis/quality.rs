@@ -204,7 +204,7 @@ impl QualityMonitor {
         let sigma = (crate::numeric::percentile(&mut d, 50.0)
             / (0.674_49 * std::f64::consts::SQRT_2))
             .max(0.1);
-        Some(20.0 * (r / sigma).log10())
+        Some(crate::numeric::db20(r / sigma))
     }
 }
 

@@ -31,7 +31,7 @@ fn design_db(chain: &super::ChainArgs, fs: f64) -> Option<Vec<crate::dsp::Sectio
 fn design_peak_db(d: &[crate::dsp::Section], fs: f64) -> f64 {
     crate::dsp::response::log_frequencies(0.01, 0.45 * fs, 400)
         .into_iter()
-        .map(|f| 20.0 * crate::dsp::response::magnitude(d, f, fs).max(1e-12).log10())
+        .map(|f| crate::numeric::db20(crate::dsp::response::magnitude(d, f, fs).max(1e-12)))
         .fold(f64::MIN, f64::max)
 }
 
@@ -120,7 +120,7 @@ fn steps(r: &MeasureStepsArgs) -> Result<()> {
     let mut csv = String::from("freq_hz,gain_db,amplitude_uv,start_s,end_s\n");
     let mut pts = Vec::new();
     for s in &steps {
-        let g = 20.0 * (s.amplitude_uv / r.amplitude_uv).log10();
+        let g = crate::numeric::db20(s.amplitude_uv / r.amplitude_uv);
         pts.push((s.freq_hz, g, true));
         let _ = writeln!(
             csv,

@@ -161,7 +161,7 @@ pub fn check(
         let m = response::magnitude(secs, f, fs) / gain.abs();
         if zero_phase { m * m } else { m }
     };
-    let gain_db = 20.0 * mag(&sections, 0.67).log10();
+    let gain_db = crate::numeric::db20(mag(&sections, 0.67));
 
     // Upper corner without the notch: first frequency above the pass band (10 Hz) where the
     // gain falls 3 dB below it.

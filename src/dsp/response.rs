@@ -83,7 +83,7 @@ pub fn evaluate(sections: &[Section], freqs_hz: &[f64], fs: f64) -> Vec<Point> {
         prev = Some(phase);
         out.push(Point {
             freq_hz: f,
-            mag_db: 20.0 * r.hypot(i).log10(),
+            mag_db: crate::numeric::db20(r.hypot(i)),
             phase_deg: phase,
             group_delay_s: group_delay(sections, f, fs),
         });
@@ -151,7 +151,7 @@ pub fn summary(sections: &[Section], fs: f64) -> Summary {
         .find(|&i| mags[i] < level && mags[i..].iter().all(|&m| m < level * 1.0001))
         .map(|i| bisect(sections, fs, grid[i - 1], grid[i], level));
     Summary {
-        peak_db: 20.0 * pk.log10(),
+        peak_db: crate::numeric::db20(pk),
         low_3db_hz: low,
         high_3db_hz: high,
         delay_10hz_s: if 10.0 < fs / 2.0 {

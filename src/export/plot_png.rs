@@ -118,7 +118,7 @@ pub fn psd_png(
             .iter()
             .zip(&psd.density)
             .skip(1)
-            .map(|(&f, &d)| (f, 10.0 * d.max(1e-30).log10()))
+            .map(|(&f, &d)| (f, crate::numeric::db10(d.max(1e-30))))
             .collect();
         let f_lo = pts.first().map_or(0.1, |p| p.0);
         let f_hi = pts.last().map_or(100.0, |p| p.0);
@@ -143,7 +143,7 @@ pub fn psd_png(
                 let level = psd
                     .density
                     .get(k)
-                    .map_or(y_lo, |d| 10.0 * d.max(1e-30).log10());
+                    .map_or(y_lo, |d| crate::numeric::db10(d.max(1e-30)));
                 chart
                     .draw_series(std::iter::once(Circle::new(
                         (hmc.hz, level),

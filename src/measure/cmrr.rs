@@ -30,7 +30,7 @@ pub fn measure(x: &[f64], fs: f64, cm_uv: f64, cm_hz: f64) -> Result<Cmrr, Measu
             segment: fs as usize,
         });
     }
-    let f = crate::analysis::mains::golden_max(0.99 * cm_hz, 1.01 * cm_hz, |f| {
+    let f = crate::numeric::golden_max(0.99 * cm_hz, 1.01 * cm_hz, |f| {
         sine::fit_at(x, fs, f).amplitude
     });
     let fit = sine::fit_at(x, fs, f);
@@ -42,9 +42,9 @@ pub fn measure(x: &[f64], fs: f64, cm_uv: f64, cm_hz: f64) -> Result<Cmrr, Measu
     }
     // Standard error of the fitted amplitude ≈ σ·√(2/N) (white residual).
     let se = fit.residual_rms * (2.0 / x.len() as f64).sqrt() / std::f64::consts::SQRT_2;
-    let cmrr = 20.0 * (cm_uv / diff).log10();
-    let hi = 20.0 * (cm_uv / (diff - 2.0 * se).max(diff * 1e-6)).log10();
-    let lo = 20.0 * (cm_uv / (diff + 2.0 * se)).log10();
+    let cmrr = crate::numeric::db20(cm_uv / diff);
+    let hi = crate::numeric::db20(cm_uv / (diff - 2.0 * se).max(diff * 1e-6));
+    let lo = crate::numeric::db20(cm_uv / (diff + 2.0 * se));
     Ok(Cmrr {
         cm_uv,
         cm_hz: f,

@@ -89,7 +89,7 @@ pub fn strongest(x: &[f64], fs: f64) -> SineFit {
         .map_or(1, |(k, _)| k);
     let f0 = k as f64 * fs / pad as f64;
     let bin = fs / n as f64;
-    let f = crate::analysis::mains::golden_max((f0 - bin).max(1e-6), f0 + bin, |f| {
+    let f = crate::numeric::golden_max((f0 - bin).max(1e-6), f0 + bin, |f| {
         fit_at(x, fs, f).amplitude
     });
     fit_at(x, fs, f)

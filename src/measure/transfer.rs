@@ -161,7 +161,7 @@ pub fn estimate(
         phase_prev = ph;
         points.push(TfPoint {
             freq_hz: f,
-            mag_db: 20.0 * h.norm().max(1e-300).log10(),
+            mag_db: crate::numeric::db20(h.norm().max(1e-300)),
             phase_deg: unwrap.to_degrees(),
             coherence: if coh.is_finite() { coh.min(1.0) } else { 0.0 },
             group_delay_s: f64::NAN,

@@ -249,7 +249,7 @@ fn response(
     fs: f64,
 ) {
     let db_design = |f: f64| {
-        design.map(|d| 20.0 * crate::dsp::response::magnitude(d, f, fs).max(1e-12).log10())
+        design.map(|d| crate::numeric::db20(crate::dsp::response::magnitude(d, f, fs).max(1e-12)))
     };
     let db_parts = |f: f64| parts.map(|p| crate::analog::parts::chain_db(p, f));
     let peak = crate::dsp::response::log_frequencies(0.05, 0.45 * fs, 200)
@@ -360,14 +360,14 @@ fn stepped(
     fs: f64,
 ) {
     let db_design = |f: f64| {
-        design.map(|d| 20.0 * crate::dsp::response::magnitude(d, f, fs).max(1e-12).log10())
+        design.map(|d| crate::numeric::db20(crate::dsp::response::magnitude(d, f, fs).max(1e-12)))
     };
     let pts: Vec<(f64, f64, bool)> = steps
         .iter()
         .map(|s| {
             (
                 s.freq_hz,
-                20.0 * (s.amplitude_uv / amplitude_uv).log10(),
+                crate::numeric::db20(s.amplitude_uv / amplitude_uv),
                 true,
             )
         })

@@ -161,7 +161,8 @@ impl PartsView {
                     let freqs = response::log_frequencies(0.05, 0.45 * fs, 80);
                     let env = envelope(stages, &freqs, &tol);
                     for (f, (lo, hi)) in freqs.iter().zip(env) {
-                        let d = 20.0 * response::magnitude(&digital, *f, fs).max(1e-12).log10();
+                        let d =
+                            crate::numeric::db20(response::magnitude(&digital, *f, fs).max(1e-12));
                         let a = chain_db(stages, *f);
                         curves.push([f.log10(), d, a, lo, hi]);
                     }

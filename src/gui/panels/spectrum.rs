@@ -79,7 +79,7 @@ impl Default for SpectrumView {
 }
 
 fn db(v: f64) -> f64 {
-    (10.0 * v.max(1e-30).log10()).max(FLOOR_DB)
+    (crate::numeric::db10(v.max(1e-30))).max(FLOOR_DB)
 }
 
 /// Change of each mains line between two measurements, dB (20·log10 of the RMS ratio).
@@ -91,7 +91,7 @@ pub fn line_changes(before: &MainsReport, after: &MainsReport) -> Vec<(u32, f64)
             let b = before.harmonics.iter().find(|b| b.order == a.order)?;
             Some((
                 a.order,
-                20.0 * (a.rms_uv.max(1e-9) / b.rms_uv.max(1e-9)).log10(),
+                crate::numeric::db20(a.rms_uv.max(1e-9) / b.rms_uv.max(1e-9)),
             ))
         })
         .collect()
@@ -408,7 +408,7 @@ fn chain_gain(
             .map(|&f| {
                 [
                     xf(f),
-                    (20.0 * response::magnitude(sections, f, frame.fs_hz).log10())
+                    (crate::numeric::db20(response::magnitude(sections, f, frame.fs_hz)))
                         .max(FLOOR_DB - top)
                         + top,
                 ]
