@@ -84,7 +84,7 @@ fn bench(c: &mut Criterion) {
     g.throughput(Throughput::Elements(N as u64));
     for n in [1usize, 4, 8] {
         let settings = chain_with(n);
-        let sections = settings.design(FS).unwrap_or_default();
+        let sections = settings.design(FS).map(|d| d.to_vec()).unwrap_or_default();
         assert_eq!(sections.len(), n, "bench chain of {n} sections");
         g.bench_with_input(BenchmarkId::new("f64", n), &n, |b, _| {
             let mut chain = Chain::new(settings, FS, 1).unwrap_or_else(|_| unreachable!());

@@ -172,7 +172,7 @@ pub struct Snapshot {
     pub chain: ChainSettings,
     /// Its sections at the stream's rate, in processing order: the views draw the chain that
     /// runs instead of designing it again.
-    pub sections: Arc<[crate::dsp::Section]>,
+    pub design: Arc<crate::dsp::Design>,
     /// Why the last requested chain was refused, if it was.
     pub chain_error: Option<String>,
     /// Input scale in force on the followed channel (None for sources that deliver µV).

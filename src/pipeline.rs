@@ -97,6 +97,7 @@ pub struct Pipeline {
     replay_status: Option<crate::source::replay::ReplayHandle>,
     recorder_tx: Option<Sender<RecorderCommand>>,
     recorder_status: Option<crate::recorder::StatusHandle>,
+    design_slot: crate::process::DesignSlot,
 }
 
 impl Pipeline {
@@ -138,14 +139,18 @@ impl Pipeline {
             );
         }
         let limit = cfg.limit_s;
+        let nominal_fs_hz = cfg.source.nominal_fs_hz();
         let (source_thread, links) =
             spawn_source(cfg.source, raw_tx, synth_rx, &stop, cfg.pacing, limit)?;
         threads.push(source_thread);
+        let design_slot = crate::process::DesignSlot::default();
         let dsp_cfg = DspConfig {
             chain: cfg.chain,
             window_s: cfg.window_s,
             display_hz: cfg.display_hz,
             front_end: cfg.front_end,
+            nominal_fs_hz,
+            design_slot: Arc::clone(&design_slot),
         };
         let ports = DspPorts {
             raw_rx,
@@ -182,6 +187,7 @@ impl Pipeline {
             replay_status: links.replay_status,
             recorder_tx,
             recorder_status,
+            design_slot,
         })
     }
 
@@ -194,6 +200,12 @@ impl Pipeline {
     /// New simulator settings, straight to the source thread (applied live).
     pub fn synth(&self, s: SynthSettings) {
         let _ = self.synth_tx.send(s);
+    }
+
+    /// The chain's design in force (the DSP thread's; before the first block, at the source's
+    /// expected rate when it has one).
+    pub fn design(&self) -> Option<Arc<crate::dsp::Design>> {
+        self.design_slot.lock().ok().and_then(|g| g.clone())
     }
 
     /// The newest snapshot, if one arrived since the last call (older ones are skipped).

@@ -180,7 +180,7 @@ fn check(s: &EmgSettings, fs: f64) -> Result<(), EmgError> {
 /// # Errors
 /// Corners the design rejects.
 pub fn band_sections(s: &EmgSettings, fs: f64) -> Result<Vec<Section>, EmgError> {
-    let hi = s.band_hz.1.min(0.45 * fs);
+    let hi = s.band_hz.1.min(crate::dsp::highest_corner_hz(fs));
     let mut v = butterworth_highpass(2, s.band_hz.0, fs)
         .map_err(|e| EmgError::Setting(format!("band-pass: {e}")))?;
     v.extend(
@@ -193,7 +193,7 @@ pub fn band_sections(s: &EmgSettings, fs: f64) -> Result<Vec<Section>, EmgError>
             )));
         }
         let mut k = 1.0;
-        while k * f0 < hi.min(0.45 * fs) {
+        while k * f0 < hi.min(crate::dsp::highest_corner_hz(fs)) {
             v.push(notch(k * f0, 30.0, fs).map_err(|e| EmgError::Setting(format!("notch: {e}")))?);
             k += 1.0;
         }
@@ -464,7 +464,11 @@ pub fn analyse(x: &[f64], fs: f64, s: &EmgSettings) -> Result<EmgAnalysis, EmgEr
     let filtered = band_pass(&sos, x, fs)?;
     let env = envelope(&filtered, s.envelope_hz, fs)?;
     let rms = moving_rms(&filtered, ((s.rms_ms * 1e-3 * fs).round() as usize).max(1));
-    let det = envelope(&filtered, s.onset_hz.min(0.45 * fs), fs)?;
+    let det = envelope(
+        &filtered,
+        s.onset_hz.min(crate::dsp::highest_corner_hz(fs)),
+        fs,
+    )?;
     let n = x.len();
     let (b0, b1) = match s.baseline_s {
         Some(b) => span(b, fs, n, "baseline")?,

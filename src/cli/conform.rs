@@ -22,8 +22,9 @@ pub fn run(a: &ConformArgs) -> Result<()> {
     } else {
         Mode::Monitoring
     };
-    let report =
-        conform::check(&settings, a.fs, mode, a.zero_phase).map_err(|e| BadInput(e.to_string()))?;
+    let bad = |e: crate::dsp::DesignError| BadInput(e.to_string());
+    let design = settings.design(a.fs).map_err(bad)?;
+    let report = conform::check(&design, mode, a.zero_phase).map_err(bad)?;
     std::fs::write(&a.report, serde_json::to_string_pretty(&report)? + "\n")
         .with_context(|| format!("cannot write {}", a.report.display()))?;
     let mark = |ok: bool| if ok { "pass" } else { "FAIL" };

@@ -62,7 +62,7 @@ pub fn run(a: &EmgArgs) -> Result<()> {
     if fs < 1000.0 {
         advice.push(format!(
             "{fs} Hz is under the 1 kHz advised for surface EMG: the band's upper corner is held at {:.0} Hz",
-            settings.band_hz.1.min(0.45 * fs)
+            settings.band_hz.1.min(crate::dsp::highest_corner_hz(fs))
         ));
     }
     let mut csv = String::with_capacity(x.len() * 32);

@@ -20,7 +20,7 @@ fn write(path: &std::path::Path, text: String) -> Result<()> {
 }
 
 /// The design's gain at `f`, dB (None when no stage flag was given).
-fn design_db(chain: &super::ChainArgs, fs: f64) -> Option<Vec<crate::dsp::Section>> {
+fn design_db(chain: &super::ChainArgs, fs: f64) -> Option<crate::dsp::Design> {
     chain
         .any_stage()
         .then(|| chain.settings().design(fs).ok())
@@ -29,7 +29,7 @@ fn design_db(chain: &super::ChainArgs, fs: f64) -> Option<Vec<crate::dsp::Sectio
 
 /// The design's highest gain, dB (over a log grid from 0.01 Hz to 0.45·fs).
 fn design_peak_db(d: &[crate::dsp::Section], fs: f64) -> f64 {
-    crate::dsp::response::log_frequencies(0.01, 0.45 * fs, 400)
+    crate::dsp::response::log_frequencies(0.01, crate::dsp::highest_corner_hz(fs), 400)
         .into_iter()
         .map(|f| crate::numeric::db20(crate::dsp::response::magnitude(d, f, fs).max(1e-12)))
         .fold(f64::MIN, f64::max)

@@ -884,7 +884,7 @@ impl ChainArgs {
     ///
     /// # Errors
     /// [`BadInput`] with the design error's message.
-    pub fn design(&self, fs: f64) -> Result<Vec<crate::dsp::Section>, BadInput> {
+    pub fn design(&self, fs: f64) -> Result<crate::dsp::Design, BadInput> {
         self.check_notch(false)?;
         self.settings()
             .design(fs)

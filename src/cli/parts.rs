@@ -112,7 +112,9 @@ fn write_files(
     }
     if let Some(p) = &a.response {
         let mut t = String::from("freq_hz,mag_db,phase_deg\n");
-        for f in crate::dsp::response::log_frequencies(0.05, 0.45 * a.fs, 2000) {
+        for f in
+            crate::dsp::response::log_frequencies(0.05, crate::dsp::highest_corner_hz(a.fs), 2000)
+        {
             let h = circuit::response(&c, f);
             let mag = crate::numeric::db20((h.0 * h.0 + h.1 * h.1).sqrt().max(1e-300));
             let _ = writeln!(t, "{f},{mag},{}", h.1.atan2(h.0).to_degrees());

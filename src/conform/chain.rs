@@ -22,7 +22,7 @@ use serde::Serialize;
 use crate::dsp::chain::{self, ChainSettings};
 use crate::dsp::design::DesignError;
 use crate::dsp::response;
-use crate::dsp::{Notch, Section};
+use crate::dsp::{Design, Notch, Section};
 use crate::source::rhythm::{BeatShape, ScheduledHeart};
 
 /// What the chain is for.
@@ -137,21 +137,17 @@ pub fn judge_recovery(y: &[f64], end: usize, fs: f64) -> (f64, f64) {
     (undershoot, slope)
 }
 
-/// Runs every check on `settings` at `fs`.
+/// Runs every check on a designed chain.
 ///
 /// # Errors
-/// [`DesignError`] when the chain cannot be designed at this rate.
-pub fn check(
-    settings: &ChainSettings,
-    fs: f64,
-    mode: Mode,
-    zero_phase: bool,
-) -> Result<Conformance, DesignError> {
-    let sections = settings.design(fs)?;
+/// [`DesignError`] when the chain without its notch (for the upper corner) cannot be designed.
+pub fn check(design: &Design, mode: Mode, zero_phase: bool) -> Result<Conformance, DesignError> {
+    let (settings, fs) = (design.settings(), design.fs_hz());
+    let sections = design.sections();
     let gain = settings.gain;
     // Impulse test, judged on the chain's own scale (its plain gain divided out).
     let (x, end) = pulse(fs);
-    let y: Vec<f64> = run(&sections, &x, zero_phase)
+    let y: Vec<f64> = run(sections, &x, zero_phase)
         .iter()
         .map(|v| v / gain)
         .collect();
@@ -161,7 +157,7 @@ pub fn check(
         let m = response::magnitude(secs, f, fs) / gain.abs();
         if zero_phase { m * m } else { m }
     };
-    let gain_db = crate::numeric::db20(mag(&sections, 0.67));
+    let gain_db = crate::numeric::db20(mag(sections, 0.67));
 
     // Upper corner without the notch: first frequency above the pass band (10 Hz) where the
     // gain falls 3 dB below it.
@@ -194,7 +190,7 @@ pub fn check(
         f *= 1.01;
     }
 
-    let st = st_shift(&sections, fs, zero_phase) / gain;
+    let st = st_shift(sections, fs, zero_phase) / gain;
 
     let pass = Passes {
         impulse_undershoot: undershoot <= UNDERSHOOT_LIMIT_UV,
@@ -268,7 +264,12 @@ mod tests {
         // By hand for an analog first-order 0.05 Hz high-pass (τ = 3.183 s): right after the
         // pulse the output sits 3 mV × (1 − e^(−0.1/τ)) = 92.8 µV below zero, decaying with τ;
         // at +150 ms it is 92.8 · e^(−0.15/τ) = 88.5 µV and its slope 88.5 / τ = 27.8 µV/s.
-        let c = check(&only_highpass(0.05, 1), 1000.0, Mode::Diagnostic, false).unwrap();
+        let c = check(
+            &only_highpass(0.05, 1).design(1000.0).unwrap(),
+            Mode::Diagnostic,
+            false,
+        )
+        .unwrap();
         assert!((c.impulse_undershoot_uv - 88.5).abs() < 1.0, "{c:?}");
         assert!((c.impulse_slope_uv_per_s - 27.8).abs() < 1.0, "{c:?}");
         assert!(c.pass.impulse_undershoot && c.pass.impulse_slope, "{c:?}");
@@ -279,13 +280,23 @@ mod tests {
 
     #[test]
     fn the_default_monitoring_chain_fails_the_impulse_test_and_says_what_to_do() {
-        let c = check(&ChainSettings::default(), 500.0, Mode::Monitoring, false).unwrap();
+        let c = check(
+            &ChainSettings::default().design(500.0).unwrap(),
+            Mode::Monitoring,
+            false,
+        )
+        .unwrap();
         assert!(!c.pass.impulse_undershoot, "{c:?}");
         assert!(c.pass.gain_at_0_67_hz, "{c:?}");
         assert!(c.pass.upper_corner, "{c:?}");
         assert!((c.upper_corner_hz.unwrap() - 40.0).abs() < 0.1, "{c:?}");
         assert!(c.advice[0].contains("zero phase"), "{:?}", c.advice);
-        let d = check(&ChainSettings::default(), 500.0, Mode::Diagnostic, false).unwrap();
+        let d = check(
+            &ChainSettings::default().design(500.0).unwrap(),
+            Mode::Diagnostic,
+            false,
+        )
+        .unwrap();
         assert!(!d.pass.upper_corner && !d.pass.gain_at_0_67_hz, "{d:?}");
     }
 }

@@ -181,12 +181,23 @@ impl ChainSettings {
         }
     }
 
-    /// The sections of the chain at `fs`, in processing order.
+    /// The chain designed at `fs`: its sections in processing order, with the settings and the
+    /// rate they were made for. The one place a chain is designed; every view, export and check
+    /// takes the [`Design`] (the monitor's from the DSP thread).
     ///
     /// # Errors
-    /// [`DesignError`] for any stage that cannot be built, or a high-pass corner at or above the
+    /// [`DesignError`] for any stage that cannot be built (a corner at or above
+    /// [`HIGHEST_CORNER_SHARE`] of the rate among them), or a high-pass corner at or above the
     /// low-pass corner when both are in use.
-    pub fn design(&self, fs: f64) -> Result<Vec<Section>, DesignError> {
+    pub fn design(&self, fs: f64) -> Result<Design, DesignError> {
+        Ok(Design {
+            settings: *self,
+            fs_hz: fs,
+            sections: self.sections(fs)?,
+        })
+    }
+
+    fn sections(&self, fs: f64) -> Result<Vec<Section>, DesignError> {
         let mut out = Vec::new();
         let hp = self.highpass;
         let lp = self.lowpass;
@@ -213,6 +224,49 @@ impl ChainSettings {
             out.push(Section::gain(self.gain));
         }
         Ok(out)
+    }
+}
+
+/// The highest corner a chain takes, as a share of the sample rate: above it a digital
+/// Butterworth section departs too far from its analog model (common practice).
+pub const HIGHEST_CORNER_SHARE: f64 = 0.45;
+
+/// The highest corner at `fs`, Hz.
+pub fn highest_corner_hz(fs: f64) -> f64 {
+    HIGHEST_CORNER_SHARE * fs
+}
+
+/// A chain designed for a rate: the settings, the rate and the sections, made once by
+/// [`ChainSettings::design`]. It reads as its sections (`&design` is a `&[Section]`).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Design {
+    settings: ChainSettings,
+    fs_hz: f64,
+    sections: Vec<Section>,
+}
+
+impl Design {
+    /// The settings designed.
+    pub fn settings(&self) -> &ChainSettings {
+        &self.settings
+    }
+
+    /// The rate designed for, Hz.
+    pub fn fs_hz(&self) -> f64 {
+        self.fs_hz
+    }
+
+    /// The sections, in processing order.
+    pub fn sections(&self) -> &[Section] {
+        &self.sections
+    }
+}
+
+impl std::ops::Deref for Design {
+    type Target = [Section];
+
+    fn deref(&self) -> &[Section] {
+        &self.sections
     }
 }
 
@@ -417,7 +471,7 @@ impl Cascade {
 pub struct Chain {
     fs_hz: f64,
     settings: ChainSettings,
-    design: Vec<Section>,
+    design: std::sync::Arc<Design>,
     channels: Vec<Cascade>,
     /// One channel's samples, gathered from an interleaved block.
     scratch: Vec<f64>,
@@ -437,7 +491,7 @@ impl Chain {
             fs_hz,
             settings,
             channels: (0..channels).map(|_| Cascade::new(&design, 0.0)).collect(),
-            design,
+            design: std::sync::Arc::new(design),
             scratch: Vec::new(),
         })
     }
@@ -449,6 +503,11 @@ impl Chain {
 
     /// Sections in force, in processing order.
     pub fn sections(&self) -> &[Section] {
+        &self.design
+    }
+
+    /// The design in force (shared: snapshots carry it).
+    pub fn design(&self) -> &std::sync::Arc<Design> {
         &self.design
     }
 
@@ -472,7 +531,7 @@ impl Chain {
                 *ch = Cascade::new(&design, ch.last_input);
             }
         }
-        self.design = design;
+        self.design = std::sync::Arc::new(design);
         self.settings = settings;
         Ok(())
     }

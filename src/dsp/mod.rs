@@ -7,5 +7,7 @@ pub mod halves;
 pub mod response;
 pub mod spectrum;
 
-pub use chain::{Chain, ChainSettings, HighPass, LowPass, Notch};
+pub use chain::{
+    Chain, ChainSettings, Design, HIGHEST_CORNER_SHARE, HighPass, LowPass, Notch, highest_corner_hz,
+};
 pub use design::{DesignError, Section};

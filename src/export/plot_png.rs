@@ -321,7 +321,10 @@ pub fn response_png(
         let root = BitMapBackend::with_buffer(&mut buf, (w, h)).into_drawing_area();
         root.fill(&WHITE).map_err(draw_err)?;
         let f_lo = measured.first().map_or(0.1, |p| p.0).max(1e-3);
-        let f_hi = measured.last().map_or(0.45 * fs, |p| p.0).max(f_lo * 10.0);
+        let f_hi = measured
+            .last()
+            .map_or(crate::dsp::highest_corner_hz(fs), |p| p.0)
+            .max(f_lo * 10.0);
         let trusted: Vec<f64> = measured.iter().filter(|p| p.2).map(|p| p.1).collect();
         let y_hi = trusted
             .iter()

@@ -452,7 +452,7 @@ impl LeadlineApp {
         Ok(())
     }
 
-    fn files_action(&mut self, a: panels::files::FilesAction, fs: f64) {
+    fn files_action(&mut self, a: panels::files::FilesAction) {
         use panels::files::FilesAction;
         let result: Result<String, String> = match a {
             FilesAction::OpenSetup(p) => match crate::setup::Setup::load(&p) {
@@ -480,16 +480,18 @@ impl LeadlineApp {
                 format,
                 prefix,
             } => {
-                let info = crate::export::c_header::HeaderInfo {
-                    fs_hz: fs,
-                    chain: self.settings.setup.chain.describe(),
-                    prefix,
-                    format,
-                };
-                match self.settings.setup.chain.design(fs) {
-                    Ok(sections) => {
+                // The design in force: the header holds exactly what the monitor runs.
+                match self.pipeline.design() {
+                    Some(design) => {
+                        let fs = design.fs_hz();
+                        let info = crate::export::c_header::HeaderInfo {
+                            fs_hz: fs,
+                            chain: design.settings().describe(),
+                            prefix,
+                            format,
+                        };
                         self.spawn_job(move || {
-                            crate::export::c_header::header(&sections, &info)
+                            crate::export::c_header::header(&design, &info)
                                 .map_err(|e| e.to_string())
                                 .and_then(|text| {
                                     std::fs::write(&path, text)
@@ -505,7 +507,7 @@ impl LeadlineApp {
                         });
                         return;
                     }
-                    Err(e) => Err(e.to_string()),
+                    None => Err("no chain runs yet: the source's sample rate is not known".into()),
                 }
             }
             FilesAction::TracePng(p) => match self.trace_png_job(p) {
@@ -1021,7 +1023,7 @@ impl LeadlineApp {
             Action::MyBoard(b) => self.settings.setup.set_my_board(b),
             Action::Replay(c) => self.pipeline.replay(c),
             Action::Record(r) => self.record_action(r),
-            Action::Files(f) => self.files_action(f, fs),
+            Action::Files(f) => self.files_action(f),
             Action::Pause(p) => self.set_paused(p),
             Action::HoldSpectrum(hold) => {
                 self.spectrum.before = hold
@@ -1100,9 +1102,11 @@ impl LeadlineApp {
         match self.settings.setup.view.lower {
             LowerView::Response => {
                 let ctx = ui.ctx().clone();
-                self.parts.update(&self.settings.setup.chain, fs, move || {
-                    ctx.request_repaint()
-                });
+                let design = self.pipeline.design();
+                self.parts
+                    .update(&self.settings.setup.chain, design, move || {
+                        ctx.request_repaint()
+                    });
                 panels::response::show(
                     ui,
                     &self.response,
@@ -1117,11 +1121,14 @@ impl LeadlineApp {
                     .snapshot
                     .as_ref()
                     .and_then(|s| s.spectrum.as_ref());
-                // The sections the DSP thread runs (no design per frame).
-                let sections = self.view.snapshot.as_ref().map(|s| Arc::clone(&s.sections));
-                if let Some(c) =
-                    panels::spectrum::show(ui, frame, sections.as_deref(), &mut self.spectrum)
-                {
+                // The design the DSP thread ran for this estimate.
+                let design = self.view.snapshot.as_ref().map(|s| Arc::clone(&s.design));
+                if let Some(c) = panels::spectrum::show(
+                    ui,
+                    frame,
+                    design.as_deref().map(|d| d.sections()),
+                    &mut self.spectrum,
+                ) {
                     self.actions.push(c);
                 }
             }
@@ -1130,21 +1137,23 @@ impl LeadlineApp {
                 panels::beats::show(ui, b, fs);
             }
             LowerView::Parts => {
-                panels::parts::show(ui, &mut self.parts, &self.settings.setup.chain, fs);
+                let design = self.pipeline.design();
+                panels::parts::show(ui, &mut self.parts, &self.settings.setup.chain, design);
             }
             LowerView::Measure => {
                 let ctx = ui.ctx().clone();
-                self.parts.update(&self.settings.setup.chain, fs, move || {
-                    ctx.request_repaint()
-                });
+                let design = self.pipeline.design();
+                self.parts
+                    .update(&self.settings.setup.chain, design.clone(), move || {
+                        ctx.request_repaint()
+                    });
                 let snap = self.view.snapshot.as_ref();
-                let sections = snap.map(|s| Arc::clone(&s.sections));
                 let n = snap.map_or(1, |s| s.traces.len());
                 if let Some(c) = panels::measure::show(
                     ui,
                     &mut self.measure,
                     snap.and_then(|s| s.measured.as_ref()),
-                    sections.as_deref(),
+                    design.as_deref().map(|d| d.sections()),
                     self.parts.stages(),
                     n,
                     fs,
@@ -1210,17 +1219,15 @@ impl LeadlineApp {
                 self.side_panel(ui, fs);
             });
 
-        // The response of the chain that runs (the snapshot's sections), or of the one set
-        // before any stream.
-        match self.view.snapshot.as_ref() {
-            Some(snap) => self.response.update_running(
-                &snap.sections,
-                &snap.chain,
-                snap.fs_hz,
-                snap.chain_error.as_deref(),
-            ),
-            None => self.response.update(&self.settings.setup.chain, fs),
-        }
+        // The response of the design in force (the DSP thread's: before the first block, at
+        // the source's expected rate).
+        let refused = self
+            .view
+            .snapshot
+            .as_ref()
+            .and_then(|s| s.chain_error.clone());
+        self.response
+            .update_running(self.pipeline.design().as_deref(), refused.as_deref());
         egui::CentralPanel::default_margins()
             .frame(bare(egui::Frame::central_panel(&style)))
             .show(ui, |ui| {

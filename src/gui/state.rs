@@ -23,7 +23,10 @@ pub struct Settings {
 /// al. 2000, see `analysis::emg`) with the mains notch of `current` kept on, harmonics too. The
 /// upper corner is held under 0.45·fs.
 pub fn emg_chain(current: &ChainSettings, fs: f64) -> ChainSettings {
-    let mut c = ChainSettings::band(Some((20.0, 2)), Some((450.0f64.min(0.45 * fs), 2)));
+    let mut c = ChainSettings::band(
+        Some((20.0, 2)),
+        Some((450.0f64.min(crate::dsp::highest_corner_hz(fs)), 2)),
+    );
     c.notch = current.notch;
     c.notch.enabled = true;
     // Mains harmonics fall inside the EMG band: notch the first three of them too.

@@ -48,7 +48,7 @@ pub fn measure(
             segment: (2.0 * fs) as usize,
         });
     }
-    let hi = band.1.min(0.45 * fs);
+    let hi = band.1.min(crate::dsp::highest_corner_hz(fs));
     let settings = ChainSettings::band((band.0 > 0.0).then_some((band.0, 2)), Some((hi, 4)));
     let sections = settings
         .design(fs)

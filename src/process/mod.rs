@@ -54,7 +54,16 @@ pub struct DspConfig {
     pub display_hz: f64,
     /// The user's front end per channel (None: the source's own scaling).
     pub front_end: Option<Vec<FrontEnd>>,
+    /// The rate the source is expected to run at, if it says (the simulator, a board given its
+    /// rate): the chain is designed at it before the first block, so the views can show it.
+    pub nominal_fs_hz: Option<f64>,
+    /// Where the design in force is published for the views (shared with the pipeline).
+    pub design_slot: DesignSlot,
 }
+
+/// The chain's design in force, published by the DSP thread on every change: the one designed
+/// value every view, export and check of the monitor takes.
+pub type DesignSlot = Arc<std::sync::Mutex<Option<Arc<crate::dsp::Design>>>>;
 
 /// The channels the DSP thread talks on. Policies are set where they are created (pipeline.rs).
 pub struct DspPorts {
@@ -126,13 +135,16 @@ pub struct Dsp {
     measured: Option<Arc<crate::measure::Measured>>,
     sound: Option<Sound>,
     emg: Option<Emg>,
+    /// The source's expected rate, for designing before the first block.
+    nominal_fs: Option<f64>,
+    design_slot: DesignSlot,
 }
 
 impl Dsp {
     /// The core as configured, before any block.
     pub fn new(cfg: DspConfig) -> Self {
         let period = Duration::from_secs_f64(1.0 / cfg.display_hz.clamp(1.0, 240.0));
-        Self {
+        let mut dsp = Self {
             chain: cfg.chain,
             chain_error: None,
             window_s: cfg.window_s,
@@ -155,6 +167,34 @@ impl Dsp {
             measured: None,
             sound: None,
             emg: None,
+            nominal_fs: cfg.nominal_fs_hz,
+            design_slot: cfg.design_slot,
+        };
+        dsp.preview(cfg.chain);
+        dsp
+    }
+
+    /// Publishes `design` as the one in force.
+    fn publish(&self, design: &Arc<crate::dsp::Design>) {
+        if let Ok(mut g) = self.design_slot.lock() {
+            *g = Some(Arc::clone(design));
+        }
+    }
+
+    /// Before any stream: designs `chain` at the nominal rate (if known) and publishes it; a
+    /// chain that cannot be built there is refused like a running one.
+    fn preview(&mut self, chain: ChainSettings) {
+        let Some(fs) = self.nominal_fs else {
+            self.chain = chain;
+            return;
+        };
+        match chain.design(fs) {
+            Ok(d) => {
+                self.chain = chain;
+                self.chain_error = None;
+                self.publish(&Arc::new(d));
+            }
+            Err(e) => self.chain_error = Some(e.to_string()),
         }
     }
 
@@ -169,10 +209,14 @@ impl Dsp {
         match c {
             Control::Chain(s) => match self.state.as_mut().map(|r| r.chain.retune(s)) {
                 Some(Err(e)) => self.chain_error = Some(e.to_string()),
-                _ => {
+                Some(Ok(())) => {
                     self.chain = s;
                     self.chain_error = None;
+                    if let Some(r) = &self.state {
+                        self.publish(r.chain.design());
+                    }
                 }
+                None => self.preview(s),
             },
             Control::Window(w) => {
                 self.window_s = w.clamp(MIN_WINDOW_S, MAX_WINDOW_S);
@@ -267,6 +311,7 @@ impl Dsp {
                 .map(|_| TraceBuf::new(block.fs_hz, self.window_s))
                 .collect()
         };
+        self.publish(chain.design());
         self.state = Some(Running {
             fs: block.fs_hz,
             channels: block.channels,
@@ -501,7 +546,7 @@ impl Dsp {
                 })
                 .collect(),
             chain: *r.chain.settings(),
-            sections: r.chain.sections().into(),
+            design: Arc::clone(r.chain.design()),
             chain_error: self.chain_error.clone(),
             scale: self.scale,
             scale_check: self
@@ -595,6 +640,8 @@ mod tests {
             window_s: 10.0,
             display_hz: 30.0,
             front_end: None,
+            nominal_fs_hz: None,
+            design_slot: DesignSlot::default(),
         })
     }
 
@@ -620,10 +667,7 @@ mod tests {
         let s = d.snapshot(now, false).unwrap();
         assert_eq!(s.stats.frames, 450);
         assert_eq!(s.t_end_s, 1.0);
-        assert_eq!(
-            &*s.sections,
-            &ChainSettings::default().design(fs).unwrap()[..]
-        );
+        assert_eq!(*s.design, ChainSettings::default().design(fs).unwrap());
     }
 
     #[test]

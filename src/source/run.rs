@@ -25,6 +25,19 @@ pub enum SourceSpec {
     Tcp(super::net::TcpSpec),
 }
 
+impl SourceSpec {
+    /// The rate the source is expected to run at, Hz, when it says before its first block.
+    pub fn nominal_fs_hz(&self) -> Option<f64> {
+        match self {
+            SourceSpec::Synth(s) => Some(s.fs_hz),
+            SourceSpec::Serial(s) => s.fs_hz,
+            SourceSpec::Udp(u) => u.fs_hz,
+            SourceSpec::Tcp(t) => t.fs_hz,
+            SourceSpec::File(_) => None,
+        }
+    }
+}
+
 /// A trailing `:ascii` or `:binary` names the wire format (else it is detected).
 fn strip_format(rest: &str) -> (&str, Option<crate::wire::Format>) {
     if let Some(r) = rest.strip_suffix(":ascii") {

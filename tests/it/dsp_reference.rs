@@ -315,7 +315,7 @@ fn conform_matches_scipy_on_the_impulse_test_and_the_067_hz_gain() {
         };
         let fs = case["fs"].as_f64().unwrap();
         let zero_phase = case["zero_phase"].as_bool().unwrap();
-        let c = check(&settings, fs, Mode::Monitoring, zero_phase).unwrap();
+        let c = check(&settings.design(fs).unwrap(), Mode::Monitoring, zero_phase).unwrap();
         let name = case["name"].as_str().unwrap();
         let close = |ours: f64, key: &str, tol: f64| {
             let want = case[key].as_f64().unwrap();

@@ -22,6 +22,7 @@ mod heart_rate;
 mod measure;
 mod pipeline;
 mod record;
+mod shape;
 mod spectrum;
 mod synth;
 mod wire;

@@ -22,7 +22,7 @@ fn edit(ui: &mut egui::Ui, chain: &mut ChainSettings, fs_hz: f64) -> bool {
             .clicked()
         {
             chain.highpass.corner_hz = 0.67;
-            chain.lowpass.corner_hz = 40.0_f64.min(0.45 * fs_hz);
+            chain.lowpass.corner_hz = 40.0_f64.min(crate::dsp::highest_corner_hz(fs_hz));
         }
         if ui
             .button("Diagnostic 0.05–150 Hz")
@@ -30,7 +30,7 @@ fn edit(ui: &mut egui::Ui, chain: &mut ChainSettings, fs_hz: f64) -> bool {
             .clicked()
         {
             chain.highpass.corner_hz = 0.05;
-            chain.lowpass.corner_hz = 150.0_f64.min(0.45 * fs_hz);
+            chain.lowpass.corner_hz = 150.0_f64.min(crate::dsp::highest_corner_hz(fs_hz));
         }
     });
     ui.separator();
@@ -95,11 +95,14 @@ fn edit(ui: &mut egui::Ui, chain: &mut ChainSettings, fs_hz: f64) -> bool {
         .on_hover_text("Removes muscle noise and high-frequency hiss above the corner.");
     ui.add_enabled_ui(chain.lowpass.enabled, |ui| {
         ui.add(
-            egui::Slider::new(&mut chain.lowpass.corner_hz, 5.0..=(0.45 * fs_hz).max(6.0))
-                .logarithmic(true)
-                .text("Low-pass corner")
-                .suffix(" Hz")
-                .max_decimals(1),
+            egui::Slider::new(
+                &mut chain.lowpass.corner_hz,
+                5.0..=(crate::dsp::highest_corner_hz(fs_hz)).max(6.0),
+            )
+            .logarithmic(true)
+            .text("Low-pass corner")
+            .suffix(" Hz")
+            .max_decimals(1),
         )
         .on_hover_text(format!(
             "−3 dB frequency of the Butterworth low-pass (below Nyquist, {nyq} Hz)."

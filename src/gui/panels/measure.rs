@@ -252,7 +252,7 @@ fn response(
         design.map(|d| crate::numeric::db20(crate::dsp::response::magnitude(d, f, fs).max(1e-12)))
     };
     let db_parts = |f: f64| parts.map(|p| crate::analog::parts::chain_db(p, f));
-    let peak = crate::dsp::response::log_frequencies(0.05, 0.45 * fs, 200)
+    let peak = crate::dsp::response::log_frequencies(0.05, crate::dsp::highest_corner_hz(fs), 200)
         .into_iter()
         .filter_map(db_design)
         .fold(f64::MIN, f64::max);
@@ -380,10 +380,11 @@ fn stepped(
             .collect::<Vec<_>>()
             .join(" · ")
     ));
-    let line: Vec<[f64; 2]> = crate::dsp::response::log_frequencies(0.1, 0.45 * fs, 200)
-        .into_iter()
-        .filter_map(|f| db_design(f).map(|d| [f.log10(), d]))
-        .collect();
+    let line: Vec<[f64; 2]> =
+        crate::dsp::response::log_frequencies(0.1, crate::dsp::highest_corner_hz(fs), 200)
+            .into_iter()
+            .filter_map(|f| db_design(f).map(|d| [f.log10(), d]))
+            .collect();
     Plot::new("measure-steps")
         .show_background(false)
         .grid_spacing(crate::gui::plot::GRID_SPACING)

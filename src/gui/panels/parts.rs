@@ -13,7 +13,15 @@ use crate::dsp::response;
 use crate::gui::plot::{FILTERED_COLOUR, RAW_COLOUR, decade_spacer};
 
 /// What a realisation depends on.
-type PartsKey = (ChainSettings, String, Series, u64, u64, u64);
+type PartsKey = (
+    ChainSettings,
+    String,
+    Series,
+    u64,
+    u64,
+    u64,
+    Option<ChainSettings>,
+);
 
 /// A realisation made off the UI thread.
 #[derive(Debug)]
@@ -110,9 +118,18 @@ impl PartsView {
     }
 
     /// Re-realises, on a thread of its own, when the chain or the inputs changed; the last
-    /// result stays on screen meanwhile. `repaint` is called when a result is ready.
-    pub fn update(&mut self, chain: &ChainSettings, fs: f64, repaint: impl Fn() + Send + 'static) {
+    /// result stays on screen meanwhile. `repaint` is called when a result is ready. The parts
+    /// realise the design in force (`design`, the DSP thread's: the same truth as the response
+    /// view), or the chain as set (`chain`) while no design exists yet.
+    pub fn update(
+        &mut self,
+        chain: &ChainSettings,
+        design: Option<std::sync::Arc<crate::dsp::Design>>,
+        repaint: impl Fn() + Send + 'static,
+    ) {
         self.poll();
+        let fs = design.as_ref().map_or(0.0, |d| d.fs_hz());
+        let chain = &design.as_ref().map_or(*chain, |d| *d.settings());
         let key = (
             *chain,
             self.caps_text.clone(),
@@ -120,6 +137,7 @@ impl PartsView {
             self.r_tol_pct.to_bits(),
             self.c_tol_pct.to_bits(),
             fs.to_bits(),
+            design.as_ref().map(|d| *d.settings()),
         );
         // Unchanged, or a realisation still runs (the next frame after it starts the newest).
         if self.key.as_ref() == Some(&key) || self.job.is_some() {
@@ -157,8 +175,9 @@ impl PartsView {
             .spawn(move || {
                 let stages = realise(&chain, &opts).map_err(|e| e.to_string());
                 let mut curves = Vec::new();
-                if let (Ok(stages), Ok(digital)) = (&stages, chain.design(fs)) {
-                    let freqs = response::log_frequencies(0.05, 0.45 * fs, 80);
+                if let (Ok(stages), Some(digital)) = (&stages, design) {
+                    let freqs =
+                        response::log_frequencies(0.05, crate::dsp::highest_corner_hz(fs), 80);
                     let env = envelope(stages, &freqs, &tol);
                     for (f, (lo, hi)) in freqs.iter().zip(env) {
                         let d =
@@ -187,10 +206,15 @@ impl PartsView {
 }
 
 /// Draws the view.
-pub fn show(ui: &mut egui::Ui, view: &mut PartsView, chain: &ChainSettings, fs: f64) {
+pub fn show(
+    ui: &mut egui::Ui,
+    view: &mut PartsView,
+    chain: &ChainSettings,
+    design: Option<std::sync::Arc<crate::dsp::Design>>,
+) {
     controls(ui, view);
     let ctx = ui.ctx().clone();
-    view.update(chain, fs, move || ctx.request_repaint());
+    view.update(chain, design, move || ctx.request_repaint());
     if view.busy() && view.realisations == 0 {
         ui.label("Choosing parts…");
         return;

@@ -4,7 +4,7 @@
 use eframe::egui;
 use egui_plot::{GridMark, Line, Plot, PlotPoints, VLine};
 
-use crate::dsp::Section;
+use crate::dsp::Design;
 use crate::dsp::chain::ChainSettings;
 use crate::dsp::response::{self, Point, Summary};
 
@@ -23,45 +23,32 @@ pub struct ResponseCache {
 }
 
 impl ResponseCache {
-    /// Recomputes when `chain` or `fs` differ from the cached ones (before any stream: the
-    /// chain as set, designed here).
-    pub fn update(&mut self, chain: &ChainSettings, fs: f64) {
-        if self.key == Some((*chain, fs)) {
+    /// Recomputes from the design in force (the DSP thread's) when it changed; `refused` is
+    /// why the chain last asked for was not taken, if it was not. No design yet (a source whose
+    /// rate is not known before its first samples): the view says so.
+    pub fn update_running(&mut self, design: Option<&Design>, refused: Option<&str>) {
+        let Some(design) = design else {
+            self.key = None;
+            self.points.clear();
+            self.summary = None;
+            self.conform = None;
+            self.error =
+                Some("the chain's response appears once the source's sample rate is known".into());
             return;
-        }
-        match chain.design(fs) {
-            Ok(sections) => self.update_running(&sections, chain, fs, None),
-            Err(e) => {
-                self.key = Some((*chain, fs));
-                self.points.clear();
-                self.summary = None;
-                self.conform = None;
-                self.error = Some(e.to_string());
-            }
-        }
-    }
-
-    /// Recomputes from the sections the DSP thread runs (`chain` at `fs`), when they changed;
-    /// `refused` is why the chain last asked for was not taken, if it was not.
-    pub fn update_running(
-        &mut self,
-        sections: &[Section],
-        chain: &ChainSettings,
-        fs: f64,
-        refused: Option<&str>,
-    ) {
+        };
         self.error = refused.map(|e| format!("not applied: {e}"));
-        if self.key == Some((*chain, fs)) {
+        let (chain, fs) = (*design.settings(), design.fs_hz());
+        if self.key == Some((chain, fs)) {
             return;
         }
-        self.key = Some((*chain, fs));
+        self.key = Some((chain, fs));
         let freqs = response::log_frequencies(0.01, 0.499 * fs, POINTS);
-        self.points = response::evaluate(sections, &freqs, fs);
-        self.summary = Some(response::summary(sections, fs));
+        self.points = response::evaluate(design, &freqs, fs);
+        self.summary = Some(response::summary(design, fs));
         use crate::conform::{Mode, check};
-        self.conform = check(chain, fs, Mode::Monitoring, false)
+        self.conform = check(design, Mode::Monitoring, false)
             .ok()
-            .zip(check(chain, fs, Mode::Diagnostic, false).ok())
+            .zip(check(design, Mode::Diagnostic, false).ok())
             .map(|(m, d)| [m, d]);
     }
 
