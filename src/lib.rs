@@ -15,8 +15,9 @@
 //!            ◀────────────── Control (unbounded, tiny) ◀──────────────
 //! ```
 //! - [`pipeline`] is the only place that creates channels and starts (named) threads.
-//! - [`source`]: where samples come from ([`source::synth`] is the default; serial and TCP
-//!   through one byte-stream reader, [`source::link`]; UDP; file replay).
+//! - [`source`]: where samples come from, the threads that read (the simulator's thread is the
+//!   default; serial and TCP through one byte-stream reader, [`source::link`]; UDP; file
+//!   replay); [`sim`]: the simulator's signal models, apart from any I/O.
 //! - [`setup`]: the one persisted configuration (TOML), which the monitor's settings hold.
 //! - [`chan`]: the two ways a thread sends (wait, or replace the oldest).
 //! - [`recorder`]: every processed sample to EDF+/BDF+/CSV/raw files, on its own thread.
@@ -56,6 +57,7 @@ pub mod recorder;
 pub mod rng;
 pub mod scale;
 pub mod setup;
+pub mod sim;
 pub mod sound;
 pub mod source;
 pub mod store;

@@ -214,10 +214,10 @@ pub struct Detector {
     bp_ring: Ring,
     /// The usual QRS: band-passed samples around the R peak (± `tpl_half`), averaged over the
     /// beats that matched it well.
-    usual: Shape,
+    usual: LearnedQrs,
     /// The recent beats that did not look like the usual QRS (ectopic beats, in a bigeminal
     /// rhythm): such a beat is left where it is.
-    other: Shape,
+    other: LearnedQrs,
     tpl_half: u64,
     /// R peak of the last beat.
     last_r: Option<u64>,
@@ -229,14 +229,14 @@ fn band_chain(fs: f64) -> ChainSettings {
 
 /// An averaged QRS shape (band-passed, around the R peak).
 #[derive(Debug, Clone)]
-struct Shape {
+struct LearnedQrs {
     v: Vec<f64>,
     beats: usize,
     /// Beats in a row that did not match.
     misses: usize,
 }
 
-impl Shape {
+impl LearnedQrs {
     fn new(len: usize) -> Self {
         Self {
             v: vec![0.0; len],
@@ -350,8 +350,8 @@ impl Detector {
             events: VecDeque::new(),
             prev_mwi: [0.0; 2],
             bp_ring: Ring::new(history),
-            usual: Shape::new(2 * secs(TPL_HALF_S) as usize + 1),
-            other: Shape::new(2 * secs(TPL_HALF_S) as usize + 1),
+            usual: LearnedQrs::new(2 * secs(TPL_HALF_S) as usize + 1),
+            other: LearnedQrs::new(2 * secs(TPL_HALF_S) as usize + 1),
             tpl_half: secs(TPL_HALF_S),
             last_r: None,
         })
@@ -714,7 +714,7 @@ impl Detector {
         } else {
             self.other.misses += 1;
             if !self.other.ready() || self.other.misses >= 8 {
-                self.other = Shape::new(seg.len());
+                self.other = LearnedQrs::new(seg.len());
                 self.other.add(seg);
             }
         }
@@ -779,7 +779,7 @@ impl Detector {
         // found above looks like neither recent QRS shape and a place within 300 ms looks like
         // the usual one, much better, the R peak is put there.
         let seg = self.segment(r);
-        let like = |t: &Shape| seg.as_ref().and_then(|s| t.corr(s)).unwrap_or(-1.0);
+        let like = |t: &LearnedQrs| seg.as_ref().and_then(|s| t.corr(s)).unwrap_or(-1.0);
         let (usual, other) = (like(&self.usual), like(&self.other));
         let moved = if self.other.beats > 0 && other >= 0.8 {
             None

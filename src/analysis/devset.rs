@@ -13,7 +13,7 @@ use serde::Serialize;
 use super::beats::{Score, Tuning};
 use super::heldout::{Annotated, score_record};
 use crate::rng::Rng;
-use crate::source::rhythm::{BeatShape, ScheduledHeart};
+use crate::sim::rhythm::{BeatShape, ScheduledHeart};
 
 /// Rate of the development records, Hz (MIT-BIH's).
 pub const FS_HZ: f64 = 360.0;

@@ -217,9 +217,9 @@ mod tests {
     #[test]
     fn any_block_split_gives_the_same_readout() {
         let fs = 360.0;
-        let mut heart = crate::source::rhythm::ScheduledHeart::new(
+        let mut heart = crate::sim::rhythm::ScheduledHeart::new(
             fs,
-            crate::source::rhythm::Rhythm::VentricularBigeminy.pattern(1.0),
+            crate::sim::rhythm::Rhythm::VentricularBigeminy.pattern(1.0),
         );
         let x = heart.render_uv(30.0);
         let run = |block: usize| {

@@ -114,7 +114,7 @@ impl ShapeCheck {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::source::rhythm::BeatShape;
+    use crate::sim::rhythm::BeatShape;
 
     fn window(shape: &BeatShape, fs: f64, half: usize) -> Vec<f64> {
         (0..=2 * half)

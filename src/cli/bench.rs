@@ -538,7 +538,7 @@ fn sound() -> Result<SoundFigures> {
     let seconds = 60.0;
     let s = crate::source::SynthSettings {
         fs_hz: fs,
-        muscle: Some(crate::source::muscle::MuscleSettings::default()),
+        muscle: Some(crate::sim::muscle::MuscleSettings::default()),
         ..Default::default()
     };
     let mut synth = crate::source::Synth::new(s)?;

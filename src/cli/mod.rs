@@ -1066,8 +1066,8 @@ pub enum RhythmArg {
 
 impl RhythmArg {
     /// The simulator's rhythm.
-    pub fn rhythm(self) -> crate::source::rhythm::Rhythm {
-        use crate::source::rhythm::Rhythm;
+    pub fn rhythm(self) -> crate::sim::rhythm::Rhythm {
+        use crate::sim::rhythm::Rhythm;
         match self {
             RhythmArg::Sinus => Rhythm::Sinus,
             RhythmArg::VentricularBigeminy => Rhythm::VentricularBigeminy,

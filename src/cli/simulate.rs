@@ -29,7 +29,7 @@ pub fn settings(a: &SimulateArgs) -> SynthSettings {
         inverted: a.inverted,
         lead_off: a.lead_off,
         rhythm: a.rhythm.rhythm(),
-        muscle: a.muscle.then_some(crate::source::muscle::MuscleSettings {
+        muscle: a.muscle.then_some(crate::sim::muscle::MuscleSettings {
             force_pct: a.force,
             full_uv: a.full_uv,
             on_s: a.contract_s,

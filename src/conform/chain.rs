@@ -23,7 +23,7 @@ use crate::dsp::chain::{self, ChainSettings};
 use crate::dsp::design::DesignError;
 use crate::dsp::response;
 use crate::dsp::{Design, Notch, Section};
-use crate::source::rhythm::{BeatShape, ScheduledHeart};
+use crate::sim::rhythm::{BeatShape, ScheduledHeart};
 
 /// What the chain is for.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]

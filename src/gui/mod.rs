@@ -90,8 +90,7 @@ pub fn start_settings(args: &MonitorArgs) -> Result<state::Settings> {
         if v == crate::cli::StartView::Emg {
             // The simulator becomes a contracting muscle (at 1 kHz unless told otherwise).
             if settings.simulating() {
-                settings.setup.synth.muscle =
-                    Some(crate::source::muscle::MuscleSettings::default());
+                settings.setup.synth.muscle = Some(crate::sim::muscle::MuscleSettings::default());
                 settings.setup.synth.fs_hz = args.fs.unwrap_or(1000.0);
                 settings.setup.synth.validate()?;
             }

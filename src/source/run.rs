@@ -7,8 +7,8 @@ use crossbeam_channel::{Receiver, Sender};
 
 use crate::chan::send_blocking;
 
-use super::synth::{Synth, SynthSettings};
 use crate::msg::{RawBlock, SampleUnit};
+use crate::sim::synth::{Synth, SynthSettings};
 
 /// Where a pipeline's samples come from.
 #[derive(Debug, Clone, PartialEq)]

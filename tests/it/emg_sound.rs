@@ -5,7 +5,7 @@
 
 use leadline::analysis::emg::{EmgSettings, analyse, envelope, frequencies};
 use leadline::dsp::chain::zero_phase;
-use leadline::source::muscle::MuscleSettings;
+use leadline::sim::muscle::MuscleSettings;
 use leadline::source::{Synth, SynthSettings};
 
 use crate::common::leadline_ok;

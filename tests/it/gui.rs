@@ -564,7 +564,7 @@ fn emg_mode_sets_the_muscle_chain_and_shows_the_contractions() {
     // The simulator as a muscle at 1 kHz: contractions at 2–4 s and 7–9 s.
     let mut settings = Settings::default();
     settings.setup.synth.fs_hz = 1000.0;
-    settings.setup.synth.muscle = Some(leadline::source::muscle::MuscleSettings::default());
+    settings.setup.synth.muscle = Some(leadline::sim::muscle::MuscleSettings::default());
     let app = LeadlineApp::new(
         settings,
         Arc::new(|| {}),

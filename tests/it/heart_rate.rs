@@ -13,7 +13,7 @@ use leadline::analysis::beats::Beat;
 use leadline::analysis::rate::RateState;
 use leadline::analysis::readout::{RateSample, Readout};
 use leadline::rng::Rng;
-use leadline::source::rhythm::{BeatShape, Rhythm, ScheduledHeart};
+use leadline::sim::rhythm::{BeatShape, Rhythm, ScheduledHeart};
 use leadline::source::{Synth, SynthSettings};
 
 /// ±10 % or ±5 bpm, whichever is greater (recalled from memory; see the module doc).
@@ -551,7 +551,7 @@ fn noisy_stretches_are_marked_unreliable_and_clean_ones_stay_ok() {
 fn a_clean_irregular_rhythm_reads_as_a_clean_signal() {
     let fs = 360.0;
     for rhythm in Rhythm::ALL.into_iter().skip(1) {
-        let mut heart = leadline::source::rhythm::ScheduledHeart::new(fs, rhythm.pattern(1.0));
+        let mut heart = leadline::sim::rhythm::ScheduledHeart::new(fs, rhythm.pattern(1.0));
         let x = heart.render_uv(40.0);
         let (_, evals) = read(&x, fs);
         let late: Vec<&RateSample> = evals.iter().filter(|e| e.time_s >= 20.0).collect();

@@ -169,7 +169,7 @@ fn charger_raises_the_measured_mains_by_its_factor() {
     let (off, on) = (measure(false), measure(true));
     let ratio = on.harmonics[0].rms_uv / off.harmonics[0].rms_uv;
     assert!(
-        (ratio - leadline::source::synth::CHARGER_MAINS_FACTOR).abs() < 0.2,
+        (ratio - leadline::sim::synth::CHARGER_MAINS_FACTOR).abs() < 0.2,
         "{ratio}"
     );
     assert!((off.harmonics[0].rms_uv - 20.0).abs() < 0.4);

@@ -68,7 +68,7 @@ fn muscle(ui: &mut egui::Ui, s: &mut SynthSettings) {
     ui.checkbox(&mut muscle, "Muscle under the electrodes (EMG)")
         .on_hover_text("Surface-EMG-like contractions (2 s on, 3 s off) with a little of the heart's signal: switch the monitor to EMG to analyse them. Use 1 kHz or more.");
     if muscle != s.muscle.is_some() {
-        s.muscle = muscle.then(crate::source::muscle::MuscleSettings::default);
+        s.muscle = muscle.then(crate::sim::muscle::MuscleSettings::default);
     }
     if let Some(m) = s.muscle.as_mut() {
         ui.add(
@@ -128,7 +128,7 @@ fn edit(ui: &mut egui::Ui, s: &mut SynthSettings) -> Changed {
     egui::ComboBox::from_label("Rhythm")
         .selected_text(s.rhythm.name())
         .show_ui(ui, |ui| {
-            for r in crate::source::rhythm::Rhythm::ALL {
+            for r in crate::sim::rhythm::Rhythm::ALL {
                 let label = match r.expected_bpm() {
                     Some(b) => format!("{} (reads {b:.0} bpm)", r.name()),
                     None => format!("{} (the set rate)", r.name()),

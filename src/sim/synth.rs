@@ -18,8 +18,8 @@ use serde::{Deserialize, Serialize};
 use super::ecg_model::EcgModel;
 use crate::rng::Rng;
 use crate::scale::InputScale;
-use crate::source::muscle::{Muscle, MuscleSettings};
-use crate::source::rhythm::{Rhythm, ScheduledHeart};
+use crate::sim::muscle::{Muscle, MuscleSettings};
+use crate::sim::rhythm::{Rhythm, ScheduledHeart};
 
 /// How much stronger mains coupling is with a mains charger on the laptop that reads the board
 /// (its switch-mode supply floats the laptop's ground a few tens of volts off earth through its
@@ -61,10 +61,11 @@ pub enum SynthError {
     Scale(#[from] crate::scale::ScaleError),
 }
 
-/// The modelled analog front end and converter.
+/// The simulator's modelled board: its analog front end and converter (the user's scaling of
+/// a real board is `scale::FrontEnd`).
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(default)]
-pub struct FrontEnd {
+pub struct Board {
     /// Instrumentation-amplifier gain, V/V.
     pub inamp_gain: f64,
     /// In-amp output swing either side of its reference, V: beyond this it saturates.
@@ -79,7 +80,7 @@ pub struct FrontEnd {
     pub adc_vref_v: f64,
 }
 
-impl Default for FrontEnd {
+impl Default for Board {
     /// The invented demo board "LL-2 bench front end": in-amp ×10 on ±1.4 V swing, 0.05 Hz coupling,
     /// ×50 second stage, 12-bit ADC on 3.3 V.
     fn default() -> Self {
@@ -94,7 +95,7 @@ impl Default for FrontEnd {
     }
 }
 
-impl FrontEnd {
+impl Board {
     /// The counts → input-referred µV scale of this front end.
     ///
     /// # Errors
@@ -149,7 +150,7 @@ pub struct SynthSettings {
     /// An electrode is off: the input floats and the amplifier rails.
     pub lead_off: bool,
     /// The modelled front end and ADC.
-    pub front_end: FrontEnd,
+    pub front_end: Board,
     /// The heart's rhythm: the sinus model, or one of the standards' irregular-rhythm cases.
     pub rhythm: Rhythm,
     /// A contracting muscle under the electrodes (surface EMG), with the heart's signal
@@ -178,7 +179,7 @@ impl Default for SynthSettings {
             offset_mv: 25.0,
             inverted: false,
             lead_off: false,
-            front_end: FrontEnd::default(),
+            front_end: Board::default(),
             rhythm: Rhythm::Sinus,
             muscle: None,
         }
