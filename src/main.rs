@@ -9,8 +9,8 @@ use leadline::cli::{Cli, Command, MonitorArgs};
 fn main() -> ExitCode {
     let cli = Cli::parse_args();
     let result = match cli.command {
-        None => leadline::gui::run(&MonitorArgs::default()),
-        Some(Command::Monitor(a)) => leadline::gui::run(&a),
+        None => leadline::cli::monitor::run(&MonitorArgs::default()),
+        Some(Command::Monitor(a)) => leadline::cli::monitor::run(&a),
         Some(Command::Simulate(a)) => leadline::cli::simulate::run(&a),
         Some(Command::Sos(a)) => leadline::cli::sos::run(&a),
         Some(Command::Response(a)) => leadline::cli::response::run(&a),

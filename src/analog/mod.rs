@@ -40,3 +40,29 @@ pub fn poly_ratio_db(num: &[f64], den: &[f64], f: f64) -> f64 {
     let h = cdiv(eval(num), eval(den));
     crate::numeric::db20((h.0 * h.0 + h.1 * h.1).sqrt().max(1e-300))
 }
+
+/// A part's value in engineering notation with its unit (keyed by designator: C… farads, else
+/// ohms; `k` a bare ratio): 27000 → "27kΩ", 1e-7 → "100nF".
+pub fn engineering(v: f64, key: &str) -> String {
+    if key == "k" {
+        return format!("{v:.4}");
+    }
+    let unit = if key.starts_with('C') { "F" } else { "Ω" };
+    for (scale, prefix) in [
+        (1e6, "M"),
+        (1e3, "k"),
+        (1.0, ""),
+        (1e-3, "m"),
+        (1e-6, "µ"),
+        (1e-9, "n"),
+        (1e-12, "p"),
+    ] {
+        if v >= scale * 0.999 {
+            let x = v / scale;
+            let s = format!("{x:.3}");
+            let s = s.trim_end_matches('0').trim_end_matches('.');
+            return format!("{s}{prefix}{unit}");
+        }
+    }
+    format!("{v:e}{unit}")
+}

@@ -1,13 +1,39 @@
 //! `leadline beats`: QRS detection on a recording; beats as CSV, a summary as JSON.
 
-use std::fmt::Write as _;
+use std::path::PathBuf;
 
-use anyhow::{Context, Result};
-use serde::Serialize;
+use clap::Args;
 
-use super::{BadInput, BeatsArgs};
+use super::BadInput;
+use super::args::*;
 use crate::analysis::rate::{Hrv, hrv};
 use crate::analysis::readout::Readout;
+use anyhow::{Context, Result};
+use serde::Serialize;
+use std::fmt::Write as _;
+
+/// Options of `leadline beats`.
+#[derive(Debug, Clone, Args)]
+pub struct BeatsArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// Signal to analyse: 0-based index or name (every signal of an EDF/BDF, whatever its rate).
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// Beats: CSV with sample,time_s,r_uv,search_back,decided_s.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Summary (JSON): beat count, mean heart rate, HRV (mean RR, SDNN, RMSSD, pNN50).
+    #[arg(long, value_name = "FILE")]
+    pub summary: Option<PathBuf>,
+    /// The heart-rate readout once a second, as the monitor shows it: CSV with
+    /// time_s,bpm,state,reason (state: settling, ok, no_beat, unreliable; bpm empty when no
+    /// number is shown), quality_pct (the signal quality the monitor shows with it: noise,
+    /// artefact, clipping) and regularity_pct (the share of successive intervals within 12 %;
+    /// the rhythm, kept apart from the quality).
+    #[arg(long, value_name = "FILE")]
+    pub rate_out: Option<PathBuf>,
+}
 
 #[derive(Serialize)]
 struct Summary {

@@ -1,15 +1,55 @@
 //! `leadline bench`: throughput figures measured on this machine, the last line one JSON object.
 
-use std::hint::black_box;
-use std::time::Instant;
+use std::path::PathBuf;
 
-use anyhow::{Context, Result};
-use serde::Serialize;
+use clap::{Args, ValueEnum};
 
-use super::{BenchArgs, BenchWhat};
+use super::num;
 use crate::dsp::Section;
 use crate::dsp::chain::{Chain, ChainSettings, HighPass, LowPass, Notch};
 use crate::rng::Rng;
+use anyhow::{Context, Result};
+use serde::Serialize;
+use std::hint::black_box;
+use std::time::Instant;
+
+/// What `leadline bench` measures.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum BenchWhat {
+    /// The 4-section chain (HP 0.5 Hz ×2, notch 60 Hz, LP 40 Hz ×4 at 1 kHz), one pass and in 64-sample blocks.
+    Dsp,
+    /// One Welch update of 10 s at 1 kHz (segment 2048), and the mains measurement on it.
+    Spectrum,
+    /// Offline beat detection of a 30-minute 360 Hz record (MIT-BIH 100, or a simulated one).
+    Beats,
+    /// Decoder throughput of the text and binary wire formats, MB/s.
+    Wire,
+    /// UDP: binary datagrams decoded and put back in order, frames/s against 8 ch × 4 kHz.
+    Net,
+    /// `measure response` on a 60 s two-channel 1 kHz recording (the analysis, in process).
+    Measure,
+    /// Sound: the renderer (beat tone and signal, 48 kHz) on 60 s of a 1 kHz stream in 10 ms
+    /// blocks, as the DSP thread runs it; and the EMG view of 20 s at 1 kHz.
+    Sound,
+}
+
+/// Options of `leadline bench`.
+#[derive(Debug, Clone, Args)]
+pub struct BenchArgs {
+    /// The figure to measure.
+    #[arg(value_enum)]
+    pub what: BenchWhat,
+    /// Samples to process.
+    #[arg(value_parser = num::whole::<usize>(1, 1_000_000_000), long, default_value_t = 10_000_000, value_name = "N")]
+    pub samples: usize,
+    /// WFDB record (.hea) for `bench beats`; without it a simulated 30-minute record is used.
+    #[arg(long, value_name = "FILE")]
+    pub record: Option<PathBuf>,
+    /// `bench beats`: a folder of annotated WFDB records (NAME.hea with NAME.beats.csv) for the
+    /// in-sample and the three-against-two held-out figures.
+    #[arg(long, value_name = "DIR", default_value = "tests/data/mitdb")]
+    pub annotated: PathBuf,
+}
 
 /// The benchmark chain: HP 2nd order 0.5 Hz + notch 60 Hz Q 30 + LP 4th order 40 Hz at 1 kHz.
 pub fn bench_chain() -> ChainSettings {

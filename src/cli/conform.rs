@@ -1,10 +1,39 @@
 //! `leadline conform`: the ECG standards' low- and high-frequency checks of a chain (impulse
 //! test, gain at 0.67 Hz, upper corner, ST shift) as a JSON report, each with pass/fail.
 
+use std::path::PathBuf;
+
+use clap::Args;
+
+use super::BadInput;
+use super::args::*;
+use super::num;
+use crate::conform::{self, Mode};
 use anyhow::{Context, Result};
 
-use super::{BadInput, ConformArgs};
-use crate::conform::{self, Mode};
+/// Options of `leadline conform`.
+#[derive(Debug, Clone, Args)]
+pub struct ConformArgs {
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Sample rate the chain runs at, Hz.
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
+    pub fs: f64,
+    /// Judge for diagnostic recording (0.67 Hz at −0.9 dB, 150 Hz) instead of monitoring
+    /// (−3 dB, 40 Hz).
+    #[arg(long)]
+    pub diagnostic: bool,
+    /// The chain runs forward and backward (recordings, `filter --zero-phase`).
+    #[arg(long)]
+    pub zero_phase: bool,
+    /// Take the chain from this setup (TOML) when no stage flag is given.
+    #[arg(long, value_name = "FILE")]
+    pub config: Option<PathBuf>,
+    /// The report: impulse_undershoot_uv, impulse_slope_uv_per_s, gain_db_at_0_67_hz,
+    /// upper_corner_hz, st_shift_uv, pass {item: bool}, advice.
+    #[arg(long, value_name = "FILE")]
+    pub report: PathBuf,
+}
 
 /// Runs the command; exits 0 whether or not the chain passes (the report says).
 ///

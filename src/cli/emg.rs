@@ -1,13 +1,56 @@
 //! `leadline emg`: surface EMG of a recording — envelope and moving RMS as CSV, contractions and
 //! the fatigue trend as JSON.
 
-use std::fmt::Write as _;
+use std::path::PathBuf;
 
+use clap::Args;
+
+use super::BadInput;
+use super::args::*;
+use super::num;
+use crate::analysis::emg::{EmgAnalysis, EmgSettings, analyse};
 use anyhow::{Context, Result};
 use serde::Serialize;
+use std::fmt::Write as _;
 
-use super::{BadInput, EmgArgs};
-use crate::analysis::emg::{EmgAnalysis, EmgSettings, analyse};
+/// Options of `leadline emg`.
+#[derive(Debug, Clone, Args)]
+pub struct EmgArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// Signal to analyse: 0-based index or name.
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// Resting baseline for the onset threshold, s: START,END (default: the quietest second).
+    #[arg(value_parser = num::time_s(), long, value_name = "START,END", value_delimiter = ',')]
+    pub baseline: Option<Vec<f64>>,
+    /// A maximum voluntary contraction, s: START,END; each contraction's RMS is then also
+    /// given as % of it.
+    #[arg(value_parser = num::time_s(), long, value_name = "START,END", value_delimiter = ',')]
+    pub mvc: Option<Vec<f64>>,
+    /// Linear envelope's low-pass corner, Hz (2–10).
+    #[arg(value_parser = num::real(0.5, 50.0, "Hz"), long, default_value_t = 6.0, value_name = "HZ")]
+    pub envelope_hz: f64,
+    /// Moving-RMS window, ms (50–250).
+    #[arg(value_parser = num::real(10.0, 2000.0, "ms"), long, default_value_t = 100.0, value_name = "MS")]
+    pub rms_ms: f64,
+    /// Onset threshold: baseline mean + K standard deviations.
+    #[arg(value_parser = num::real(0.5, 20.0, ""), long, default_value_t = 3.0, value_name = "K")]
+    pub k: f64,
+    /// Band-pass corners, Hz: LOW,HIGH.
+    #[arg(value_parser = num::corner_hz(), long, value_name = "LOW,HIGH", value_delimiter = ',', default_values_t = [20.0, 450.0])]
+    pub band: Vec<f64>,
+    /// Mains notch at this frequency and its harmonics in the band, Hz (50 or 60).
+    #[arg(value_parser = num::mains_hz(), long, value_name = "HZ")]
+    pub notch: Option<f64>,
+    /// CSV: time_s,envelope_uv,rms_uv.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// JSON: bursts (on_s, off_s, peak_uv, rms_uv, mean_hz, median_hz, pct_mvc),
+    /// median_hz_trend, baseline and threshold.
+    #[arg(long, value_name = "FILE")]
+    pub report: Option<PathBuf>,
+}
 
 #[derive(Serialize)]
 struct Report<'a> {

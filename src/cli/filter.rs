@@ -2,11 +2,34 @@
 //! format the output's extension names, on the input's own time base. The causal pass starts in
 //! the steady state of each channel's first sample (no start-up transient from a DC offset).
 
-use anyhow::Result;
+use std::path::PathBuf;
 
-use super::{BadInput, FilterArgs};
+use clap::Args;
+
+use super::BadInput;
+use super::args::*;
 use crate::dsp::chain;
 use crate::store::{self, StoreError};
+use anyhow::Result;
+
+/// Options of `leadline filter`.
+#[derive(Debug, Clone, Args)]
+pub struct FilterArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Output file; its extension chooses the format (.csv, .edf, .bdf, .f32, .f64). With no
+    /// filter flags the data pass unchanged, so this converts between formats.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Filter forward and backward: no phase shift, |H|² magnitude (recorded data only).
+    #[arg(long)]
+    pub zero_phase: bool,
+    /// Also plot the first channel before and after the chain to this PNG.
+    #[arg(long, value_name = "PNG")]
+    pub png: Option<PathBuf>,
+}
 
 /// The notch `--notch auto` chooses: the mains measured in the first channel's spectrum (the
 /// region, the frequency within ±1 Hz of it, the strong harmonics), printed on stderr. With no

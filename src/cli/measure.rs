@@ -1,15 +1,127 @@
 //! `leadline measure`: a built front end measured from a recording (response, stepped sine,
 //! noise, CMRR), with reports, CSVs and a PNG over the design.
 
+use std::path::PathBuf;
+
+use clap::{Args, Subcommand};
+
+use super::BadInput;
+use super::args::*;
+use super::num;
+use crate::measure::{MeasureError, cmrr, noise, sine, transfer};
+use anyhow::{Context, Result};
 use std::fmt::Write as _;
 
-use anyhow::{Context, Result};
+/// Options of `leadline measure`.
+#[derive(Debug, Clone, Args)]
+pub struct MeasureArgs {
+    #[command(subcommand)]
+    pub what: MeasureWhat,
+}
 
-use super::{
-    BadInput, MeasureArgs, MeasureCmrrArgs, MeasureNoiseArgs, MeasureResponseArgs,
-    MeasureStepsArgs, MeasureWhat,
-};
-use crate::measure::{MeasureError, cmrr, noise, sine, transfer};
+/// What `leadline measure` measures.
+#[derive(Debug, Clone, Subcommand)]
+pub enum MeasureWhat {
+    /// Transfer function from a stimulus channel to an output channel (H1, coherence).
+    Response(MeasureResponseArgs),
+    /// A stepped sine on one channel: gain per steady step.
+    Steps(MeasureStepsArgs),
+    /// Input-referred noise with the inputs shorted: RMS, peak-to-peak, density, 1/f corner.
+    Noise(MeasureNoiseArgs),
+    /// Common-mode rejection from a common-mode sine of known amplitude.
+    Cmrr(MeasureCmrrArgs),
+}
+
+/// Options of `measure response`.
+#[derive(Debug, Clone, Args)]
+pub struct MeasureResponseArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// The stimulus channel (generator or DAC), index or name.
+    #[arg(long, value_name = "K|NAME")]
+    pub stimulus: String,
+    /// The front end's output channel, index or name.
+    #[arg(long, value_name = "K|NAME")]
+    pub output: String,
+    /// Welch segment length (power of two, 256–16384); default about 8 s.
+    #[arg(value_parser = num::whole::<usize>(256, 16_384), long, value_name = "N")]
+    pub segment: Option<usize>,
+    /// CSV: freq_hz,mag_db,phase_deg,coherence.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// JSON: corners_hz, passband_gain_db, coherent_range_hz.
+    #[arg(long, value_name = "FILE")]
+    pub report: Option<PathBuf>,
+    /// PNG of the measured response over the design (the chain flags).
+    #[arg(long, value_name = "FILE")]
+    pub png: Option<PathBuf>,
+    /// The design to draw under the measurement.
+    #[command(flatten)]
+    pub chain: ChainArgs,
+}
+
+/// Options of `measure steps`.
+#[derive(Debug, Clone, Args)]
+pub struct MeasureStepsArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// The generator's amplitude at the electrodes, µV peak.
+    #[arg(value_parser = num::real(0.1, 1e6, "µV"), long, value_name = "UV")]
+    pub amplitude_uv: f64,
+    /// Channel, index or name.
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// CSV: freq_hz,gain_db,amplitude_uv,start_s,end_s.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// PNG of the gains over the design (the chain flags).
+    #[arg(long, value_name = "FILE")]
+    pub png: Option<PathBuf>,
+    #[command(flatten)]
+    pub chain: ChainArgs,
+}
+
+/// Options of `measure noise`.
+#[derive(Debug, Clone, Args)]
+pub struct MeasureNoiseArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// Band, Hz (zero-phase band-pass).
+    #[arg(value_parser = num::corner_hz(), long, value_name = "LO,HI", value_delimiter = ',', default_values_t = [0.05, 150.0])]
+    pub band: Vec<f64>,
+    /// Channel, index or name.
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// Limit, µV peak-to-peak (default 30: recalled from memory of the ECG standards).
+    #[arg(value_parser = num::real(0.1, 1e6, "µV"), long, default_value_t = 30.0, value_name = "UV")]
+    pub limit_uv: f64,
+    /// JSON: rms_uv, p2p_uv, density_uv_per_rthz, corner_hz, pass.
+    #[arg(long, value_name = "FILE")]
+    pub report: PathBuf,
+}
+
+/// Options of `measure cmrr`.
+#[derive(Debug, Clone, Args)]
+pub struct MeasureCmrrArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// The common-mode amplitude applied, µV RMS (1 V RMS = 1000000).
+    #[arg(value_parser = num::real(1.0, 1e7, "µV"), long, value_name = "UV")]
+    pub cm_uv: f64,
+    /// Its frequency, Hz (default: the mains, 50).
+    #[arg(value_parser = num::corner_hz(), long, default_value_t = 50.0, value_name = "HZ")]
+    pub cm_hz: f64,
+    /// The generator was stepped through frequencies by hand: one CMRR per steady step (the
+    /// report gains `steps`).
+    #[arg(long)]
+    pub stepped: bool,
+    /// Channel, index or name.
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// JSON: cmrr_db, diff_uv, uncertainty_db.
+    #[arg(long, value_name = "FILE")]
+    pub report: PathBuf,
+}
 
 fn bad(e: MeasureError) -> anyhow::Error {
     BadInput(e.to_string()).into()

@@ -1,14 +1,73 @@
 //! `leadline parts`: the chain realised with standard parts, as parts.json.
 
-use std::fmt::Write as _;
+use std::path::PathBuf;
 
-use anyhow::{Context, Result};
+use clap::Args;
 
-use super::{BadInput, PartsArgs};
+use super::BadInput;
+use super::args::*;
+use super::num;
 use crate::analog::eseries::Series;
 use crate::analog::gain_budget::{self, Budget};
 use crate::analog::parts::{PartsOptions, realise};
 use crate::analog::tolerance::Tolerances;
+use anyhow::{Context, Result};
+use std::fmt::Write as _;
+
+/// Options of `leadline parts`.
+#[derive(Debug, Clone, Args)]
+pub struct PartsArgs {
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Sample rate of the digital chain the parts stand in for, Hz.
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
+    pub fs: f64,
+    /// Resistor series: E6, E12, E24, E48, E96, E192.
+    #[arg(long, default_value = "E24", value_name = "SERIES")]
+    pub series: String,
+    /// A capacitor value you have, F (repeatable); default E6 values 1 nF–10 µF.
+    #[arg(value_parser = num::real(1e-12, 0.01, "F"), long, value_name = "F")]
+    pub capacitor: Vec<f64>,
+    /// In-amp target gain.
+    #[arg(value_parser = num::real(1.0, 10_000.0, "V/V"), long, value_name = "G")]
+    pub inamp_gain: Option<f64>,
+    /// In-amp constant K of G = 1 + K/Rg, ohms, from its datasheet.
+    #[arg(value_parser = num::real(1.0, 1e7, "Ω"), long, value_name = "OHMS")]
+    pub inamp_k: Option<f64>,
+    /// Resistor tolerance, % (for the spread).
+    #[arg(value_parser = num::real(0.0, 50.0, "%"), long, default_value_t = 1.0, value_name = "PCT")]
+    pub r_tol: f64,
+    /// Capacitor tolerance, %.
+    #[arg(value_parser = num::real(0.0, 50.0, "%"), long, default_value_t = 5.0, value_name = "PCT")]
+    pub c_tol: f64,
+    /// Monte Carlo draws (at least 2000).
+    #[arg(value_parser = num::whole::<usize>(100, 1_000_000), long, default_value_t = 2000, value_name = "N")]
+    pub draws: usize,
+    /// Output: parts.json.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Also write the gain budget (JSON) for this electrode offset.
+    #[arg(long, value_name = "FILE")]
+    pub budget: Option<PathBuf>,
+    /// Electrode offset to tolerate, ± mV.
+    #[arg(value_parser = num::real(0.0, 1000.0, "mV"), long, default_value_t = 300.0, value_name = "MV")]
+    pub offset_mv: f64,
+    /// Input bias current of your op-amps, A (for the offset it makes in the large resistors).
+    #[arg(value_parser = num::real(0.0, 1e-3, "A"), long, default_value_t = 1e-9, value_name = "A")]
+    pub bias_current: f64,
+    /// Also write the schematic of the whole chain (SVG).
+    #[arg(long, value_name = "FILE.svg")]
+    pub schematic: Option<PathBuf>,
+    /// Also write a SPICE netlist (VIN drives node in, the output is node out; ideal op-amps).
+    #[arg(long, value_name = "FILE.cir")]
+    pub netlist: Option<PathBuf>,
+    /// Also write the bill of materials (CSV).
+    #[arg(long, value_name = "FILE.csv")]
+    pub bom: Option<PathBuf>,
+    /// Also write the response of the chain built from these parts: freq_hz,mag_db,phase_deg.
+    #[arg(long, value_name = "FILE.csv")]
+    pub response: Option<PathBuf>,
+}
 
 /// Runs the command.
 ///
@@ -124,27 +183,4 @@ fn write_files(
     Ok(())
 }
 
-/// 27000 → "27k", 1e-7 → "100n".
-pub fn engineering(v: f64, key: &str) -> String {
-    if key == "k" {
-        return format!("{v:.4}");
-    }
-    let unit = if key.starts_with('C') { "F" } else { "Ω" };
-    for (scale, prefix) in [
-        (1e6, "M"),
-        (1e3, "k"),
-        (1.0, ""),
-        (1e-3, "m"),
-        (1e-6, "µ"),
-        (1e-9, "n"),
-        (1e-12, "p"),
-    ] {
-        if v >= scale * 0.999 {
-            let x = v / scale;
-            let s = format!("{x:.3}");
-            let s = s.trim_end_matches('0').trim_end_matches('.');
-            return format!("{s}{prefix}{unit}");
-        }
-    }
-    format!("{v:e}{unit}")
-}
+pub use crate::analog::engineering;

@@ -1,17 +1,61 @@
 //! `leadline record`: a source, headless, through the recorder thread to a file for a fixed time
 //! (format by extension); and `leadline ports`.
 
-use std::sync::Arc;
-use std::time::{Duration, Instant};
+use std::path::PathBuf;
 
-use anyhow::{Result, bail};
+use clap::Args;
 
-use super::{BadInput, RecordArgs, Units};
+use super::args::*;
+use super::num;
+use super::{BadInput, Units};
 use crate::dsp::ChainSettings;
 use crate::pipeline::{Pipeline, PipelineConfig};
 use crate::recorder::{RecordFormat, RecordRequest, RecordValues, RecorderCommand};
 use crate::scale::{FrontEnd, InputScale};
 use crate::source::{Pacing, SourceSpec};
+use anyhow::{Result, bail};
+use std::sync::Arc;
+use std::time::{Duration, Instant};
+
+/// Options of `leadline record`.
+#[derive(Debug, Clone, Args)]
+pub struct RecordArgs {
+    /// Source: synth, serial:PATH[@BAUD][:ascii|:binary], udp:[ADDR:]PORT[?from=HOST[:PORT]],
+    /// tcp:HOST:PORT or file:PATH (default: the --config setup's source, else the simulator).
+    /// The last line on stdout is a JSON summary (frames, lost, duplicate, late, foreign, gaps,
+    /// reconnects).
+    #[arg(long, value_name = "SPEC")]
+    pub source: Option<String>,
+    /// Take the source, scaling, simulator and chain from this setup (TOML); --source and any
+    /// filter flag given on the command line win.
+    #[arg(long, value_name = "FILE")]
+    pub config: Option<PathBuf>,
+    /// How long to record, s (the command exits after this even if nothing arrived).
+    #[arg(value_parser = num::seconds(), long, value_name = "S")]
+    pub seconds: f64,
+    /// Output file; its extension chooses the format: .edf (EDF+, 16-bit), .bdf (BDF+, 24-bit),
+    /// .csv, or raw little-endian .f32/.f64.
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Units of CSV and raw values: counts writes them exactly as received (EDF/BDF: always µV).
+    #[arg(long, value_enum, default_value_t = Units::Millivolts)]
+    pub units: Units,
+    /// Record the output of the chain given by the filter flags instead of the raw input.
+    #[arg(long)]
+    pub filtered: bool,
+    /// Place an event marker with this text at the start (repeatable; markers at later times
+    /// come from the monitor).
+    #[arg(long, value_name = "TEXT")]
+    pub marker: Vec<String>,
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Sample rate, Hz, when the source does not say (else estimated from arrival).
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
+    pub fs: Option<f64>,
+    /// The board's front end (a serial source's counts are scaled by it).
+    #[command(flatten)]
+    pub scale: ScaleArgs,
+}
 
 /// The JSON summary `record` prints last.
 #[derive(Debug, serde::Serialize)]

@@ -1,11 +1,38 @@
 //! `leadline response`: magnitude, phase and group delay of the chain, as CSV.
 
+use clap::Args;
+
+use super::BadInput;
+use super::args::*;
+use super::num;
+use crate::dsp::response;
+use anyhow::{Context, Result};
 use std::fmt::Write as _;
 
-use anyhow::{Context, Result};
-
-use super::{BadInput, ResponseArgs};
-use crate::dsp::response;
+/// Options of `leadline response`.
+#[derive(Debug, Clone, Args)]
+pub struct ResponseArgs {
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Sample rate, Hz.
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
+    pub fs: f64,
+    /// Number of log-spaced frequencies from 0.01 Hz to just below Nyquist.
+    #[arg(
+        value_parser = num::whole::<usize>(2, 100_000),
+        long,
+        default_value_t = 512,
+        value_name = "N",
+        conflicts_with = "freqs"
+    )]
+    pub points: usize,
+    /// Explicit frequencies, Hz, comma-separated.
+    #[arg(value_parser = num::corner_hz(), long, value_name = "F1,F2,..", value_delimiter = ',')]
+    pub freqs: Option<Vec<f64>>,
+    /// Output CSV (freq_hz,mag_db,phase_deg,group_delay_s), or - for standard output.
+    #[arg(long, default_value = "-", value_name = "FILE")]
+    pub out: String,
+}
 
 /// The CSV text.
 ///

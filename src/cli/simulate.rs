@@ -1,14 +1,154 @@
 //! `leadline simulate`: the simulator written to a file or standard output.
 
-use std::fmt::Write as _;
-use std::io::{self, Write};
+use clap::{Args, ValueEnum};
 
-use anyhow::{Context, Result};
-
-use super::{SimFormat, SimulateArgs, Units};
+use super::Units;
+use super::num;
 use crate::source::{Synth, SynthSettings};
 use crate::store::csv::time_text;
 use crate::wire::ascii;
+use anyhow::{Context, Result};
+use std::fmt::Write as _;
+use std::io::{self, Write};
+
+/// The simulator's rhythm on the command line.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum RhythmArg {
+    Sinus,
+    VentricularBigeminy,
+    SlowAlternatingBigeminy,
+    RapidAlternatingBigeminy,
+    BidirectionalSystoles,
+}
+
+impl RhythmArg {
+    /// The simulator's rhythm.
+    pub fn rhythm(self) -> crate::sim::rhythm::Rhythm {
+        use crate::sim::rhythm::Rhythm;
+        match self {
+            RhythmArg::Sinus => Rhythm::Sinus,
+            RhythmArg::VentricularBigeminy => Rhythm::VentricularBigeminy,
+            RhythmArg::SlowAlternatingBigeminy => Rhythm::SlowAlternatingBigeminy,
+            RhythmArg::RapidAlternatingBigeminy => Rhythm::RapidAlternatingBigeminy,
+            RhythmArg::BidirectionalSystoles => Rhythm::BidirectionalSystoles,
+        }
+    }
+}
+
+/// Output format of `leadline simulate`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum SimFormat {
+    /// `time_s` then one column per channel, in --units.
+    Csv,
+    /// The text-line wire format: ADC counts, `# key=value` metadata first.
+    Ascii,
+    /// The binary wire format: sync word, sequence counter, i16 counts, CRC-16.
+    Binary,
+}
+
+/// Options of `leadline simulate`. Levels are RMS at the electrodes.
+#[derive(Debug, Clone, Args)]
+pub struct SimulateArgs {
+    /// Sample rate, Hz (125–4000).
+    #[arg(value_parser = num::rate_hz(), long, default_value_t = 500.0, value_name = "HZ")]
+    pub fs: f64,
+    /// Length of the stream, s (default 10; with --pty, until stopped).
+    #[arg(value_parser = num::seconds(), long, value_name = "S")]
+    pub seconds: Option<f64>,
+    /// Channels (1–8).
+    #[arg(value_parser = num::whole::<usize>(1, 8), long, default_value_t = 1, value_name = "N")]
+    pub channels: usize,
+    /// Mean heart rate, bpm.
+    #[arg(value_parser = num::real(20.0, 300.0, "bpm"), long, default_value_t = 72.0, value_name = "BPM")]
+    pub hr: f64,
+    /// Heart-rate variability (standard deviation), bpm.
+    #[arg(value_parser = num::real(0.0, 50.0, "bpm"), long, default_value_t = 1.0, value_name = "BPM")]
+    pub hrv: f64,
+    /// Random seed: the same seed and options give the same bytes.
+    #[arg(value_parser = num::whole::<u64>(0, 4_294_967_295), long, default_value_t = 1, value_name = "N")]
+    pub seed: u64,
+    /// Mains frequency, Hz.
+    #[arg(value_parser = num::mains_hz(), long, default_value_t = 50.0, value_name = "HZ")]
+    pub mains: f64,
+    /// Mains fundamental, RMS µV.
+    #[arg(value_parser = num::real(0.0, 1e5, "µV"), long, default_value_t = 30.0, value_name = "UV")]
+    pub mains_uv: f64,
+    /// Respiration-like baseline wander, RMS µV.
+    #[arg(value_parser = num::real(0.0, 1e5, "µV"), long, default_value_t = 60.0, value_name = "UV")]
+    pub wander_uv: f64,
+    /// Slow electrode drift, RMS µV.
+    #[arg(value_parser = num::real(0.0, 1e5, "µV"), long, default_value_t = 40.0, value_name = "UV")]
+    pub drift_uv: f64,
+    /// Broadband muscle-like noise, RMS µV.
+    #[arg(value_parser = num::real(0.0, 1e5, "µV"), long, default_value_t = 8.0, value_name = "UV")]
+    pub noise_uv: f64,
+    /// Electrode offset, mV (DC).
+    #[arg(value_parser = num::real(0.0, 1000.0, "mV"), long, default_value_t = 25.0, value_name = "MV")]
+    pub offset_mv: f64,
+    /// R-wave amplitude, mV.
+    #[arg(value_parser = num::real(0.05, 10.0, "mV"), long, default_value_t = 1.2, value_name = "MV")]
+    pub r_mv: f64,
+    /// The reading laptop is on its mains charger (stronger mains coupling).
+    #[arg(long)]
+    pub charger: bool,
+    /// Electrodes swapped (inverted signal).
+    #[arg(long)]
+    pub inverted: bool,
+    /// An electrode is off: the input floats to the rails.
+    #[arg(long)]
+    pub lead_off: bool,
+    /// The heart's rhythm: sinus (the model, at --hr), or a standard irregular-rhythm case
+    /// (expected readings: ventricular-bigeminy 80, slow-alternating-bigeminy 60,
+    /// rapid-alternating-bigeminy 120, bidirectional-systoles 90 bpm).
+    #[arg(long, value_enum, default_value_t = RhythmArg::Sinus)]
+    pub rhythm: RhythmArg,
+    /// A contracting muscle under the electrodes (surface EMG): contractions of --force % every
+    /// --contract-s + --rest-s seconds, the heart's signal reduced to --ecg-share. Use --fs 1000
+    /// or more.
+    #[arg(long)]
+    pub muscle: bool,
+    /// Contraction force, % of maximum (RMS at 100 %: --full-uv).
+    #[arg(value_parser = num::percent(), long, default_value_t = 40.0, value_name = "PCT")]
+    pub force: f64,
+    /// RMS of a full-force contraction at the electrodes, µV.
+    #[arg(value_parser = num::real(1.0, 1e5, "µV"), long, default_value_t = 600.0, value_name = "UV")]
+    pub full_uv: f64,
+    /// Length of each contraction, s.
+    #[arg(value_parser = num::real(0.1, 600.0, "s"), long, default_value_t = 2.0, value_name = "S")]
+    pub contract_s: f64,
+    /// Rest between contractions, s.
+    #[arg(value_parser = num::real(0.0, 600.0, "s"), long, default_value_t = 3.0, value_name = "S")]
+    pub rest_s: f64,
+    /// Share of the heart's signal that reaches the electrodes with --muscle (0–1).
+    #[arg(value_parser = num::real(0.0, 1.0, ""), long, default_value_t = 0.15, value_name = "SHARE")]
+    pub ecg_share: f64,
+    /// Fall of the muscle's upper spectral corner per contraction, % (fatigue).
+    #[arg(value_parser = num::real(0.0, 50.0, "%"), long, default_value_t = 0.0, value_name = "PCT")]
+    pub fatigue: f64,
+    /// Output format.
+    #[arg(long, value_enum, default_value_t = SimFormat::Csv)]
+    pub format: SimFormat,
+    /// Units of CSV values (input-referred unless counts).
+    #[arg(long, value_enum, default_value_t = Units::Millivolts)]
+    pub units: Units,
+    /// Output file, or - for standard output.
+    #[arg(long, default_value = "-", value_name = "PATH")]
+    pub out: String,
+    /// Open a pseudo-terminal, print its device path and stream into it in real time.
+    #[arg(long)]
+    pub pty: bool,
+    /// Baud rate the stream must fit (for --pty; the pseudo-terminal itself ignores it).
+    #[arg(value_parser = num::whole::<u32>(300, 4_000_000), long, default_value_t = 921_600, value_name = "B")]
+    pub baud: u32,
+    /// Send the stream in real time as UDP datagrams to HOST:PORT (binary frames unless
+    /// --format ascii), as a Wi-Fi board would.
+    #[arg(long, value_name = "HOST:PORT", conflicts_with_all = ["pty", "tcp_listen"])]
+    pub udp: Option<String>,
+    /// Listen on TCP PORT (loopback) and stream in real time to the client that connects, as a
+    /// Wi-Fi board that listens would.
+    #[arg(value_parser = num::whole::<u16>(1, 65_535), long, value_name = "PORT", conflicts_with = "pty")]
+    pub tcp_listen: Option<u16>,
+}
 
 /// Simulator settings from the command line.
 pub fn settings(a: &SimulateArgs) -> SynthSettings {

@@ -1,9 +1,21 @@
 //! `leadline sos`: the chain's sections as JSON, rows [b0, b1, b2, a0, a1, a2] with a0 = 1
 //! (the layout of scipy.signal's `sos` arrays, so `sosfilt(json.load(f), x)` works as is).
 
+use clap::Args;
+
+use super::args::*;
+use super::num;
 use anyhow::Result;
 
-use super::SosArgs;
+/// Options of `leadline sos`.
+#[derive(Debug, Clone, Args)]
+pub struct SosArgs {
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Sample rate, Hz.
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
+    pub fs: f64,
+}
 
 /// The JSON text for the chain at the given rate.
 ///

@@ -1,13 +1,54 @@
 //! `leadline sound`: what the monitor would play, rendered to a WAV file by the same renderer
 //! that feeds the sound card.
 
-use anyhow::{Context, Result};
+use std::path::PathBuf;
 
-use super::{BadInput, SoundArgs};
+use clap::Args;
+
+use super::BadInput;
+use super::args::*;
+use super::num;
 use crate::analysis::rate::RateState;
 use crate::analysis::readout::Readout;
 use crate::dsp::chain::{Chain, ChainSettings};
 use crate::sound::{Renderer, SoundSettings, wav};
+use anyhow::{Context, Result};
+
+/// Options of `leadline sound`.
+#[derive(Debug, Clone, Args)]
+pub struct SoundArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    #[command(flatten)]
+    pub chain: ChainArgs,
+    /// Signal to follow: 0-based index or name.
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+    /// A tone on each beat (the default when neither --tone nor --signal is given).
+    #[arg(long)]
+    pub tone: bool,
+    /// The filtered signal itself.
+    #[arg(long)]
+    pub signal: bool,
+    /// Tone pitch, Hz (200–4000).
+    #[arg(value_parser = num::real(200.0, 4000.0, "Hz"), long, default_value_t = 1000.0, value_name = "HZ")]
+    pub pitch: f64,
+    /// Tone volume, 0–1 of full scale.
+    #[arg(value_parser = num::real(0.0, 1.0, ""), long, default_value_t = 0.3, value_name = "V")]
+    pub volume: f64,
+    /// Tone length, ms.
+    #[arg(value_parser = num::real(5.0, 1000.0, "ms"), long, default_value_t = 60.0, value_name = "MS")]
+    pub tone_ms: f64,
+    /// Signal gain: 1 mV is full scale × this (a limiter keeps peaks under 0.9).
+    #[arg(value_parser = num::real(0.01, 1000.0, ""), long, default_value_t = 1.0, value_name = "G")]
+    pub signal_gain: f64,
+    /// Output rate, Hz.
+    #[arg(value_parser = num::whole::<u32>(8000, 192_000), long, default_value_t = crate::sound::DEFAULT_RATE_HZ, value_name = "HZ")]
+    pub rate: u32,
+    /// The WAV file (16-bit PCM mono).
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+}
 
 /// Runs the command.
 ///

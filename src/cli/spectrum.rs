@@ -1,14 +1,40 @@
 //! `leadline spectrum`: Welch PSD of a recording as CSV, the mains report as JSON, a PNG plot.
 
-use std::fmt::Write as _;
+use std::path::PathBuf;
 
-use anyhow::{Context, Result};
-use serde::Serialize;
+use clap::Args;
 
-use super::{BadInput, SpectrumArgs};
+use super::BadInput;
+use super::args::*;
+use super::num;
 use crate::analysis::mains::{self, MainsReport};
 use crate::dsp::spectrum::{Welch, segment_for};
 use crate::export::plot_png;
+use anyhow::{Context, Result};
+use serde::Serialize;
+use std::fmt::Write as _;
+
+/// Options of `leadline spectrum`.
+#[derive(Debug, Clone, Args)]
+pub struct SpectrumArgs {
+    #[command(flatten)]
+    pub src: InputArgs,
+    /// Welch segment length (power of two, 256–16384); default about 4 s of signal.
+    #[arg(value_parser = num::whole::<usize>(256, 16_384), long, value_name = "N")]
+    pub segment: Option<usize>,
+    /// PSD output: CSV with freq_hz,psd (µV²/Hz at the electrodes).
+    #[arg(long, value_name = "FILE")]
+    pub out: PathBuf,
+    /// Mains report (JSON): mains_hz, harmonics [{order, hz, rms_uv}], snr_db, band_power.
+    #[arg(long, value_name = "FILE")]
+    pub report: Option<PathBuf>,
+    /// Plot of the PSD with the mains lines (PNG).
+    #[arg(long, value_name = "FILE")]
+    pub png: Option<PathBuf>,
+    /// Signal to analyse: 0-based index or name (every signal of an EDF/BDF, whatever its rate).
+    #[arg(long, default_value = "0", value_name = "K|NAME")]
+    pub channel: String,
+}
 
 #[derive(Serialize)]
 struct Report<'a> {

@@ -4,10 +4,10 @@
 use eframe::egui;
 use egui_plot::{Legend, Line, LineStyle, Plot, PlotPoints};
 
+use crate::analog::engineering;
 use crate::analog::eseries::Series;
 use crate::analog::parts::{PartsOptions, Stage, chain_db, envelope, realise};
 use crate::analog::tolerance::Tolerances;
-use crate::cli::parts::engineering;
 use crate::dsp::chain::ChainSettings;
 use crate::dsp::response;
 use crate::gui::plot::{FILTERED_COLOUR, RAW_COLOUR, decade_spacer};

@@ -1,0 +1,190 @@
+//! `leadline monitor`: the options of the live window (the window itself is `gui::run`).
+
+use std::path::PathBuf;
+
+use clap::{Args, ValueEnum};
+
+use super::args::*;
+use super::num;
+
+/// Options of `leadline monitor`.
+#[derive(Debug, Clone, Args, Default)]
+pub struct MonitorArgs {
+    /// Signal source: synth (the built-in simulator), serial:PATH[@BAUD][:ascii|:binary],
+    /// udp:[ADDR:]PORT[?from=HOST[:PORT]] (a Wi-Fi board sends to us), tcp:HOST:PORT (we connect
+    /// to a board), or file:PATH (replay).
+    /// Default: the setup's source (see --config), else the simulator.
+    #[arg(long, value_name = "SPEC")]
+    pub source: Option<String>,
+    /// Start from this setup (TOML) instead of the one remembered from the last run.
+    #[arg(long, value_name = "FILE")]
+    pub config: Option<PathBuf>,
+    /// Start from the defaults: ignore (and do not overwrite) the remembered setup.
+    #[arg(long, conflicts_with = "config")]
+    pub fresh: bool,
+    /// Simulator sample rate, Hz (125–4000).
+    #[arg(value_parser = num::rate_hz(), long, value_name = "HZ")]
+    pub fs: Option<f64>,
+    /// Simulator channels (1–8).
+    #[arg(value_parser = num::whole::<usize>(1, 8), long, value_name = "N")]
+    pub channels: Option<usize>,
+    /// Close the window after this many seconds and exit 0 (smoke tests, screenshots).
+    #[arg(value_parser = num::seconds(), long, value_name = "SECONDS")]
+    pub exit_after: Option<f64>,
+    /// Save a PNG of the window just before exiting (needs --exit-after).
+    #[arg(long, value_name = "PNG", requires = "exit_after")]
+    pub screenshot: Option<PathBuf>,
+    /// What the strip under the traces shows at start; `default` and `heavy` are the presets
+    /// `--bench` measures (1 kHz × 1 ch, 10 s window / 2 kHz × 8 ch, 30 s window).
+    #[arg(long, value_enum)]
+    pub view: Option<StartView>,
+    /// Run the real window for SECONDS (after a 2 s warm-up), then print frame rate, app time
+    /// per frame, latency, CPU and memory; the last line is JSON.
+    #[arg(value_parser = num::real(0.5, 3600.0, "s"), long, value_name = "SECONDS")]
+    pub bench: Option<f64>,
+    /// With --bench: the beat tone and the signal's sound on (rendered and discarded when
+    /// there is no sound card), to measure what sound costs.
+    #[arg(long, requires = "bench")]
+    pub bench_sound: bool,
+    /// Start with the traces frozen (with --bench: the idle cost).
+    #[arg(long)]
+    pub paused: bool,
+    /// Window size in logical pixels, WIDTHxHEIGHT.
+    #[arg(value_parser = num::window_size, long, value_name = "WxH", default_value = "1280x800")]
+    pub size: num::WindowSize,
+    /// The board's front end (a serial source's counts are scaled by it; also in the monitor's
+    /// Front end section).
+    #[command(flatten)]
+    pub scale: ScaleArgs,
+}
+
+/// The lower strip of the monitor.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum, Default)]
+pub enum StartView {
+    /// Averaged beat and RR tachogram.
+    Beats,
+    /// Running spectrum and mains measurement.
+    #[default]
+    Spectrum,
+    /// Magnitude, phase and group delay of the chain.
+    Response,
+    /// The chain realised with standard parts.
+    Parts,
+    /// Measuring the built front end.
+    Measure,
+    /// Surface EMG (switches the monitor to EMG: the 20–450 Hz chain and the EMG view).
+    Emg,
+    /// Traces only.
+    Traces,
+    /// Measurement preset: simulator at 1 kHz, 1 channel, 10 s window, spectrum strip.
+    Default,
+    /// Measurement preset: simulator 8 channels at 2 kHz, 30 s window, spectrum strip.
+    Heavy,
+}
+
+/// The settings to start with: `--config`, else the remembered setup (unless `--fresh`), else
+/// the defaults; then the command line's own options on top.
+///
+/// # Errors
+/// A `--config` file that cannot be read or used (bad input), a bad `--source` or simulator value.
+pub fn start_settings(args: &MonitorArgs) -> anyhow::Result<crate::gui::state::Settings> {
+    let mut settings = crate::gui::state::Settings::default();
+    if let Some(path) = &args.config {
+        let loaded = crate::setup::Setup::load(path).map_err(|e| BadInput(e.to_string()))?;
+        for w in &loaded.warnings {
+            eprintln!("leadline: {}: {w}", path.display());
+        }
+        settings = crate::gui::state::Settings::from_setup(&loaded.setup)
+            .map_err(|e| BadInput(format!("{}: {e}", path.display())))?;
+    } else if !args.fresh
+        && let Some(path) = crate::setup::last_setup_path().filter(|p| p.exists())
+    {
+        match crate::setup::Setup::load(&path)
+            .map_err(|e| e.to_string())
+            .and_then(|l| crate::gui::state::Settings::from_setup(&l.setup))
+        {
+            Ok(s) => settings = s,
+            Err(e) => eprintln!(
+                "leadline: the remembered setup was not used ({e}); starting from the defaults"
+            ),
+        }
+    }
+    if let Some(fes) = args
+        .scale
+        .front_ends(Some(settings.setup.front_ends()))?
+        .filter(|_| args.scale.any())
+    {
+        settings.setup.set_front_ends(&fes);
+    }
+    if let Some(src) = &args.source {
+        let spec = crate::source::SourceSpec::parse(src, args.fs, settings.setup.scale)
+            .map_err(|e| BadInput(e.to_string()))?;
+        settings.setup.set_source(&spec);
+    }
+    if let Some(fs) = args.fs {
+        settings.setup.synth.fs_hz = fs;
+    }
+    if let Some(n) = args.channels {
+        settings.setup.synth.channels = n;
+    }
+    settings.setup.synth.validate()?;
+    if let Some(v) = args.view {
+        settings.setup.view.lower = match v {
+            StartView::Beats => crate::gui::state::LowerView::Beats,
+            StartView::Spectrum => crate::gui::state::LowerView::Spectrum,
+            StartView::Response => crate::gui::state::LowerView::Response,
+            StartView::Parts => crate::gui::state::LowerView::Parts,
+            StartView::Measure => crate::gui::state::LowerView::Measure,
+            StartView::Emg => crate::gui::state::LowerView::Muscle,
+            StartView::Traces => crate::gui::state::LowerView::Hidden,
+            StartView::Default | StartView::Heavy => crate::gui::state::LowerView::Spectrum,
+        };
+        let heavy = v == StartView::Heavy;
+        if matches!(v, StartView::Default | StartView::Heavy) {
+            settings.setup.source.kind = crate::setup::SourceKind::Synth;
+            settings.setup.synth.fs_hz = args.fs.unwrap_or(if heavy { 2000.0 } else { 1000.0 });
+            settings.setup.synth.channels = args.channels.unwrap_or(if heavy { 8 } else { 1 });
+            settings.setup.view.window_s = if heavy { 30.0 } else { 10.0 };
+            settings.setup.view.display_hz = 30.0;
+            settings.setup.synth.validate()?;
+        }
+        if v == StartView::Emg {
+            // The simulator becomes a contracting muscle (at 1 kHz unless told otherwise).
+            if settings.simulating() {
+                settings.setup.synth.muscle = Some(crate::sim::muscle::MuscleSettings::default());
+                settings.setup.synth.fs_hz = args.fs.unwrap_or(1000.0);
+                settings.setup.synth.validate()?;
+            }
+            settings.emg_mode = true;
+            settings.ecg_chain = Some(settings.setup.chain);
+            settings.setup.chain =
+                crate::gui::state::emg_chain(&settings.setup.chain, settings.setup.synth.fs_hz);
+        }
+    }
+    Ok(settings)
+}
+
+/// Runs `leadline monitor`: reads the options into the settings and the window's start
+/// options, then opens the window.
+///
+/// # Errors
+/// A bad option or setup (exit 2), no display, a screenshot that could not be written.
+pub fn run(args: &MonitorArgs) -> anyhow::Result<()> {
+    let settings = start_settings(args)?;
+    let start = crate::gui::StartOptions {
+        size: [args.size.width, args.size.height],
+        exit_after_s: args.exit_after,
+        screenshot: args.screenshot.clone(),
+        // A measurement or a scripted run must not change what the user starts with next time.
+        remember_setup: !args.fresh && args.bench.is_none() && args.exit_after.is_none(),
+        paused: args.paused,
+        bench_s: args.bench,
+        bench_view: match args.view {
+            Some(StartView::Heavy) => "heavy".into(),
+            Some(StartView::Default) | None => "default".into(),
+            Some(other) => format!("{other:?}").to_lowercase(),
+        } + if args.bench_sound { "+sound" } else { "" },
+        bench_sound: args.bench_sound,
+    };
+    crate::gui::run(settings, start)
+}
