@@ -79,9 +79,9 @@ fn render(pattern: Vec<(f64, BeatShape)>, seconds: f64) -> (Vec<f64>, Vec<u64>) 
     (x, r)
 }
 
-/// Unit-RMS noise of a kind (seeded): electrode motion (baseline swings and sharp biphasic
-/// transients that look like QRS complexes to a band-pass) or muscle (broadband above 20 Hz, in
-/// bursts).
+/// Unit-RMS noise of a kind (seeded): `motion` (electrode motion: baseline swings and sharp
+/// biphasic transients that look like QRS complexes to a band-pass), `muscle` (broadband above
+/// 20 Hz, in bursts), or anything else: white noise (a poor contact or a noisy amplifier).
 pub fn noise(kind: &str, n: usize, fs: f64, seed: u64) -> Vec<f64> {
     let mut rng = Rng::new(seed);
     let mut v = vec![0.0; n];
@@ -99,12 +99,14 @@ pub fn noise(kind: &str, n: usize, fs: f64, seed: u64) -> Vec<f64> {
         for (i, s) in v.iter_mut().enumerate() {
             let t = i as f64 / fs;
             y = a * y + (1.0 - a) * rng.normal() * 6.0;
-            while first < events.len() && events[first].0 + 5.0 * events[first].1 < t {
+            // Events are in onset order and reach at most 5 × 40 ms: only those near t count.
+            while first < events.len() && events[first].0 + 0.2 < t {
                 first += 1;
             }
             let spikes: f64 = events[first..]
                 .iter()
-                .take_while(|e| e.0 - 5.0 * e.1 <= t)
+                .take_while(|e| e.0 - 0.2 <= t)
+                .filter(|e| (t - e.0).abs() < 5.0 * e.1)
                 .map(|e| {
                     let u = (t - e.0) / e.1;
                     e.2 * u * (-0.5 * u * u).exp()
@@ -112,7 +114,7 @@ pub fn noise(kind: &str, n: usize, fs: f64, seed: u64) -> Vec<f64> {
                 .sum();
             *s = y + spikes;
         }
-    } else {
+    } else if kind == "muscle" {
         let (mut prev_in, mut prev_out) = (0.0, 0.0);
         let a = 1.0 / (1.0 + std::f64::consts::TAU * 20.0 / fs);
         let mut on_until = 0usize;

@@ -440,24 +440,6 @@ fn conform_reports_the_standards_checks_with_pass_and_advice() {
 /// with exit 2 and one line that names the option.
 #[test]
 fn every_numeric_option_refuses_nan_inf_negative_and_absurd_values() {
-    use clap::builder::ValueParser;
-    use leadline::cli::num::{NotchArg, WindowSize, ZeroArg};
-    fn numeric(p: &ValueParser) -> bool {
-        use std::any::TypeId;
-        let t = p.type_id();
-        [
-            TypeId::of::<f64>(),
-            TypeId::of::<u32>(),
-            TypeId::of::<u64>(),
-            TypeId::of::<u16>(),
-            TypeId::of::<usize>(),
-            TypeId::of::<NotchArg>(),
-            TypeId::of::<ZeroArg>(),
-            TypeId::of::<WindowSize>(),
-        ]
-        .into_iter()
-        .any(|id| t == id)
-    }
     fn walk(
         cmd: &clap::Command,
         path: &mut Vec<String>,
@@ -466,7 +448,8 @@ fn every_numeric_option_refuses_nan_inf_negative_and_absurd_values() {
         for a in cmd.get_arguments() {
             if let Some(long) = a.get_long()
                 && a.get_action().takes_values()
-                && numeric(a.get_value_parser())
+                // The product's list of numeric value parsers (plain f64 and integers too).
+                && leadline::cli::num::is_numeric(a.get_value_parser())
             {
                 // Options that take several values at once (START,END) get them all bad.
                 let n = a.get_num_args().map_or(1, |r| r.min_values()).max(1);

@@ -385,65 +385,9 @@ fn rate_csv_is_what_the_monitor_shows() {
     assert!(lat.iter().all(|&d| (0.0..=0.5).contains(&d)), "{lat:?}");
 }
 
-/// Noise of a kind, zero mean, unit RMS over its stretch (fixed seed).
+/// Noise of a kind, zero mean, unit RMS over its stretch (fixed seed): the development set's.
 fn noise_kind(kind: &str, n: usize, fs: f64, seed: u64) -> Vec<f64> {
-    let mut rng = Rng::new(seed);
-    let mut v = vec![0.0; n];
-    match kind {
-        // Electrode motion: baseline swings of 0.5–3 Hz and sharp biphasic transients of
-        // 15–40 ms (about two a second, of random size and sign) that look like QRS complexes
-        // to a band-pass detector.
-        "motion" => {
-            let a = (-std::f64::consts::TAU * 2.0 / fs).exp();
-            let mut y = 0.0;
-            let mut events: Vec<(f64, f64, f64)> = Vec::new();
-            for i in 0..n {
-                if rng.uniform() < 2.0 / fs {
-                    let w = 0.015 + 0.025 * rng.uniform();
-                    events.push((i as f64 / fs + 0.1, w, 3.0 * rng.normal()));
-                }
-            }
-            for (i, s) in v.iter_mut().enumerate() {
-                let t = i as f64 / fs;
-                y = a * y + (1.0 - a) * rng.normal() * 6.0;
-                let spikes: f64 = events
-                    .iter()
-                    .filter(|e| (t - e.0).abs() < 5.0 * e.1)
-                    .map(|e| {
-                        let u = (t - e.0) / e.1;
-                        e.2 * u * (-0.5 * u * u).exp()
-                    })
-                    .sum();
-                *s = y + spikes;
-            }
-        }
-        // Muscle: broadband above 20 Hz, in bursts of 0.3–1 s.
-        "muscle" => {
-            let (mut prev_in, mut prev_out) = (0.0, 0.0);
-            let a = 1.0 / (1.0 + std::f64::consts::TAU * 20.0 / fs);
-            let mut on_until = 0usize;
-            for (i, s) in v.iter_mut().enumerate() {
-                if i >= on_until && rng.uniform() < 1.5 / fs {
-                    on_until = i + ((0.3 + 0.7 * rng.uniform()) * fs) as usize;
-                }
-                let w = rng.normal();
-                prev_out = a * (prev_out + w - prev_in);
-                prev_in = w;
-                *s = if i < on_until {
-                    prev_out
-                } else {
-                    0.1 * prev_out
-                };
-            }
-        }
-        // Broadband noise (white), as a poor contact or a noisy amplifier gives.
-        _ => v.iter_mut().for_each(|s| *s = rng.normal()),
-    }
-    let rms = (v.iter().map(|x| x * x).sum::<f64>() / n as f64)
-        .sqrt()
-        .max(1e-12);
-    v.iter_mut().for_each(|x| *x /= rms);
-    v
+    leadline::analysis::devset::noise(kind, n, fs, seed)
 }
 
 /// Figures of the quality check on our noisy fixtures: (share of false beats whose evaluation
