@@ -892,28 +892,42 @@ impl LeadlineApp {
             simulating,
             adc,
         ));
-        self.actions.extend(panels::network::show(
-            ui,
-            &mut self.net,
-            net_active,
-            adc,
-            self.source_error.as_deref(),
-        ));
-        ui.horizontal(|ui| {
-            panels::named_field(ui, "recording to replay", &mut self.file_path, |t| {
-                t.hint_text("recording.edf / .csv / .hea").desired_width(170.0)
+        // A Wi-Fi board and a recording to replay fold away while neither is the source: fewer
+        // widgets to draw every frame (under software OpenGL the open section cost about a
+        // tenth of a core) and a shorter panel.
+        let replaying = self.pipeline.replay_status();
+        egui::CollapsingHeader::new("Wi-Fi board or a recording")
+            .id_salt("source-more")
+            .open(if net_active || replaying.is_some() {
+                Some(true)
+            } else {
+                None
             })
-            .on_hover_text("A recording to replay: EDF/EDF+/BDF, our CSV, a scope CSV with a time column, raw .f32/.f64 or a WFDB .hea.");
-            if ui
-                .add_enabled(!self.file_path.is_empty(), egui::Button::new("Replay"))
-                .clicked()
-            {
-                self.actions.push(Action::Source(SourceChoice::File(
-                    self.file_path.clone().into(),
-                )));
-            }
-        });
-        if let Some(st) = self.pipeline.replay_status() {
+            .default_open(false)
+            .show(ui, |ui| {
+                self.actions.extend(panels::network::show(
+                    ui,
+                    &mut self.net,
+                    net_active,
+                    adc,
+                    self.source_error.as_deref(),
+                ));
+                ui.horizontal(|ui| {
+                    panels::named_field(ui, "recording to replay", &mut self.file_path, |t| {
+                        t.hint_text("recording.edf / .csv / .hea").desired_width(170.0)
+                    })
+                    .on_hover_text("A recording to replay: EDF/EDF+/BDF, our CSV, a scope CSV with a time column, raw .f32/.f64 or a WFDB .hea.");
+                    if ui
+                        .add_enabled(!self.file_path.is_empty(), egui::Button::new("Replay"))
+                        .clicked()
+                    {
+                        self.actions.push(Action::Source(SourceChoice::File(
+                            self.file_path.clone().into(),
+                        )));
+                    }
+                });
+            });
+        if let Some(st) = replaying {
             self.actions.extend(panels::replay::show(ui, &st));
         }
     }
@@ -922,8 +936,10 @@ impl LeadlineApp {
     /// while it is the source.
     fn settings_sections(&mut self, ui: &mut egui::Ui) {
         let heading = |t: &str| egui::RichText::new(t).heading();
+        // Open while a board is the source (its counts need the front end); folded on the
+        // simulator, which models its own board.
         egui::CollapsingHeader::new(heading("Front end"))
-            .default_open(true)
+            .default_open(!self.settings.simulating())
             .show(ui, |ui| {
                 let board = self.settings.setup.from_board();
                 let n = self.view.snapshot.as_ref().map_or(1, |s| s.traces.len());

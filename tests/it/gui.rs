@@ -138,7 +138,7 @@ fn tmp(name: &str) -> std::path::PathBuf {
 }
 
 fn run_until(h: &mut Harness<'static, LeadlineApp>, what: &str, f: impl Fn(&LeadlineApp) -> bool) {
-    let deadline = Instant::now() + Duration::from_secs(10);
+    let deadline = Instant::now() + Duration::from_secs(20);
     while !f(h.state()) {
         assert!(Instant::now() < deadline, "timed out waiting for {what}");
         h.run_steps(1);
@@ -283,6 +283,9 @@ fn replaying_a_file_switches_the_source() {
     run_until(&mut h, "the simulator's first snapshot", |a| {
         a.view().snapshot.as_ref().is_some_and(|s| s.fs_hz == 500.0)
     });
+    // The recording's field folds away with the Wi-Fi board's: open it as a person would.
+    h.get_by_label("Wi-Fi board or a recording").click();
+    h.run_steps(2);
     fill(&mut h, "recording to replay", &path.display().to_string());
     h.get_by_role_and_label(Role::Button, "Replay").click();
     h.run_steps(2);
@@ -469,6 +472,7 @@ fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
     };
     // At first: the demo board's scaling (12-bit, 3.3 V, gain 500).
     let (frames_before, _) = wait_for(&mut h, 12);
+    // A board is the source: the front end section is open.
     h.get_by_value("Preset…").click();
     h.run_steps(2);
     h.get_by_label("10-bit 5 V, mid-scale").click();
