@@ -521,6 +521,22 @@ fn the_reviewed_bad_options_each_give_one_line_and_exit_2() {
     let out = tmp("review-out.csv");
     let o = out.to_str().unwrap();
     let rate = "125–4000 Hz";
+    // `measure response` with one bad chain flag.
+    let response = |flag: &'static str, value: &'static str| -> Vec<&str> {
+        let base = [
+            "measure",
+            "response",
+            "--input",
+            i,
+            "--stimulus",
+            "0",
+            "--output",
+            "1",
+        ];
+        let mut v = base.to_vec();
+        v.extend(["--out", o, flag, value]);
+        v
+    };
     let cases: Vec<(Vec<&str>, &str)> = vec![
         (vec!["conform", "--fs", "NaN", "--report", o], rate),
         (vec!["conform", "--fs", "-inf", "--report", o], rate),
@@ -582,108 +598,12 @@ fn the_reviewed_bad_options_each_give_one_line_and_exit_2() {
             ],
             "0.01–2000 Hz",
         ),
-        (
-            vec![
-                "measure",
-                "response",
-                "--input",
-                i,
-                "--stimulus",
-                "0",
-                "--output",
-                "1",
-                "--out",
-                o,
-                "--highpass",
-                "NaN",
-            ],
-            "0.01–2000 Hz",
-        ),
-        (
-            vec![
-                "measure",
-                "response",
-                "--input",
-                i,
-                "--stimulus",
-                "0",
-                "--output",
-                "1",
-                "--out",
-                o,
-                "--lowpass",
-                "-5",
-            ],
-            "0.01–2000 Hz",
-        ),
-        (
-            vec![
-                "measure",
-                "response",
-                "--input",
-                i,
-                "--stimulus",
-                "0",
-                "--output",
-                "1",
-                "--out",
-                o,
-                "--notch",
-                "NaN",
-            ],
-            "1–2000 Hz",
-        ),
-        (
-            vec![
-                "measure",
-                "response",
-                "--input",
-                i,
-                "--stimulus",
-                "0",
-                "--output",
-                "1",
-                "--out",
-                o,
-                "--notch-q",
-                "-1",
-            ],
-            "0.5–100",
-        ),
-        (
-            vec![
-                "measure",
-                "response",
-                "--input",
-                i,
-                "--stimulus",
-                "0",
-                "--output",
-                "1",
-                "--out",
-                o,
-                "--highpass-order",
-                "0",
-            ],
-            "1–8",
-        ),
-        (
-            vec![
-                "measure",
-                "response",
-                "--input",
-                i,
-                "--stimulus",
-                "0",
-                "--output",
-                "1",
-                "--out",
-                o,
-                "--lowpass-order",
-                "99",
-            ],
-            "1–8",
-        ),
+        (response("--highpass", "NaN"), "0.01–2000 Hz"),
+        (response("--lowpass", "-5"), "0.01–2000 Hz"),
+        (response("--notch", "NaN"), "1–2000 Hz"),
+        (response("--notch-q", "-1"), "0.5–100"),
+        (response("--highpass-order", "0"), "1–8"),
+        (response("--lowpass-order", "99"), "1–8"),
     ];
     for (args, says) in cases {
         let out = leadline(&args);

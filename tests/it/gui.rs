@@ -13,13 +13,34 @@ use leadline::gui::state::Settings;
 use leadline::gui::{AppOptions, LeadlineApp};
 
 fn app() -> LeadlineApp {
+    app_with(Settings::default())
+}
+
+/// The monitor on `settings`, with the default start options.
+fn app_with(settings: Settings) -> LeadlineApp {
     LeadlineApp::new(
-        Settings::default(),
+        settings,
         Arc::new(|| {}),
         AppOptions::default(),
         Arc::new(Mutex::new(Ok(()))),
     )
     .unwrap()
+}
+
+/// Runs frames until the snapshot holds `seconds` of stream (at most 20 s of waiting).
+fn run_until_stream(h: &mut Harness<'static, LeadlineApp>, seconds: f64) {
+    let deadline = Instant::now() + Duration::from_secs(20);
+    while h
+        .state()
+        .view()
+        .snapshot
+        .as_ref()
+        .is_none_or(|s| s.t_end_s < seconds)
+    {
+        assert!(Instant::now() < deadline, "no data");
+        h.run_steps(1);
+        std::thread::sleep(Duration::from_millis(50));
+    }
 }
 
 /// Types `text` into the text field named `name`, as a person would: focus, select all, type,
@@ -447,13 +468,7 @@ fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
                 physical_to_uv: 1e3,
             },
         ));
-    let app = LeadlineApp::new(
-        settings,
-        Arc::new(|| {}),
-        AppOptions::default(),
-        Arc::new(Mutex::new(Ok(()))),
-    )
-    .unwrap();
+    let app = app_with(settings);
     // Tall enough that the whole control column (filters, source, front end) is on screen.
     let mut h = harness_sized(app, [1280.0, 1800.0]);
     let wait_for = |h: &mut Harness<'static, LeadlineApp>, bits: u32| {
@@ -517,26 +532,9 @@ fn the_measure_view_measures_the_live_stream() {
     let mut settings = Settings::default();
     settings.setup.synth.channels = 2;
     settings.setup.view.lower = leadline::gui::state::LowerView::Measure;
-    let app = LeadlineApp::new(
-        settings,
-        Arc::new(|| {}),
-        AppOptions::default(),
-        Arc::new(Mutex::new(Ok(()))),
-    )
-    .unwrap();
+    let app = app_with(settings);
     let mut h = harness_sized(app, [1280.0, 1000.0]);
-    let deadline = Instant::now() + Duration::from_secs(20);
-    while h
-        .state()
-        .view()
-        .snapshot
-        .as_ref()
-        .is_none_or(|s| s.t_end_s < 9.0)
-    {
-        assert!(Instant::now() < deadline, "no data");
-        h.run_steps(1);
-        std::thread::sleep(Duration::from_millis(50));
-    }
+    run_until_stream(&mut h, 9.0);
     h.get_by_label("Measure the last 30 s").click();
     let deadline = Instant::now() + Duration::from_secs(10);
     loop {
@@ -569,13 +567,7 @@ fn emg_mode_sets_the_muscle_chain_and_shows_the_contractions() {
     let mut settings = Settings::default();
     settings.setup.synth.fs_hz = 1000.0;
     settings.setup.synth.muscle = Some(leadline::sim::muscle::MuscleSettings::default());
-    let app = LeadlineApp::new(
-        settings,
-        Arc::new(|| {}),
-        AppOptions::default(),
-        Arc::new(Mutex::new(Ok(()))),
-    )
-    .unwrap();
+    let app = app_with(settings);
     let mut h = harness(app);
     h.run_steps(3);
     let ecg_chain = h.state().settings().setup.chain;
@@ -705,26 +697,9 @@ fn the_trace_axes_have_three_labels_on_a_millivolt_and_a_fifty_microvolt_signal(
         settings.setup.synth.noise_uv = noise;
         settings.setup.synth.mains_uv = 0.2 * noise;
         settings.setup.view.lower = leadline::gui::state::LowerView::Hidden;
-        let app = LeadlineApp::new(
-            settings,
-            Arc::new(|| {}),
-            AppOptions::default(),
-            Arc::new(Mutex::new(Ok(()))),
-        )
-        .unwrap();
+        let app = app_with(settings);
         let mut h = harness_sized(app, [1280.0, 800.0]);
-        let deadline = Instant::now() + Duration::from_secs(20);
-        while h
-            .state()
-            .view()
-            .snapshot
-            .as_ref()
-            .is_none_or(|s| s.t_end_s < 4.0)
-        {
-            assert!(Instant::now() < deadline, "no data");
-            h.run_steps(1);
-            std::thread::sleep(Duration::from_millis(50));
-        }
+        run_until_stream(&mut h, 4.0);
         h.run_steps(2);
         // The side panel is about 300 px wide; the traces' axes are right of it.
         let cols = value_axis_columns(&h, 320.0);
