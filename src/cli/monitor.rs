@@ -170,6 +170,7 @@ pub fn start_settings(args: &MonitorArgs) -> anyhow::Result<crate::gui::state::S
 /// # Errors
 /// A bad option or setup (exit 2), no display, a screenshot that could not be written.
 pub fn run(args: &MonitorArgs) -> anyhow::Result<()> {
+    crate::gui::steady_heap();
     let settings = start_settings(args)?;
     let start = crate::gui::StartOptions {
         size: [args.size.width, args.size.height],

@@ -39,6 +39,8 @@ pub struct BenchReport {
     pub rss_mb: f64,
     /// Resident size growth over the measured time, MB.
     pub rss_growth_mb: f64,
+    /// glibc tunables the process ran with (`GLIBC_TUNABLES`), empty when none.
+    pub heap_tunables: String,
 }
 
 /// Collects per-frame and per-snapshot figures.
@@ -200,6 +202,7 @@ impl BenchRun {
             cpu_percent: 100.0 * (process_cpu_s() - cpu0) / secs,
             rss_mb: rss,
             rss_growth_mb: rss - rss0,
+            heap_tunables: std::env::var("GLIBC_TUNABLES").unwrap_or_default(),
         });
         true
     }
