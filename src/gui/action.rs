@@ -1,6 +1,6 @@
-//! What the user asked for in a frame. Panels draw and return actions; the app applies them all
-//! after drawing, in one place ([`super::app::LeadlineApp::apply`]), so no panel reaches into
-//! the pipeline or another panel's state.
+//! What the user asked for in a frame. Panels draw and return actions; after drawing, the app
+//! hands them to the reducer ([`super::model::apply`]) one by one, so no panel reaches into the
+//! pipeline or the state.
 
 use std::path::PathBuf;
 
@@ -51,10 +51,18 @@ pub enum Action {
     MyBoard(Option<FrontEnd>),
     /// To the replay thread.
     Replay(ReplayCommand),
+    /// The recording path as typed in the source section.
+    ReplayPath(String),
     /// Start, stop or mark a recording.
     Record(RecordAction),
     /// Open or save a setup, export C, save a PNG.
     Files(FilesAction),
+    /// A file job finished.
+    JobDone(super::jobs::JobDone),
+    /// Cursors placed or cleared, or the traces zoomed or panned.
+    Trace(super::panels::trace::TraceEvent),
+    /// The view section as edited (window, unit, channel, display settings).
+    View(crate::setup::ViewSetup),
     /// Freeze or resume the traces.
     Pause(bool),
     /// Keep (or drop) the current spectrum as "before".

@@ -4,9 +4,13 @@
 pub mod action;
 pub mod app;
 pub mod bench;
+pub mod jobs;
+pub mod layout;
+pub mod model;
 pub mod panels;
 pub mod plot;
 pub mod screenshot;
+mod side;
 pub mod state;
 
 use std::sync::Arc;

@@ -32,7 +32,8 @@ fn run_until_stream(h: &mut Harness<'static, LeadlineApp>, seconds: f64) {
     let deadline = Instant::now() + Duration::from_secs(20);
     while h
         .state()
-        .view()
+        .state
+        .view
         .snapshot
         .as_ref()
         .is_none_or(|s| s.t_end_s < seconds)
@@ -64,6 +65,11 @@ fn fill(h: &mut Harness<'static, LeadlineApp>, name: &str, text: &str) {
     );
 }
 
+/// How often the slow plot data were rebuilt: the spectrum's curves and the parts' realisation.
+fn rebuilds(a: &LeadlineApp) -> (u64, u64) {
+    (a.widgets.spectrum.rebuilds, a.widgets.parts.realisations)
+}
+
 fn harness(app: LeadlineApp) -> Harness<'static, LeadlineApp> {
     harness_sized(app, [1280.0, 800.0])
 }
@@ -85,13 +91,14 @@ fn moving_the_high_pass_slider_retunes_the_dsp_thread() {
     h.get_by_role_and_label(Role::Slider, "High-pass corner")
         .set_value_accesskit(1.5);
     h.run_steps(2);
-    assert_eq!(h.state().settings().setup.chain.highpass.corner_hz, 1.5);
+    assert_eq!(h.state().state.settings.setup.chain.highpass.corner_hz, 1.5);
     let deadline = Instant::now() + Duration::from_secs(10);
     loop {
         h.run_steps(1);
         let applied = h
             .state()
-            .view()
+            .state
+            .view
             .snapshot
             .as_ref()
             .map(|s| s.chain.highpass.corner_hz);
@@ -145,13 +152,13 @@ fn first_start_caution_is_shown_until_confirmed() {
 fn space_freezes_and_the_freeze_button_resumes() {
     let mut h = harness(app());
     h.run_steps(2);
-    assert!(!h.state().paused());
+    assert!(!h.state().state.paused);
     h.key_press(eframe::egui::Key::Space);
     h.run_steps(2);
-    assert!(h.state().paused(), "Space freezes the traces");
+    assert!(h.state().state.paused, "Space freezes the traces");
     h.get_by_role_and_label(Role::Button, "Resume").click();
     h.run_steps(2);
-    assert!(!h.state().paused(), "the button resumes");
+    assert!(!h.state().state.paused, "the button resumes");
 }
 
 fn tmp(name: &str) -> std::path::PathBuf {
@@ -177,32 +184,37 @@ fn record_button_records_the_m_key_marks_and_stop_closes_the_file() {
     fill(&mut h, "recording file", &path.display().to_string());
     fill(&mut h, "marker text", "charger plugged in");
     run_until(&mut h, "the first snapshot", |a| {
-        a.view().snapshot.is_some()
+        a.state.view.snapshot.is_some()
     });
     h.get_by_role_and_label(Role::Button, "Record").click();
     run_until(&mut h, "the recording to start", |a| {
-        a.recorder_status()
+        a.pipeline
+            .recorder_status()
             .is_some_and(|s| s.active.is_some() && s.frames > 0)
     });
     h.key_press(eframe::egui::Key::M);
     h.run_steps(2);
     assert_eq!(
-        h.state().markers().len(),
+        h.state().state.markers.len(),
         1,
         "the marker is drawn on the trace"
     );
-    assert_eq!(h.state().markers()[0].1, "charger plugged in");
+    assert_eq!(h.state().state.markers[0].1, "charger plugged in");
     run_until(&mut h, "1.2 s of data", |a| {
-        a.recorder_status().is_some_and(|s| s.elapsed_s >= 1.2)
+        a.pipeline
+            .recorder_status()
+            .is_some_and(|s| s.elapsed_s >= 1.2)
     });
     // The readout shows the elapsed time while recording.
     assert!(h.query_by_label_contains("REC 00:00:01").is_some());
     h.get_by_role_and_label(Role::Button, "Stop recording")
         .click();
     run_until(&mut h, "the file to close", |a| {
-        a.recorder_status().is_some_and(|s| s.active.is_none())
+        a.pipeline
+            .recorder_status()
+            .is_some_and(|s| s.active.is_none())
     });
-    let status = h.state().recorder_status().unwrap();
+    let status = h.state().pipeline.recorder_status().unwrap();
     assert!(!status.failed, "{}", status.message);
     let rec = leadline::store::read(&path, &leadline::store::ReadOptions::default()).unwrap();
     assert_eq!(rec.len() as u64, status.frames);
@@ -216,7 +228,7 @@ fn setup_save_and_open_restore_the_chain_and_view() {
     // Tall enough that the side panel's Files section is on screen without scrolling.
     let mut h = harness_sized(app(), [1280.0, 1600.0]);
     h.run_steps(2);
-    let mut chain = h.state().settings().setup.chain;
+    let mut chain = h.state().state.settings.setup.chain;
     chain.lowpass.corner_hz = 35.0;
     h.state_mut().apply(Action::Chain(chain));
     h.state_mut()
@@ -235,7 +247,7 @@ fn setup_save_and_open_restore_the_chain_and_view() {
         std::thread::sleep(Duration::from_millis(20));
     }
     assert!(path.exists());
-    let saved = h.state().settings().clone();
+    let saved = h.state().state.settings.clone();
     chain.lowpass.corner_hz = 100.0;
     h.state_mut().apply(Action::Chain(chain));
     h.state_mut()
@@ -243,12 +255,12 @@ fn setup_save_and_open_restore_the_chain_and_view() {
     h.run_steps(1);
     h.get_by_role_and_label(Role::Button, "Open").click();
     h.run_steps(2);
-    assert_eq!(h.state().settings().setup.chain.lowpass.corner_hz, 35.0);
+    assert_eq!(h.state().state.settings.setup.chain.lowpass.corner_hz, 35.0);
     assert_eq!(
-        h.state().settings().setup.view.theme,
+        h.state().state.settings.setup.view.theme,
         leadline::setup::Theme::Light
     );
-    assert_eq!(h.state().settings().to_setup(), saved.to_setup());
+    assert_eq!(h.state().state.settings.to_setup(), saved.to_setup());
 }
 
 /// Waits until the DSP thread runs a chain that `ok` accepts.
@@ -258,7 +270,7 @@ fn wait_applied(
     ok: impl Fn(&leadline::dsp::ChainSettings) -> bool,
 ) {
     run_until(h, what, |a| {
-        a.view().snapshot.as_ref().is_some_and(|s| ok(&s.chain))
+        a.state.view.snapshot.as_ref().is_some_and(|s| ok(&s.chain))
     });
 }
 
@@ -302,7 +314,11 @@ fn replaying_a_file_switches_the_source() {
     leadline::store::write(&path, &rec, leadline::store::FileUnit::Millivolts).unwrap();
     let mut h = harness(app());
     run_until(&mut h, "the simulator's first snapshot", |a| {
-        a.view().snapshot.as_ref().is_some_and(|s| s.fs_hz == 500.0)
+        a.state
+            .view
+            .snapshot
+            .as_ref()
+            .is_some_and(|s| s.fs_hz == 500.0)
     });
     // The recording's field folds away with the Wi-Fi board's: open it as a person would.
     h.get_by_label("Wi-Fi board or a recording").click();
@@ -311,11 +327,15 @@ fn replaying_a_file_switches_the_source() {
     h.get_by_role_and_label(Role::Button, "Replay").click();
     h.run_steps(2);
     assert_eq!(
-        h.state().settings().setup.source.kind,
+        h.state().state.settings.setup.source.kind,
         leadline::setup::SourceKind::File
     );
     run_until(&mut h, "a snapshot from the file at 250 Hz", |a| {
-        a.view().snapshot.as_ref().is_some_and(|s| s.fs_hz == 250.0)
+        a.state
+            .view
+            .snapshot
+            .as_ref()
+            .is_some_and(|s| s.fs_hz == 250.0)
     });
 }
 
@@ -323,16 +343,17 @@ fn replaying_a_file_switches_the_source() {
 fn hold_as_before_keeps_the_spectrum() {
     let mut h = harness(app());
     run_until(&mut h, "a spectrum", |a| {
-        a.view()
+        a.state
+            .view
             .snapshot
             .as_ref()
             .is_some_and(|s| s.spectrum.is_some())
     });
-    assert!(!h.state().spectrum_held());
+    assert!(h.state().state.spectrum_before.is_none());
     h.get_by_role_and_label(Role::Button, "Hold as before")
         .click();
     h.run_steps(2);
-    assert!(h.state().spectrum_held());
+    assert!(h.state().state.spectrum_before.is_some());
 }
 
 fn click_at(h: &mut Harness<'static, LeadlineApp>, x: f32, y: f32) {
@@ -355,14 +376,18 @@ fn click_at(h: &mut Harness<'static, LeadlineApp>, x: f32, y: f32) {
 fn two_clicks_on_the_trace_place_cursors_with_their_deltas() {
     let mut h = harness(app());
     run_until(&mut h, "two seconds of trace", |a| {
-        a.view().snapshot.as_ref().is_some_and(|s| s.t_end_s > 2.0)
+        a.state
+            .view
+            .snapshot
+            .as_ref()
+            .is_some_and(|s| s.t_end_s > 2.0)
     });
     // Freeze first, as one does to measure; then click twice on the lower (filtered) trace.
     h.key_press(eframe::egui::Key::Space);
     h.run_steps(2);
     click_at(&mut h, 500.0, 330.0);
     click_at(&mut h, 700.0, 300.0);
-    let c = h.state().trace_state().cursors;
+    let c = h.state().state.trace.cursors;
     let (a, b) = (c[0].expect("cursor 1"), c[1].expect("cursor 2"));
     assert!(b[0] > a[0], "the second click is later: {a:?} {b:?}");
     // 200 px of a 10 s window about 900 px wide: about 2.2 s.
@@ -376,25 +401,25 @@ fn two_clicks_on_the_trace_place_cursors_with_their_deltas() {
     );
     h.key_press(eframe::egui::Key::C);
     h.run_steps(2);
-    assert_eq!(h.state().trace_state().cursors, [None, None]);
+    assert_eq!(h.state().state.trace.cursors, [None, None]);
 }
 
 #[test]
 fn the_help_panel_lists_the_shortcuts() {
     let mut h = harness(app());
     h.run_steps(2);
-    assert!(!h.state().help_open());
+    assert!(!h.state().state.help_open);
     h.get_by_role_and_label(Role::Button, "Help").click();
     // The click is applied after its frame is drawn; a new window takes a sizing frame.
     h.run_steps(3);
-    assert!(h.state().help_open());
+    assert!(h.state().state.help_open);
     assert!(
         h.query_by_label_contains("start / stop recording")
             .is_some()
     );
     h.key_press(eframe::egui::Key::F1);
     h.run_steps(2);
-    assert!(!h.state().help_open());
+    assert!(!h.state().state.help_open);
 }
 
 #[test]
@@ -402,15 +427,15 @@ fn display_settings_and_the_trace_png_button() {
     let png = tmp("gui-trace.png");
     let _ = std::fs::remove_file(&png);
     let mut h = harness_sized(app(), [1280.0, 1800.0]);
-    run_until(&mut h, "a snapshot", |a| a.view().snapshot.is_some());
+    run_until(&mut h, "a snapshot", |a| a.state.view.snapshot.is_some());
     h.get_by_label("Display").click();
     h.run_steps(2);
     h.get_by_role_and_label(Role::CheckBox, "Sweep display")
         .click();
     h.get_by_role_and_label(Role::RadioButton, "Fixed").click();
     h.run_steps(2);
-    assert!(h.state().settings().setup.view.sweep);
-    assert!(h.state().settings().setup.view.fixed_range_uv > 0.0);
+    assert!(h.state().state.settings.setup.view.sweep);
+    assert!(h.state().state.settings.setup.view.fixed_range_uv > 0.0);
     h.get_by_label("Files").click();
     h.run_steps(2);
     fill(&mut h, "trace PNG file", &png.display().to_string());
@@ -475,7 +500,7 @@ fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
         let deadline = Instant::now() + Duration::from_secs(15);
         loop {
             h.run_steps(1);
-            let s = h.state().view().snapshot.as_ref();
+            let s = h.state().state.view.snapshot.as_ref();
             if let Some(s) = s
                 && s.scale.map(|x| x.bits) == Some(bits)
             {
@@ -492,7 +517,7 @@ fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
     h.run_steps(2);
     h.get_by_label("10-bit 5 V, mid-scale").click();
     h.run_steps(2);
-    let fe = h.state().settings().setup.front_ends()[0];
+    let fe = h.state().state.settings.setup.front_ends()[0];
     assert_eq!((fe.adc.bits, fe.adc.vref_v, fe.adc.gain), (10, 5.0, 1000.0));
     let (frames_after, gaps) = wait_for(&mut h, 10);
     // The same stream went on: no reconnect, no gap, the frame count kept growing.
@@ -507,7 +532,7 @@ fn a_front_end_preset_rescales_a_board_live_without_reconnecting() {
     let deadline = Instant::now() + Duration::from_secs(15);
     let s = loop {
         h.run_steps(1);
-        let s = h.state().view().snapshot.clone().unwrap();
+        let s = h.state().state.view.snapshot.clone().unwrap();
         if s.stats.frames >= frames_after + 25 {
             break s;
         }
@@ -541,7 +566,8 @@ fn the_measure_view_measures_the_live_stream() {
         h.run_steps(1);
         let m = h
             .state()
-            .view()
+            .state
+            .view
             .snapshot
             .as_ref()
             .and_then(|s| s.measured.clone());
@@ -570,35 +596,38 @@ fn emg_mode_sets_the_muscle_chain_and_shows_the_contractions() {
     let app = app_with(settings);
     let mut h = harness(app);
     h.run_steps(3);
-    let ecg_chain = h.state().settings().setup.chain;
+    let ecg_chain = h.state().state.settings.setup.chain;
     h.get_by_label("EMG").click();
     h.run_steps(2);
-    let c = h.state().settings().setup.chain;
-    assert!(h.state().settings().emg_mode);
+    let c = h.state().state.settings.setup.chain;
+    assert!(h.state().state.settings.emg_mode);
     assert_eq!((c.highpass.corner_hz, c.lowpass.corner_hz), (20.0, 450.0));
     assert!(c.notch.enabled);
     // The DSP thread runs the EMG chain and finds the first contraction (2–4 s).
     run_until(&mut h, "EMG chain applied", |a| {
-        a.view()
+        a.state
+            .view
             .snapshot
             .as_ref()
             .is_some_and(|s| s.chain.highpass.corner_hz == 20.0)
     });
     run_until(&mut h, "a contraction in the EMG view", |a| {
-        a.view()
+        a.state
+            .view
             .snapshot
             .as_ref()
             .and_then(|s| s.emg.as_ref())
             .is_some_and(|v| v.bursts.iter().any(|b| b.off_s > b.on_s + 1.5))
     });
-    let snap = h.state().view().snapshot.clone().unwrap();
+    let snap = h.state().state.view.snapshot.clone().unwrap();
     let b = snap.emg.as_ref().unwrap().bursts[0];
     assert!((b.on_s - 2.0).abs() < 0.1, "{b:?}");
     assert!(h.query_by_label_contains("µV RMS").is_some());
     // The newest contraction marked as the maximum: it reads 100 % MVC.
     h.get_by_label("Newest contraction = maximum").click();
     run_until(&mut h, "% MVC in the EMG view", |a| {
-        a.view()
+        a.state
+            .view
             .snapshot
             .as_ref()
             .and_then(|s| s.emg.as_ref())
@@ -608,8 +637,8 @@ fn emg_mode_sets_the_muscle_chain_and_shows_the_contractions() {
     // Back to ECG: the chain from before returns.
     h.get_by_label("ECG").click();
     h.run_steps(2);
-    assert_eq!(h.state().settings().setup.chain, ecg_chain);
-    assert!(!h.state().settings().emg_mode);
+    assert_eq!(h.state().state.settings.setup.chain, ecg_chain);
+    assert!(!h.state().state.settings.emg_mode);
 }
 
 #[test]
@@ -623,7 +652,8 @@ fn sound_without_a_sound_card_says_so_and_the_monitor_runs_on() {
     h.run_steps(3);
     let frames = h
         .state()
-        .view()
+        .state
+        .view
         .snapshot
         .as_ref()
         .map_or(0, |s| s.stats.frames);
@@ -632,7 +662,8 @@ fn sound_without_a_sound_card_says_so_and_the_monitor_runs_on() {
         || h.query_by_label_contains("sound card at").is_some();
     assert!(said, "the Sound section must say where the sound goes");
     run_until(&mut h, "frames keep arriving", |a| {
-        a.view()
+        a.state
+            .view
             .snapshot
             .as_ref()
             .is_some_and(|s| s.stats.frames > frames + 500)
@@ -716,30 +747,30 @@ fn the_trace_axes_have_three_labels_on_a_millivolt_and_a_fifty_microvolt_signal(
 fn plots_are_not_rebuilt_on_frames_without_new_data() {
     let mut h = harness(app());
     let deadline = Instant::now() + Duration::from_secs(20);
-    while h.state().rebuilds().0 == 0 {
+    while rebuilds(h.state()).0 == 0 {
         assert!(Instant::now() < deadline, "no spectrum");
         h.run_steps(1);
         std::thread::sleep(Duration::from_millis(50));
     }
     h.state_mut().apply(Action::Pause(true));
     h.run_steps(2);
-    let before = h.state().rebuilds();
+    let before = rebuilds(h.state());
     for _ in 0..30 {
         h.run_steps(1);
     }
-    assert_eq!(h.state().rebuilds(), before, "30 frames without new data");
+    assert_eq!(rebuilds(h.state()), before, "30 frames without new data");
     // The parts view: realised once for the chain, then never again while it stands.
     h.state_mut()
         .apply(Action::Lower(leadline::gui::state::LowerView::Parts));
     let deadline = Instant::now() + Duration::from_secs(20);
-    while h.state().rebuilds().1 == 0 {
+    while rebuilds(h.state()).1 == 0 {
         assert!(Instant::now() < deadline, "no parts");
         h.run_steps(1);
         std::thread::sleep(Duration::from_millis(20));
     }
-    let realised = h.state().rebuilds().1;
+    let realised = rebuilds(h.state()).1;
     for _ in 0..30 {
         h.run_steps(1);
     }
-    assert_eq!(h.state().rebuilds().1, realised);
+    assert_eq!(rebuilds(h.state()).1, realised);
 }

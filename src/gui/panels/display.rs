@@ -2,17 +2,17 @@
 
 use eframe::egui;
 
-use crate::msg::Control;
 use crate::setup::ViewSetup;
 
-/// Draws the settings; returns a Control when the display rate changed.
-pub fn show(ui: &mut egui::Ui, s: &mut ViewSetup) -> Option<crate::gui::action::Action> {
-    controls(ui, s).map(crate::gui::action::Action::Control)
+/// Draws the settings; returns the view section as edited when anything changed.
+pub fn show(ui: &mut egui::Ui, current: &ViewSetup) -> Option<crate::gui::action::Action> {
+    let mut s = current.clone();
+    controls(ui, &mut s);
+    (s != *current).then_some(crate::gui::action::Action::View(s))
 }
 
-fn controls(ui: &mut egui::Ui, s: &mut ViewSetup) -> Option<Control> {
-    let mut out = None;
-    let r = ui
+fn controls(ui: &mut egui::Ui, s: &mut ViewSetup) {
+    ui
         .add(
             egui::Slider::new(&mut s.display_hz, 5.0..=60.0)
                 .text("Display rate")
@@ -20,9 +20,6 @@ fn controls(ui: &mut egui::Ui, s: &mut ViewSetup) -> Option<Control> {
                 .max_decimals(0),
         )
         .on_hover_text("Screen updates per second. Drawing happens only when new data arrive; fewer updates cost less CPU.");
-    if r.changed() {
-        out = Some(Control::DisplayRate(s.display_hz));
-    }
     ui.horizontal(|ui| {
         let mut fixed = s.fixed_range_uv > 0.0;
         if ui
@@ -52,5 +49,4 @@ fn controls(ui: &mut egui::Ui, s: &mut ViewSetup) -> Option<Control> {
     );
     ui.checkbox(&mut s.smooth_lines, "Smooth lines")
         .on_hover_text("Anti-aliased lines. Costs about a quarter of a CPU core more without a graphics card (software OpenGL).");
-    out
 }

@@ -16,9 +16,6 @@ pub struct FilesPanel {
     pub prefix: String,
     pub trace_png: String,
     pub spectrum_png: String,
-    /// The outcome of the last action.
-    pub message: String,
-    pub failed: bool,
 }
 
 impl Default for FilesPanel {
@@ -30,8 +27,6 @@ impl Default for FilesPanel {
             prefix: "leadline".into(),
             trace_png: "trace.png".into(),
             spectrum_png: "spectrum.png".into(),
-            message: String::new(),
-            failed: false,
         }
     }
 }
@@ -40,9 +35,22 @@ fn path_row(ui: &mut egui::Ui, name: &str, text: &mut String, tip: &str) {
     super::named_field(ui, name, text, |t| t.desired_width(170.0)).on_hover_text(tip);
 }
 
-/// Draws the panel; returns the action asked for.
-pub fn show(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<crate::gui::action::Action> {
-    files(ui, p).map(crate::gui::action::Action::Files)
+/// Draws the panel with the outcome of the last file work; returns the action asked for.
+pub fn show(
+    ui: &mut egui::Ui,
+    p: &mut FilesPanel,
+    report: &crate::gui::model::FileReport,
+) -> Option<crate::gui::action::Action> {
+    let action = files(ui, p).map(crate::gui::action::Action::Files);
+    if !report.message.is_empty() {
+        let c = if report.failed {
+            ui.visuals().error_fg_color
+        } else {
+            ui.visuals().weak_text_color()
+        };
+        ui.colored_label(c, &report.message);
+    }
+    action
 }
 
 fn files(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<FilesAction> {
@@ -139,13 +147,5 @@ fn files(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<FilesAction> {
             action = Some(FilesAction::SpectrumPng(p.spectrum_png.trim().into()));
         }
     });
-    if !p.message.is_empty() {
-        let c = if p.failed {
-            ui.visuals().error_fg_color
-        } else {
-            ui.visuals().weak_text_color()
-        };
-        ui.colored_label(c, &p.message);
-    }
     action
 }

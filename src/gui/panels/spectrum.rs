@@ -5,6 +5,8 @@
 use std::sync::Arc;
 
 use eframe::egui;
+
+use crate::gui::action::Action;
 use egui_plot::{
     AxisHints, HPlacement, Line, LineStyle, Plot, PlotPoint, PlotPoints, Points, Text,
 };
@@ -31,7 +33,7 @@ pub struct SpectrumView {
     pub show_filtered: bool,
     /// Welch segment; 0 = about 4 s.
     pub segment: usize,
-    /// The held "before" estimate.
+    /// The held "before" estimate: the app state's, handed over before drawing.
     pub before: Option<Arc<SpectrumFrame>>,
     /// The chain's gain at the estimate's bins, reduced for drawing: computed once per estimate
     /// and chain, not at every frame.
@@ -130,7 +132,7 @@ pub fn show(
     sections: Option<&[Section]>,
     view: &mut SpectrumView,
 ) -> Option<crate::gui::action::Action> {
-    draw(ui, frame, sections, view).map(crate::gui::action::Action::Control)
+    draw(ui, frame, sections, view)
 }
 
 fn draw(
@@ -138,8 +140,8 @@ fn draw(
     frame: Option<&Arc<SpectrumFrame>>,
     sections: Option<&[Section]>,
     view: &mut SpectrumView,
-) -> Option<Control> {
-    let control = controls(ui, frame, view);
+) -> Option<Action> {
+    let control = controls(ui, view);
     let Some(frame) = frame else {
         ui.label("Collecting the first spectrum (one segment of signal)…");
         return control;
@@ -250,11 +252,8 @@ fn draw(
 }
 
 /// The view's controls; a new Welch segment is sent to the DSP thread.
-fn controls(
-    ui: &mut egui::Ui,
-    frame: Option<&Arc<SpectrumFrame>>,
-    view: &mut SpectrumView,
-) -> Option<Control> {
+/// The view's own settings; holding a "before" goes to the app (it is the app's state).
+fn controls(ui: &mut egui::Ui, view: &mut SpectrumView) -> Option<Action> {
     let mut control = None;
     ui.horizontal(|ui| {
         ui.checkbox(&mut view.log_freq, "log frequency").on_hover_text("Logarithmic or linear frequency axis.");
@@ -271,17 +270,17 @@ fn controls(
             .response
             .on_hover_text("Welch segment length: longer gives finer frequency resolution, shorter a steadier estimate.");
         if view.segment != before {
-            control = Some(Control::SpectrumSegment(view.segment));
+            control = Some(Action::Control(Control::SpectrumSegment(view.segment)));
         }
         if ui
             .button("Hold as before")
             .on_hover_text("Keep this estimate as the reference and show the change at each mains line (e.g. before unplugging the charger).")
             .clicked()
         {
-            view.before = frame.cloned();
+            control = Some(Action::HoldSpectrum(true));
         }
         if view.before.is_some() && ui.button("Clear before").clicked() {
-            view.before = None;
+            control = Some(Action::HoldSpectrum(false));
         }
     });
     control

@@ -67,10 +67,25 @@ impl TraceState {
 }
 
 /// What the user did in the traces this frame.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
-pub struct TraceEvents {
-    /// Zoomed or panned: the display should freeze.
-    pub left_live: bool,
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum TraceEvent {
+    /// A click: the next cursor goes here (time s as drawn, value µV).
+    Place([f64; 2]),
+    /// Remove both cursors.
+    Clear,
+    /// Zoomed or panned: the view stops following the data and the display freezes.
+    LeaveLive,
+}
+
+impl TraceState {
+    /// What `e` does to the cursors and the following.
+    pub fn on(&mut self, e: TraceEvent) {
+        match e {
+            TraceEvent::Place([t, v]) => self.place(t, v),
+            TraceEvent::Clear => self.clear(),
+            TraceEvent::LeaveLive => self.follow = false,
+        }
+    }
 }
 
 /// Maps a time to the sweep display: x in 0..window, and whether it is in the newest pass.
@@ -80,17 +95,18 @@ fn sweep_x(t: f64, t_end: f64, window: f64) -> (f64, bool) {
     (x, t > t_end - x_now)
 }
 
-/// Draws both traces into the space given.
+/// Draws both traces into the space given; returns what the user did to them.
 pub fn show(
     ui: &mut egui::Ui,
     view: &View,
     settings: &Settings,
     markers: &[(f64, String)],
-    state: &mut TraceState,
-) -> Option<crate::gui::action::Action> {
+    state: &TraceState,
+) -> Vec<crate::gui::action::Action> {
     draw(ui, view, settings, markers, state)
-        .left_live
-        .then_some(crate::gui::action::Action::Pause(true))
+        .into_iter()
+        .map(crate::gui::action::Action::Trace)
+        .collect()
 }
 
 fn draw(
@@ -98,9 +114,9 @@ fn draw(
     view: &View,
     settings: &Settings,
     markers: &[(f64, String)],
-    state: &mut TraceState,
-) -> TraceEvents {
-    let mut events = TraceEvents::default();
+    state: &TraceState,
+) -> Vec<TraceEvent> {
+    let mut events = Vec::new();
     let Some(snap) = &view.snapshot else {
         ui.centered_and_justified(|ui| ui.label("Waiting for the first samples…"));
         return events;
@@ -121,8 +137,10 @@ fn draw(
     let readout = state.readout(settings.setup.view.unit);
     let height =
         ((ui.available_height() - if readout.is_some() { 34.0 } else { 12.0 }) / 2.0).max(80.0);
-    if let Some(r) = &readout {
-        readout_row(ui, r, state);
+    if let Some(r) = &readout
+        && readout_row(ui, r)
+    {
+        events.push(TraceEvent::Clear);
     }
     let link = egui::Id::unique("trace-time-axis");
     let beat_times = beat_times(snap, ch, x_min);
@@ -191,26 +209,25 @@ fn draw(
             && let Some(p) = resp.inner
         {
             // The cursor's time is on the axis as drawn (sweep time in sweep mode).
-            state.place(p.x, p.y / factor);
+            events.push(TraceEvent::Place([p.x, p.y / factor]));
         }
         let scrolled = r.hovered() && ui.input(|i| i.smooth_scroll_delta != egui::Vec2::ZERO);
         if r.dragged() || scrolled {
-            state.follow = false;
-            events.left_live = true;
+            events.push(TraceEvent::LeaveLive);
         }
     }
     events
 }
 
 /// The cursors' readout and the button that clears them.
-fn readout_row(ui: &mut egui::Ui, r: &str, state: &mut TraceState) {
+/// True when "Clear cursors" was clicked.
+fn readout_row(ui: &mut egui::Ui, r: &str) -> bool {
     ui.horizontal(|ui| {
         ui.label(egui::RichText::new(r).monospace().strong())
             .on_hover_text("Between cursor 1 and cursor 2: time, voltage, and the rate a period of Δt means (an RR interval as beats per minute).");
-        if ui.small_button("Clear cursors").on_hover_text("Remove both cursors (key C).").clicked() {
-            state.clear();
-        }
-    });
+        ui.small_button("Clear cursors").on_hover_text("Remove both cursors (key C).").clicked()
+    })
+    .inner
 }
 
 /// The times (s) of the beats detected on channel `ch` from `x_min` on.
