@@ -190,7 +190,7 @@ pub struct Snapshot {
     /// Beats, heart rate and quality (None when the rate is outside 125–2000 Hz).
     pub beats: Option<BeatView>,
     /// The EMG view, when on.
-    pub emg: Option<Arc<crate::analysis::emg::EmgView>>,
+    pub emg: Option<Arc<crate::process::emg::EmgView>>,
     /// Every channel is inverted before the chain.
     pub inverted: bool,
     /// Age of the newest sample in this snapshot when it was made, ms: from the source thread
@@ -226,7 +226,7 @@ pub enum Control {
     /// EMG view on (its settings) or off.
     Emg(Option<crate::analysis::emg::EmgSettings>),
     /// A mark in the EMG view (rest, maximum contraction, clear).
-    EmgMark(crate::analysis::emg::Mark),
+    EmgMark(crate::process::emg::Mark),
 }
 
 /// What the DSP thread needs to make sound.

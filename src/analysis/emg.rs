@@ -142,7 +142,11 @@ pub struct EmgAnalysis {
     pub rms: Vec<f64>,
 }
 
-fn check(s: &EmgSettings, fs: f64) -> Result<(), EmgError> {
+/// Checks the settings at `fs`.
+///
+/// # Errors
+/// A setting out of range, as one line.
+pub fn check(s: &EmgSettings, fs: f64) -> Result<(), EmgError> {
     let bad = |m: String| Err(EmgError::Setting(m));
     if !(fs.is_finite() && fs >= 250.0) {
         return bad(format!(
@@ -427,7 +431,7 @@ fn refine(
 }
 
 /// The straight line through the bursts' median frequencies (fatigue shows as a fall).
-fn trend(bursts: &[Burst]) -> Option<Trend> {
+pub fn trend(bursts: &[Burst]) -> Option<Trend> {
     let points: Vec<(f64, f64)> = bursts
         .iter()
         .filter_map(|b| b.median_hz.map(|m| (0.5 * (b.on_s + b.off_s), m)))
@@ -538,129 +542,6 @@ pub fn analyse(x: &[f64], fs: f64, s: &EmgSettings) -> Result<EmgAnalysis, EmgEr
         envelope: env,
         rms,
     })
-}
-
-/// The EMG analysis of the followed channel over the newest stretch (up to 20 s).
-#[derive(Debug, Clone, PartialEq)]
-pub struct EmgView {
-    /// Time of the first point, s since the stream started, and the spacing of the points, s.
-    pub t0_s: f64,
-    pub dt_s: f64,
-    /// Linear envelope and moving RMS, µV, reduced to about 2000 points.
-    pub envelope: Vec<f32>,
-    pub rms: Vec<f32>,
-    /// Contractions, with times since the stream started.
-    pub bursts: Vec<Burst>,
-    /// Onset threshold on the detector's signal, µV.
-    pub threshold_uv: f64,
-    /// (contraction midpoint s, median Hz), and the fitted change, %.
-    pub trend: Vec<(f64, f64)>,
-    pub trend_change_pct: Option<f64>,
-    /// Why there is no analysis (too short, a setting), if so.
-    pub error: Option<String>,
-    /// The settings it was made with (marks included).
-    pub settings: EmgSettings,
-    /// A message about the last mark (e.g. no contraction to take as the maximum).
-    pub note: Option<String>,
-}
-
-/// What the user marks in the monitor's EMG view.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Mark {
-    /// The newest second is rest: its level becomes the baseline.
-    Rest,
-    /// The newest contraction is the maximum: its RMS becomes 100 % MVC.
-    Mvc,
-    /// Back to the quietest second and no MVC.
-    Clear,
-}
-
-/// Applies a mark to the settings from the newest `raw` samples (µV).
-///
-/// # Errors
-/// Too little signal, or (MVC) no contraction in it, as one line.
-pub fn mark(raw: &[f64], fs: f64, s: &mut EmgSettings, m: Mark) -> Result<(), EmgError> {
-    match m {
-        Mark::Clear => {
-            s.baseline_uv = None;
-            s.mvc_rms_uv = None;
-        }
-        Mark::Rest => {
-            let end = raw.len() as f64 / fs;
-            let probe = EmgSettings {
-                baseline_s: Some(((end - 1.0).max(0.0), end)),
-                baseline_uv: None,
-                ..*s
-            };
-            let an = analyse(raw, fs, &probe)?;
-            s.baseline_uv = Some((an.baseline_mean_uv, an.baseline_sd_uv));
-        }
-        Mark::Mvc => {
-            let an = analyse(raw, fs, s)?;
-            let b = an.bursts.last().ok_or_else(|| {
-                EmgError::TooShort("no contraction in view to take as the maximum".into())
-            })?;
-            s.mvc_rms_uv = Some(b.rms_uv);
-        }
-    }
-    Ok(())
-}
-
-/// The monitor's EMG view of the newest `raw` samples (µV) ending at stream time `t_end_s`.
-pub fn view(raw: &[f64], fs: f64, t_end_s: f64, s: &EmgSettings) -> EmgView {
-    let t0 = t_end_s - raw.len() as f64 / fs;
-    let empty = |e: String| EmgView {
-        t0_s: t0,
-        dt_s: 1.0 / fs,
-        envelope: Vec::new(),
-        rms: Vec::new(),
-        bursts: Vec::new(),
-        threshold_uv: 0.0,
-        trend: Vec::new(),
-        trend_change_pct: None,
-        error: Some(e),
-        settings: *s,
-        note: None,
-    };
-    if raw.len() < (2.0 * fs) as usize {
-        return empty("EMG view: waiting for 2 s of signal".into());
-    }
-    match analyse(raw, fs, s) {
-        Ok(an) => {
-            let step = (raw.len() / 2000).max(1);
-            // The envelopes are never negative: each run's maximum is what a plot needs.
-            let reduce = |v: &[f64]| -> Vec<f32> {
-                crate::numeric::minmax_runs(v, step)
-                    .1
-                    .iter()
-                    .map(|&m| m as f32)
-                    .collect()
-            };
-            let shift = |b: &Burst| Burst {
-                on_s: b.on_s + t0,
-                off_s: b.off_s + t0,
-                ..*b
-            };
-            EmgView {
-                t0_s: t0,
-                dt_s: step as f64 / fs,
-                envelope: reduce(&an.envelope),
-                rms: reduce(&an.rms),
-                bursts: an.bursts.iter().map(shift).collect(),
-                threshold_uv: an.threshold_uv,
-                trend: an
-                    .median_hz_trend
-                    .as_ref()
-                    .map(|t| t.points.iter().map(|p| (p.0 + t0, p.1)).collect())
-                    .unwrap_or_default(),
-                trend_change_pct: an.median_hz_trend.as_ref().map(|t| t.change_pct),
-                error: None,
-                settings: *s,
-                note: None,
-            }
-        }
-        Err(e) => empty(e.to_string()),
-    }
 }
 
 #[cfg(test)]

@@ -1,9 +1,12 @@
 //! Digital filtering: designs ([`design`]) return plain second-order sections; the runtime
 //! cascade ([`chain`]) owns the state and retunes without reallocating.
 
+pub mod cascade;
 pub mod chain;
 pub mod design;
 pub mod halves;
+pub mod kernel;
+pub mod offline;
 pub mod response;
 pub mod spectrum;
 

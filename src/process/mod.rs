@@ -7,6 +7,7 @@
 //! ([`spectrum`]) and the heart-rate readout with the averaged beat ([`beats`]).
 
 mod beats;
+pub mod emg;
 mod spectrum;
 mod trace;
 
@@ -20,7 +21,7 @@ use self::beats::BeatState;
 pub use self::spectrum::SPECTRUM_S;
 use self::spectrum::SpectrumState;
 use self::trace::TraceBuf;
-use crate::analysis::emg::{EmgSettings, EmgView};
+use crate::analysis::emg::EmgSettings;
 use crate::analysis::rate::RateState;
 use crate::chan::{offer_newest, send_blocking};
 use crate::dsp::chain::{Chain, ChainSettings};
@@ -29,6 +30,7 @@ use crate::msg::{
 };
 use crate::scale::{self, FrontEnd, InputScale};
 use crate::sound::Renderer;
+use emg::{EmgView, LiveEmg};
 
 /// About one column per pixel of a wide trace; the GUI never draws more points than this.
 pub const TARGET_COLUMNS: usize = 1200;
@@ -36,8 +38,6 @@ pub const TARGET_COLUMNS: usize = 1200;
 pub const MAX_WINDOW_S: f64 = 30.0;
 /// Shortest display window, s.
 pub const MIN_WINDOW_S: f64 = 2.0;
-/// Seconds of the followed channel behind the EMG view.
-const EMG_S: f64 = 20.0;
 /// How often the EMG view is made again.
 const EMG_PERIOD: Duration = Duration::from_millis(250);
 
@@ -102,12 +102,13 @@ struct Sound {
     audio: Vec<f32>,
 }
 
-/// The EMG view: its settings (with the user's marks), the newest view and when it was made.
+/// The EMG view: its settings (with the user's marks), the live analysis of the followed
+/// channel (once a stream runs), the newest view and when it was made.
 struct Emg {
     settings: EmgSettings,
+    live: Option<LiveEmg>,
     view: Option<Arc<EmgView>>,
     at: Instant,
-    note: Option<String>,
 }
 
 /// The DSP core's state.
@@ -239,6 +240,7 @@ impl Dsp {
                     .state
                     .as_ref()
                     .and_then(|r| BeatState::new(r.fs, c.min(r.channels - 1)));
+                self.restart_emg();
             }
             Control::Invert(i) => self.invert = i,
             Control::SpectrumSegment(n) => {
@@ -281,17 +283,19 @@ impl Dsp {
                     }
                     Emg {
                         settings: n,
+                        live: None,
                         view: None,
                         at: Instant::now(),
-                        note: None,
                     }
                 });
+                self.restart_emg();
             }
             Control::EmgMark(m) => {
-                if let (Some(e), Some(r)) = (self.emg.as_mut(), self.state.as_ref()) {
-                    let raw = r.raw_tail(self.follow, EMG_S);
-                    let result = crate::analysis::emg::mark(&raw, r.fs, &mut e.settings, m);
-                    e.note = result.err().map(|e| e.to_string());
+                if let Some(e) = self.emg.as_mut()
+                    && let Some(l) = e.live.as_mut()
+                {
+                    l.note = l.mark(m).err();
+                    e.settings = *l.settings();
                     e.view = None;
                 }
             }
@@ -325,7 +329,21 @@ impl Dsp {
         if let Some(s) = self.sound.as_mut() {
             s.renderer = None;
         }
+        self.restart_emg();
         true
+    }
+
+    /// A fresh live EMG analysis of the followed channel, fed once with the newest 20 s it
+    /// still has (after new settings, another channel or a new stream); from then on each
+    /// block feeds it its own samples only.
+    fn restart_emg(&mut self) {
+        let Some(e) = self.emg.as_mut() else { return };
+        e.view = None;
+        e.live = self.state.as_ref().map(|r| {
+            let mut live = LiveEmg::new(r.fs, e.settings);
+            live.push(r.raw_tail(self.follow, emg::VIEW_S));
+            live
+        });
     }
 
     /// The block in input-referred µV (the user's front end wins over the source's own
@@ -427,6 +445,10 @@ impl Dsp {
         if let Some(bs) = self.beats.as_mut() {
             bs.process(&uv, &self.rails, r.channels, &r);
         }
+        if let Some(l) = self.emg.as_mut().and_then(|e| e.live.as_mut()) {
+            let ch = self.follow.min(r.channels - 1);
+            l.push(uv.iter().skip(ch).step_by(r.channels).copied());
+        }
         self.sound_block(&r, &filt, (uv.len() / r.channels) as u64);
         let range_uv = self.scale.map(|s| s.range_uv());
         self.state = Some(r);
@@ -512,13 +534,10 @@ impl Dsp {
             }
         }
         if let Some(e) = self.emg.as_mut()
+            && let Some(l) = &e.live
             && (e.view.is_none() || now.duration_since(e.at) >= EMG_PERIOD)
         {
-            let raw = r.raw_tail(self.follow, EMG_S);
-            let t_end = r.next_sample as f64 / r.fs;
-            let mut v = crate::analysis::emg::view(&raw, r.fs, t_end, &e.settings);
-            v.note = e.note.clone();
-            e.view = Some(Arc::new(v));
+            e.view = Some(Arc::new(l.view()));
             e.at = now;
         }
         let newest_age_ms = self

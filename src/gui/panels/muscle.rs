@@ -5,9 +5,10 @@
 use eframe::egui;
 use egui_plot::{HLine, Legend, Line, Plot, PlotPoints, Points, Polygon};
 
-use crate::analysis::emg::{EmgSettings, EmgView, Mark};
+use crate::analysis::emg::EmgSettings;
 use crate::gui::plot::{FILTERED_COLOUR, RATE_COLOUR, RAW_COLOUR};
 use crate::msg::{Columns, Control};
+use crate::process::emg::{EmgView, Mark};
 
 /// Contraction shading: a translucent violet of the project's palette.
 const BURST_FILL: egui::Color32 = egui::Color32::from_rgba_premultiplied(70, 40, 90, 60);
