@@ -196,7 +196,7 @@ impl LiveEmg {
         if self.squares.len() > self.rms_len {
             self.square_sum -= self.squares.pop_front().unwrap_or(0.0);
         }
-        if self.n % 4096 == 0 {
+        if self.n.is_multiple_of(4096) {
             // Re-sum now and then so rounding does not accumulate.
             self.square_sum = self.squares.iter().sum();
         }
