@@ -9,13 +9,15 @@
 mod beats;
 pub mod emg;
 mod spectrum;
+mod thread;
 mod trace;
 
+pub use thread::run;
+
 use std::sync::Arc;
-use std::sync::atomic::{AtomicBool, Ordering};
 use std::time::{Duration, Instant};
 
-use crossbeam_channel::{Receiver, RecvTimeoutError, Sender};
+use crossbeam_channel::{Receiver, Sender};
 
 use self::beats::BeatState;
 pub use self::spectrum::SPECTRUM_S;
@@ -23,7 +25,6 @@ use self::spectrum::SpectrumState;
 use self::trace::TraceBuf;
 use crate::analysis::emg::EmgSettings;
 use crate::analysis::rate::RateState;
-use crate::chan::{offer_newest, send_blocking};
 use crate::dsp::chain::{Chain, ChainSettings};
 use crate::msg::{
     ChannelTrace, Control, RawBlock, RecordBlock, SampleUnit, Snapshot, SoundFeed, Stats,
@@ -270,26 +271,7 @@ impl Dsp {
                     audio: Vec::new(),
                 });
             }
-            Control::Emg(e) => {
-                // The marks made so far stay unless the new settings bring their own.
-                let keep = self
-                    .emg
-                    .as_ref()
-                    .map(|o| (o.settings.baseline_uv, o.settings.mvc_rms_uv));
-                self.emg = e.map(|mut n| {
-                    if let Some((b, m)) = keep {
-                        n.baseline_uv = n.baseline_uv.or(b);
-                        n.mvc_rms_uv = n.mvc_rms_uv.or(m);
-                    }
-                    Emg {
-                        settings: n,
-                        live: None,
-                        view: None,
-                        at: Instant::now(),
-                    }
-                });
-                self.restart_emg();
-            }
+            Control::Emg(e) => self.set_emg(e),
             Control::EmgMark(m) => {
                 if let Some(e) = self.emg.as_mut()
                     && let Some(l) = e.live.as_mut()
@@ -300,6 +282,28 @@ impl Dsp {
                 }
             }
         }
+    }
+
+    /// The EMG view on (with these settings) or off. The marks made so far stay unless the new
+    /// settings bring their own.
+    fn set_emg(&mut self, e: Option<EmgSettings>) {
+        let keep = self
+            .emg
+            .as_ref()
+            .map(|o| (o.settings.baseline_uv, o.settings.mvc_rms_uv));
+        self.emg = e.map(|mut n| {
+            if let Some((b, m)) = keep {
+                n.baseline_uv = n.baseline_uv.or(b);
+                n.mvc_rms_uv = n.mvc_rms_uv.or(m);
+            }
+            Emg {
+                settings: n,
+                live: None,
+                view: None,
+                at: Instant::now(),
+            }
+        });
+        self.restart_emg();
     }
 
     /// A stream of a new shape (rate, channels) starts: the last good chain at its rate (or a
@@ -582,57 +586,6 @@ impl Dsp {
             latency_ms: newest_age_ms,
         })
     }
-}
-
-/// Runs until `stop` is set or the source hangs up (then a last snapshot marks the end).
-pub fn run(cfg: DspConfig, ports: DspPorts, stop: &AtomicBool, notify: Notify) {
-    let mut dsp = Dsp::new(cfg);
-    loop {
-        if stop.load(Ordering::Relaxed) {
-            return;
-        }
-        while let Ok(c) = ports.control_rx.try_recv() {
-            dsp.apply(c);
-        }
-        match ports.raw_rx.recv_timeout(Duration::from_millis(20)) {
-            Ok(block) => {
-                let rec = dsp.push(block);
-                if let (Some(tx), Some(rec)) = (&ports.record_tx, rec)
-                    && !send_blocking(tx, rec, stop)
-                {
-                    return;
-                }
-            }
-            Err(RecvTimeoutError::Timeout) => {}
-            Err(RecvTimeoutError::Disconnected) => {
-                if let Some(snap) = dsp.snapshot(Instant::now(), true) {
-                    offer(&ports, snap, &mut dsp.stats);
-                    notify();
-                }
-                return;
-            }
-        }
-        let now = Instant::now();
-        // The display path is paced by the GUI: a snapshot is made only once the previous one
-        // was taken, so none is built to be thrown away (the window drew too slowly for it)
-        // and none is dropped. Data never wait on this: blocks keep flowing to the recorder.
-        if dsp.due(now)
-            && ports.snapshot_tx.is_empty()
-            && let Some(snap) = dsp.snapshot(now, false)
-        {
-            offer(&ports, snap, &mut dsp.stats);
-            notify();
-        }
-    }
-}
-
-/// Display path policy: never wait for the GUI; when it has not taken the previous snapshot,
-/// drop that one (counted) and offer the new one.
-fn offer(ports: &DspPorts, snap: Snapshot, stats: &mut Stats) {
-    offer_newest(&ports.snapshot_tx, &ports.snapshot_drain, snap, |s| {
-        stats.snapshots_dropped += 1;
-        s.stats.snapshots_dropped = stats.snapshots_dropped;
-    });
 }
 
 #[cfg(test)]

@@ -34,6 +34,16 @@ use std::collections::VecDeque;
 
 use crate::dsp::chain::{Chain, ChainSettings};
 
+mod learned;
+mod ring;
+mod score;
+mod tuning;
+
+use learned::LearnedQrs;
+use ring::Ring;
+pub use score::{Score, score};
+pub use tuning::Tuning;
+
 /// The span over which QRS-like events are counted, s.
 pub const EVENTS_S: f64 = 5.0;
 
@@ -43,67 +53,6 @@ const TPL_HALF_S: f64 = 0.06;
 const TPL_SEARCH_S: f64 = 0.3;
 /// Beats averaged before the template is used.
 const TPL_READY: usize = 8;
-
-/// The detector's few free choices, for choosing them on some records and scoring the choice on
-/// others (`leadline bench beats`). The published values are Hamilton & Tompkins' (threshold ¼
-/// of the way from the noise to the signal level, search-back after 1.66 RR averages, a T wave
-/// under ½ of the QRS slope; docs/REFERENCES.md §1).
-#[derive(Debug, Clone, Copy, PartialEq, serde::Serialize)]
-pub struct Tuning {
-    /// THR1 = NPKI + this × (SPKI − NPKI).
-    pub threshold: f64,
-    /// Search back when no QRS has come for this many RR averages.
-    pub search_back_rr: f64,
-    /// A candidate within 360 ms of a QRS with a slope under this share of the QRS's is a T wave.
-    pub t_slope: f64,
-    /// Move an R placed on a non-QRS shape to a place nearby that matches the usual QRS.
-    pub relocate: bool,
-}
-
-impl Tuning {
-    /// The published rules, without the template relocation.
-    pub const PUBLISHED: Tuning = Tuning {
-        threshold: 0.25,
-        search_back_rr: 1.66,
-        t_slope: 0.5,
-        relocate: false,
-    };
-
-    /// The choices tried when tuning on a split: every combination of a threshold of 0.2, 0.25
-    /// or 0.3, search-back after 1.5 or 1.66 RR averages, and relocation off or on.
-    pub fn grid() -> Vec<Tuning> {
-        let mut g = Vec::new();
-        for threshold in [0.2, 0.25, 0.3] {
-            for search_back_rr in [1.5, 1.66] {
-                for relocate in [false, true] {
-                    g.push(Tuning {
-                        threshold,
-                        search_back_rr,
-                        t_slope: 0.5,
-                        relocate,
-                    });
-                }
-            }
-        }
-        g
-    }
-}
-
-impl Default for Tuning {
-    /// What the product runs, chosen by the ten three-against-two splits of the repository's
-    /// MIT-BIH records (README, "Beat detection"): every split chose search-back after 1.5 RR
-    /// averages, nine of ten chose the relocation, and the threshold 0.2 and 0.3 won five splits
-    /// each. The simulator's development set (no real recording) breaks that tie: 0.2 finds more
-    /// beats in noise, and missed beats are what unseen records lost before.
-    fn default() -> Self {
-        Tuning {
-            threshold: 0.2,
-            search_back_rr: 1.5,
-            t_slope: 0.5,
-            relocate: true,
-        }
-    }
-}
 
 /// A detected beat.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -133,36 +82,6 @@ struct Candidate {
     index: u64,
     peak: f64,
     slope: f64,
-}
-
-/// A ring of the most recent samples, addressed by absolute index. The size is a power of two
-/// so the index arithmetic is a mask, not a division (this runs several times per sample).
-#[derive(Debug, Clone)]
-struct Ring {
-    buf: Vec<f64>,
-    mask: u64,
-    next: u64,
-}
-
-impl Ring {
-    fn new(len: usize) -> Self {
-        let n = len.max(1).next_power_of_two();
-        Self {
-            buf: vec![0.0; n],
-            mask: n as u64 - 1,
-            next: 0,
-        }
-    }
-    #[inline]
-    fn push(&mut self, v: f64) {
-        self.buf[(self.next & self.mask) as usize] = v;
-        self.next += 1;
-    }
-    #[inline]
-    fn get(&self, i: u64) -> Option<f64> {
-        (i < self.next && i + self.buf.len() as u64 >= self.next)
-            .then(|| self.buf[(i & self.mask) as usize])
-    }
 }
 
 /// The streaming detector. Feed it blocks of input samples (any unit); it reports beats once
@@ -225,65 +144,6 @@ pub struct Detector {
 
 fn band_chain(fs: f64) -> ChainSettings {
     ChainSettings::band(Some((5.0, 2)), Some((15.0_f64.min(0.4 * fs), 2)))
-}
-
-/// An averaged QRS shape (band-passed, around the R peak).
-#[derive(Debug, Clone)]
-struct LearnedQrs {
-    v: Vec<f64>,
-    beats: usize,
-    /// Beats in a row that did not match.
-    misses: usize,
-}
-
-impl LearnedQrs {
-    fn new(len: usize) -> Self {
-        Self {
-            v: vec![0.0; len],
-            beats: 0,
-            misses: 0,
-        }
-    }
-
-    fn ready(&self) -> bool {
-        self.beats >= TPL_READY
-    }
-
-    /// Pearson correlation with a segment of the same length.
-    fn corr(&self, y: &[f64]) -> Option<f64> {
-        let nf = self.v.len() as f64;
-        let (sx, sy) = (self.v.iter().sum::<f64>(), y.iter().sum::<f64>());
-        let vx = self.v.iter().map(|a| a * a).sum::<f64>() - sx * sx / nf;
-        let vy = y.iter().map(|a| a * a).sum::<f64>() - sy * sy / nf;
-        (vx > 0.0 && vy > 0.0).then(|| (dot(&self.v, y) - sx * sy / nf) / (vx * vy).sqrt())
-    }
-
-    /// Averages `y` in (weight 1/16 once sixteen beats are in).
-    fn add(&mut self, y: &[f64]) {
-        self.beats += 1;
-        let w = 1.0 / (self.beats.min(16) as f64);
-        for (t, v) in self.v.iter_mut().zip(y) {
-            *t += w * (v - *t);
-        }
-    }
-}
-
-/// Dot product with four running sums (the additions of one sum wait on each other).
-fn dot(a: &[f64], b: &[f64]) -> f64 {
-    let mut acc = [0.0; 4];
-    let (a4, b4) = (a.chunks_exact(4), b.chunks_exact(4));
-    let tail: f64 = a4
-        .remainder()
-        .iter()
-        .zip(b4.remainder())
-        .map(|(x, y)| x * y)
-        .sum();
-    for (x, y) in a4.zip(b4) {
-        for k in 0..4 {
-            acc[k] += x[k] * y[k];
-        }
-    }
-    acc.iter().sum::<f64>() + tail
 }
 
 fn mean(v: &VecDeque<f64>) -> Option<f64> {
@@ -594,136 +454,50 @@ impl Detector {
         }
     }
 
-    /// The band-passed input around R peak `r`, the template's length (`None` where the
-    /// history does not reach).
-    fn segment(&self, r: u64) -> Option<Vec<f64>> {
-        let start = (r + self.delay_bp).checked_sub(self.tpl_half)?;
-        (0..self.usual.v.len() as u64)
-            .map(|k| self.bp_ring.get(start + k))
-            .collect()
-    }
-
-    /// A better R peak for a beat first placed at `r`, if the template says so: the current
-    /// place matches the usual QRS poorly (r < 0.7) and not the other recent shape either, and
-    /// another place within ±300 ms (after the last beat's refractory period, and already seen)
-    /// matches well (≥ 0.8) and clearly better (+0.25).
-    fn template_relocate(&self, r: u64, here: f64, base: f64) -> Option<(u64, f64)> {
-        if !self.tuning.relocate || !self.usual.ready() || here >= 0.7 {
-            return None;
-        }
-        let reach = (TPL_SEARCH_S * self.fs) as u64;
-        let lo = (r.saturating_sub(reach)).max(self.last_r.map_or(0, |l| l + self.refractory));
-        let newest = self.n.saturating_sub(1 + self.delay_bp + self.tpl_half);
-        let hi = (r + reach).min(newest);
-        if hi <= lo {
-            return None;
-        }
-        // The stretch searched, contiguous, and the template's own sums: the input's sums then
-        // slide along it and only the cross product is summed anew at each place.
-        let start = (lo + self.delay_bp).checked_sub(self.tpl_half)?;
-        let y: Vec<f64> = (start..=hi + self.delay_bp + self.tpl_half)
-            .map(|j| self.bp_ring.get(j))
-            .collect::<Option<_>>()?;
-        let t = self.usual.v.as_slice();
-        let n = t.len();
-        let nf = n as f64;
-        let st: f64 = t.iter().sum();
-        let vt = t.iter().map(|v| v * v).sum::<f64>() - st * st / nf;
-        if vt <= 0.0 {
-            return None;
-        }
-        // Running sums of the input over the template's length, one per offset.
-        let mut sums = Vec::with_capacity(y.len() + 1 - n);
-        let (mut sy, mut syy) = y[..n]
-            .iter()
-            .fold((0.0, 0.0), |(a, b), v| (a + v, b + v * v));
-        sums.push((sy, syy));
-        for k in n..y.len() {
-            let (new, old) = (y[k], y[k - n]);
-            sy += new - old;
-            syy += new * new - old * old;
-            sums.push((sy, syy));
-        }
-        // Correlation at offset `off` into the stretch, if the amplitude is QRS-like (shape
-        // alone is not enough: a small wiggle can have the QRS's shape).
-        let corr = |off: usize| -> Option<f64> {
-            let (sy, syy) = sums[off];
-            let vy = syy - sy * sy / nf;
-            let amp = (vy.max(0.0) / vt).sqrt();
-            if !(0.5..=2.0).contains(&amp) {
-                return None;
-            }
-            Some((dot(t, &y[off..off + n]) - st * sy / nf) / (vt * vy).sqrt())
-        };
-        // Every other place first (5.6 ms at 360 Hz, well inside a 15 Hz cycle), then the
-        // neighbours of the best.
-        let span = (hi - lo) as usize;
-        let (mut best_off, mut best_c) = (None, here);
-        // A QRS that matches has, at the template's centre, a band-passed value of the
-        // template's size: places far below it are not worth the correlation.
-        let centre = t[n / 2].abs();
-        for off in (0..=span).step_by(2) {
-            if y[off + n / 2].abs() < 0.3 * centre {
-                continue;
-            }
-            if let Some(c) = corr(off)
-                && c > best_c
-            {
-                best_off = Some(off);
-                best_c = c;
-            }
-        }
-        let coarse = best_off?;
-        for off in [coarse.wrapping_sub(1), coarse + 1] {
-            if off <= span
-                && let Some(c) = corr(off)
-                && c > best_c
-            {
-                best_off = Some(off);
-                best_c = c;
-            }
-        }
-        let best = lo + best_off.unwrap_or(coarse) as u64;
-        if best == r || best_c < 0.8 || best_c < here + 0.25 {
-            return None;
-        }
-        // The template aligns the band-passed QRS; the R peak is the input's extreme of the
-        // template's polarity within ±30 ms of that place.
-        let sign = if self.polarity.abs() >= 0.5 {
-            self.polarity.signum()
-        } else {
-            1.0
-        };
-        let near = (0.03 * self.fs) as u64;
-        (best.saturating_sub(near)..=best + near)
-            .filter_map(|j| self.loc_ring.get(j).map(|v| (j, v - base)))
-            .max_by(|a, b| (sign * a.1).total_cmp(&(sign * b.1)))
-    }
-
-    /// Sorts a beat's segment into the usual or the other shape by its correlations with them.
-    /// A beat like neither starts the other shape afresh once that has missed eight beats in a
-    /// row (or is still forming); the shape that collects beats faster while the usual one is
-    /// still forming becomes the usual one.
-    fn learn_shape(&mut self, seg: &[f64], usual: f64, other: f64) {
-        if self.usual.beats == 0 || usual >= 0.8 {
-            self.usual.add(seg);
-            self.other.misses += 1;
-        } else if self.other.beats > 0 && other >= 0.8 {
-            self.other.add(seg);
-            self.other.misses = 0;
-        } else {
-            self.other.misses += 1;
-            if !self.other.ready() || self.other.misses >= 8 {
-                self.other = LearnedQrs::new(seg.len());
-                self.other.add(seg);
-            }
-        }
-        if !self.usual.ready() && self.other.beats > self.usual.beats {
-            std::mem::swap(&mut self.usual, &mut self.other);
-        }
-    }
-
     fn accept(&mut self, c: Candidate, search_back: bool, out: &mut Vec<Beat>) {
+        let (mut r, mut rv, base) = self.locate_r(&c);
+        // In noise the integrator's peak can sit on an artefact next to the QRS. When the R
+        // found looks like neither recent QRS shape and a place within 300 ms looks like
+        // the usual one, much better, the R peak is put there.
+        let seg = self.segment(r);
+        let like = |t: &LearnedQrs| seg.as_ref().and_then(|s| t.corr(s)).unwrap_or(-1.0);
+        let (usual, other) = (like(&self.usual), like(&self.other));
+        let moved = if self.other.beats > 0 && other >= 0.8 {
+            None
+        } else {
+            self.template_relocate(r, usual, base)
+        };
+        if let Some((j, v)) = moved {
+            r = j;
+            rv = v;
+            if let Some(s) = self.segment(r) {
+                self.usual.add(&s);
+            }
+        } else if let Some(s) = seg {
+            self.learn_shape(&s, usual, other);
+        }
+        self.polarity = 0.6 * self.polarity + 0.4 * rv.signum();
+        self.follow_rr(c.index);
+        self.qrs_slope = if self.qrs_slope == 0.0 {
+            c.slope
+        } else {
+            0.125 * c.slope + 0.875 * self.qrs_slope
+        };
+        // The refractory, T-wave and search-back windows run from the integrator peak.
+        self.last_qrs = Some((c.index, rv));
+        self.last_r = Some(r);
+        self.since_qrs.clear();
+        out.push(Beat {
+            sample: r,
+            r_value: rv,
+            search_back,
+            decided: self.n.saturating_sub(1),
+        });
+    }
+
+    /// The R peak of candidate `c` in the input: (sample, value above the local level, the
+    /// local level).
+    fn locate_r(&self, c: &Candidate) -> (u64, f64, f64) {
         // The QRS lies in the integration window before the candidate, shifted by the
         // band-pass delay; widen by 50 ms either side for the R peak of the input.
         let margin = (0.05 * self.fs) as u64;
@@ -775,135 +549,34 @@ impl Detector {
                 rv = v - base;
             }
         }
-        // In noise the integrator's peak can sit on an artefact next to the QRS. When the R
-        // found above looks like neither recent QRS shape and a place within 300 ms looks like
-        // the usual one, much better, the R peak is put there.
-        let seg = self.segment(r);
-        let like = |t: &LearnedQrs| seg.as_ref().and_then(|s| t.corr(s)).unwrap_or(-1.0);
-        let (usual, other) = (like(&self.usual), like(&self.other));
-        let moved = if self.other.beats > 0 && other >= 0.8 {
-            None
-        } else {
-            self.template_relocate(r, usual, base)
+        (r, rv, base)
+    }
+
+    /// The RR interval ending at integrator peak `index` joins the recent and (when regular)
+    /// the regular averages.
+    fn follow_rr(&mut self, index: u64) {
+        let Some((last, _)) = self.last_qrs else {
+            return;
         };
-        if let Some((j, v)) = moved {
-            r = j;
-            rv = v;
-            if let Some(s) = self.segment(r) {
-                self.usual.add(&s);
-            }
-        } else if let Some(s) = seg {
-            self.learn_shape(&s, usual, other);
+        let rr = index.saturating_sub(last) as f64;
+        if self.rr_recent.len() == 8 {
+            self.rr_recent.pop_front();
         }
-        self.polarity = 0.6 * self.polarity + 0.4 * rv.signum();
-        if let Some((last, _)) = self.last_qrs {
-            let rr = c.index.saturating_sub(last) as f64;
-            if self.rr_recent.len() == 8 {
-                self.rr_recent.pop_front();
+        self.rr_recent.push_back(rr);
+        let regular = mean(&self.rr_regular).is_none_or(|avg| rr > 0.92 * avg && rr < 1.16 * avg);
+        if regular {
+            if self.rr_regular.len() == 8 {
+                self.rr_regular.pop_front();
             }
-            self.rr_recent.push_back(rr);
-            let regular =
-                mean(&self.rr_regular).is_none_or(|avg| rr > 0.92 * avg && rr < 1.16 * avg);
-            if regular {
-                if self.rr_regular.len() == 8 {
-                    self.rr_regular.pop_front();
-                }
-                self.rr_regular.push_back(rr);
+            self.rr_regular.push_back(rr);
+            self.irregular_run = 0;
+        } else {
+            self.irregular_run += 1;
+            // Eight beats in a row away from the average: the rate has moved, follow it.
+            if self.irregular_run >= 8 {
+                self.rr_regular = self.rr_recent.clone();
                 self.irregular_run = 0;
-            } else {
-                self.irregular_run += 1;
-                // Eight beats in a row away from the average: the rate has moved, follow it.
-                if self.irregular_run >= 8 {
-                    self.rr_regular = self.rr_recent.clone();
-                    self.irregular_run = 0;
-                }
             }
         }
-        self.qrs_slope = if self.qrs_slope == 0.0 {
-            c.slope
-        } else {
-            0.125 * c.slope + 0.875 * self.qrs_slope
-        };
-        // The refractory, T-wave and search-back windows run from the integrator peak.
-        self.last_qrs = Some((c.index, rv));
-        self.last_r = Some(r);
-        self.since_qrs.clear();
-        out.push(Beat {
-            sample: r,
-            r_value: rv,
-            search_back,
-            decided: self.n.saturating_sub(1),
-        });
-    }
-}
-
-/// Beat-by-beat comparison with reference annotations, as ANSI/AAMI EC57 scores it: a detection
-/// matches a reference beat within ±`tolerance` samples, each at most once.
-#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
-pub struct Score {
-    /// Reference beats matched.
-    pub tp: usize,
-    /// Reference beats missed.
-    pub fn_: usize,
-    /// Detections with no reference beat.
-    pub fp: usize,
-}
-
-impl Score {
-    /// Sensitivity TP / (TP + FN).
-    pub fn se(&self) -> f64 {
-        self.tp as f64 / (self.tp + self.fn_).max(1) as f64
-    }
-    /// Positive predictivity TP / (TP + FP).
-    pub fn ppv(&self) -> f64 {
-        self.tp as f64 / (self.tp + self.fp).max(1) as f64
-    }
-    /// Sum of two scores (gross statistics over records).
-    pub fn add(&self, o: &Score) -> Score {
-        Score {
-            tp: self.tp + o.tp,
-            fn_: self.fn_ + o.fn_,
-            fp: self.fp + o.fp,
-        }
-    }
-}
-
-/// Scores `detected` against `reference` (both sorted sample indices), counting only beats in
-/// `[from, to)`.
-pub fn score(reference: &[u64], detected: &[u64], tolerance: u64, from: u64, to: u64) -> Score {
-    let r: Vec<u64> = reference
-        .iter()
-        .copied()
-        .filter(|&s| s >= from && s < to)
-        .collect();
-    let d: Vec<u64> = detected
-        .iter()
-        .copied()
-        .filter(|&s| s >= from && s < to)
-        .collect();
-    let mut used = vec![false; d.len()];
-    let mut tp = 0;
-    let mut j0 = 0;
-    for &ref_s in &r {
-        while j0 < d.len() && d[j0] + tolerance < ref_s {
-            j0 += 1;
-        }
-        let mut best: Option<usize> = None;
-        let mut j = j0;
-        while j < d.len() && d[j] <= ref_s + tolerance {
-            if !used[j] && best.is_none_or(|b| d[j].abs_diff(ref_s) < d[b].abs_diff(ref_s)) {
-                best = Some(j);
-            }
-            j += 1;
-        }
-        if let Some(b) = best {
-            used[b] = true;
-            tp += 1;
-        }
-    }
-    Score {
-        tp,
-        fn_: r.len() - tp,
-        fp: d.len() - tp,
     }
 }

@@ -1,129 +1,13 @@
-//! `leadline bench`: throughput figures measured on this machine, the last line one JSON object.
+//! The measurements `leadline bench` runs, each with its figures and their human lines.
 
-use std::path::PathBuf;
-
-use clap::{Args, ValueEnum};
-
-use super::num;
-use crate::dsp::Section;
-use crate::dsp::chain::{Chain, ChainSettings, HighPass, LowPass, Notch};
-use crate::rng::Rng;
-use anyhow::{Context, Result};
-use serde::Serialize;
-use std::hint::black_box;
-use std::time::Instant;
-
-/// What `leadline bench` measures.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
-pub enum BenchWhat {
-    /// The 4-section chain (HP 0.5 Hz ×2, notch 60 Hz, LP 40 Hz ×4 at 1 kHz), one pass and in 64-sample blocks.
-    Dsp,
-    /// One Welch update of 10 s at 1 kHz (segment 2048), and the mains measurement on it.
-    Spectrum,
-    /// Offline beat detection of a 30-minute 360 Hz record (MIT-BIH 100, or a simulated one).
-    Beats,
-    /// Decoder throughput of the text and binary wire formats, MB/s.
-    Wire,
-    /// UDP: binary datagrams decoded and put back in order, frames/s against 8 ch × 4 kHz.
-    Net,
-    /// `measure response` on a 60 s two-channel 1 kHz recording (the analysis, in process).
-    Measure,
-    /// Sound: the renderer (beat tone and signal, 48 kHz) on 60 s of a 1 kHz stream in 10 ms
-    /// blocks, as the DSP thread runs it; and the EMG view of 20 s at 1 kHz.
-    Sound,
-}
-
-/// Options of `leadline bench`.
-#[derive(Debug, Clone, Args)]
-pub struct BenchArgs {
-    /// The figure to measure.
-    #[arg(value_enum)]
-    pub what: BenchWhat,
-    /// Samples to process.
-    #[arg(value_parser = num::whole::<usize>(1, 1_000_000_000), long, default_value_t = 10_000_000, value_name = "N")]
-    pub samples: usize,
-    /// WFDB record (.hea) for `bench beats`; without it a simulated 30-minute record is used.
-    #[arg(long, value_name = "FILE")]
-    pub record: Option<PathBuf>,
-    /// `bench beats`: a folder of annotated WFDB records (NAME.hea with NAME.beats.csv) for the
-    /// in-sample and the three-against-two held-out figures.
-    #[arg(long, value_name = "DIR", default_value = "tests/data/mitdb")]
-    pub annotated: PathBuf,
-}
-
-/// The benchmark chain: HP 2nd order 0.5 Hz + notch 60 Hz Q 30 + LP 4th order 40 Hz at 1 kHz.
-pub fn bench_chain() -> ChainSettings {
-    ChainSettings {
-        highpass: HighPass {
-            enabled: true,
-            corner_hz: 0.5,
-            order: 2,
-        },
-        notch: Notch {
-            enabled: true,
-            mains_hz: 60.0,
-            q: 30.0,
-            harmonics: 0,
-            auto: false,
-        },
-        lowpass: LowPass {
-            enabled: true,
-            corner_hz: 40.0,
-            order: 4,
-        },
-        gain: 1.0,
-    }
-}
-
-/// The benchmark input: an ECG-band sine with mains and noise, fixed seed.
-pub fn bench_signal(n: usize, fs: f64) -> Vec<f64> {
-    let mut rng = Rng::new(2024);
-    (0..n)
-        .map(|i| {
-            let t = i as f64 / fs;
-            1000.0 * (std::f64::consts::TAU * 1.2 * t).sin()
-                + 200.0 * (std::f64::consts::TAU * 60.0 * t).sin()
-                + 20.0 * rng.normal()
-        })
-        .collect()
-}
-
-/// A hand-written transposed direct form II cascade: the yardstick the chain is held to.
-pub fn direct_loop(sections: &[Section], x: &mut [f64]) {
-    let mut st = vec![[0.0f64; 2]; sections.len()];
-    for v in x.iter_mut() {
-        let mut y = *v;
-        for (s, z) in sections.iter().zip(st.iter_mut()) {
-            let out = s.b0 * y + z[0];
-            z[0] = s.b1 * y - s.a1 * out + z[1];
-            z[1] = s.b2 * y - s.a2 * out;
-            y = out;
-        }
-        *v = y;
-    }
-}
-
-/// Best of `runs` timings of `f` on a fresh copy of `input` (the copy is not timed).
-fn best_of<F: FnMut(&mut [f64])>(runs: usize, input: &[f64], mut f: F) -> f64 {
-    let mut buf = input.to_vec();
-    (0..runs)
-        .map(|_| {
-            buf.copy_from_slice(input);
-            let t = Instant::now();
-            f(&mut buf);
-            let dt = t.elapsed().as_secs_f64();
-            black_box(&buf);
-            dt
-        })
-        .fold(f64::INFINITY, f64::min)
-}
+use super::*;
 
 /// Figures of the functions the product runs: `leadline filter` (causal: `filter_settled`,
 /// zero-phase: `zero_phase`), the DSP thread (`process_interleaved` on its blocks), the
 /// detector's band-pass (`process_channel` in blocks of 64), and for comparison the same chain
 /// sample by sample and a hand-written direct-form loop.
 #[derive(Serialize)]
-struct DspFigures {
+pub(super) struct DspFigures {
     samples: usize,
     sections: usize,
     fs_hz: f64,
@@ -142,7 +26,7 @@ struct DspFigures {
     direct_loop_samples_per_s: f64,
 }
 
-fn dsp(samples: usize) -> Result<DspFigures> {
+pub(super) fn dsp(samples: usize) -> Result<DspFigures> {
     let fs = 1000.0;
     let settings = bench_chain();
     let sections = settings.design(fs)?;
@@ -200,14 +84,14 @@ fn dsp(samples: usize) -> Result<DspFigures> {
 }
 
 #[derive(Serialize)]
-struct SpectrumFigures {
+pub(super) struct SpectrumFigures {
     samples: usize,
     segment: usize,
     update_ms: f64,
     mains_ms: f64,
 }
 
-fn spectrum() -> Result<SpectrumFigures> {
+pub(super) fn spectrum() -> Result<SpectrumFigures> {
     let fs = 1000.0;
     let x = bench_signal(10_000, fs);
     let mut welch = crate::dsp::spectrum::Welch::new(2048)?;
@@ -235,7 +119,7 @@ fn spectrum() -> Result<SpectrumFigures> {
 }
 
 #[derive(Serialize)]
-struct BeatFigures {
+pub(super) struct BeatFigures {
     record: String,
     samples: usize,
     fs_hz: f64,
@@ -299,7 +183,10 @@ pub fn annotated(dir: &std::path::Path) -> Result<Vec<crate::analysis::heldout::
     Ok(out)
 }
 
-fn beats(record: Option<&std::path::Path>, dir: &std::path::Path) -> Result<BeatFigures> {
+pub(super) fn beats(
+    record: Option<&std::path::Path>,
+    dir: &std::path::Path,
+) -> Result<BeatFigures> {
     let (name, fs, x) = match record {
         Some(p) => {
             let r = crate::store::wfdb::read(p)?;
@@ -383,14 +270,14 @@ fn beats(record: Option<&std::path::Path>, dir: &std::path::Path) -> Result<Beat
 }
 
 #[derive(Serialize)]
-struct WireFigures {
+pub(super) struct WireFigures {
     text_mb_per_s: f64,
     binary_mb_per_s: f64,
     text_bytes: usize,
     binary_bytes: usize,
 }
 
-fn wire() -> Result<WireFigures> {
+pub(super) fn wire() -> Result<WireFigures> {
     let s = crate::source::SynthSettings {
         fs_hz: 1000.0,
         channels: 4,
@@ -403,7 +290,7 @@ fn wire() -> Result<WireFigures> {
     let mut text = String::new();
     crate::wire::ascii::encode_frames(&counts, 4, &mut text);
     let mut bin = Vec::new();
-    super::simulate::encode_binary(&counts, 4, 0, &scale, &mut bin);
+    crate::cli::simulate::encode_binary(&counts, 4, 0, &scale, &mut bin);
     let rate = |bytes: &[u8], text: bool| {
         let mut best = f64::INFINITY;
         let mut frames = Vec::with_capacity(1 << 16);
@@ -436,7 +323,7 @@ fn wire() -> Result<WireFigures> {
 }
 
 #[derive(Serialize)]
-struct NetFigures {
+pub(super) struct NetFigures {
     /// Frames decoded and put in order per second (datagrams of 10 frames, 8 channels, one
     /// neighbour swapped in fifty, one datagram in a hundred lost).
     frames_per_s: f64,
@@ -447,7 +334,7 @@ struct NetFigures {
 }
 
 /// What the UDP source does per datagram: decode the whole frames, reorder, release.
-fn net() -> Result<NetFigures> {
+pub(super) fn net() -> Result<NetFigures> {
     use crate::wire::binary;
     use crate::wire::reorder::Reorder;
     let channels = 8;
@@ -515,7 +402,7 @@ fn net() -> Result<NetFigures> {
 }
 
 #[derive(Serialize)]
-struct MeasureFigures {
+pub(super) struct MeasureFigures {
     samples_per_channel: usize,
     /// The transfer-function estimate (H1, coherence, corners) as `measure response` runs it.
     response_ms: f64,
@@ -523,7 +410,7 @@ struct MeasureFigures {
     noise_ms: f64,
 }
 
-fn measure() -> Result<MeasureFigures> {
+pub(super) fn measure() -> Result<MeasureFigures> {
     let fs = 1000.0;
     let n = 60_000;
     let mut rng = crate::rng::Rng::new(3);
@@ -566,7 +453,7 @@ fn measure() -> Result<MeasureFigures> {
 }
 
 #[derive(Debug, Serialize)]
-struct SoundFigures {
+pub(super) struct SoundFigures {
     stream_s: f64,
     render_ms: f64,
     core_pct: f64,
@@ -574,7 +461,7 @@ struct SoundFigures {
     emg_live_ms: f64,
 }
 
-fn sound() -> Result<SoundFigures> {
+pub(super) fn sound() -> Result<SoundFigures> {
     let fs = 1000.0;
     let seconds = 60.0;
     let s = crate::source::SynthSettings {
@@ -629,142 +516,152 @@ fn sound() -> Result<SoundFigures> {
     })
 }
 
-/// Runs the command.
-///
-/// # Errors
-/// Only if the benchmark chain could not be designed.
-pub fn run(a: &BenchArgs) -> Result<()> {
-    match a.what {
-        BenchWhat::Dsp => {
-            let f = dsp(a.samples)?;
-            println!(
-                "chain of {} sections at {} Hz over {} samples (M samples/s):",
-                f.sections, f.fs_hz, f.samples
-            );
-            let rows = [
-                (
-                    "leadline filter, causal (filter_settled)",
-                    f.filter_samples_per_s,
-                ),
-                (
-                    "leadline filter --zero-phase (zero_phase)",
-                    f.zero_phase_samples_per_s,
-                ),
-                (
-                    "DSP thread, 1 ch, 10-frame blocks",
-                    f.live_1ch_samples_per_s,
-                ),
-                (
-                    "DSP thread, 8 ch, 20-frame blocks",
-                    f.live_8ch_samples_per_s,
-                ),
-                ("detector band-pass, blocks of 64", f.block64_samples_per_s),
-                ("sample by sample, no kernel", f.per_sample_samples_per_s),
-                ("hand-written direct-form loop", f.direct_loop_samples_per_s),
-            ];
-            for (what, v) in rows {
-                println!("  {what:<44} {:8.1}", v / 1e6);
-            }
-            println!("{}", serde_json::to_string(&f)?);
+impl DspFigures {
+    /// The human lines.
+    pub(super) fn print(&self) {
+        println!(
+            "chain of {} sections at {} Hz over {} samples (M samples/s):",
+            self.sections, self.fs_hz, self.samples
+        );
+        let rows = [
+            (
+                "leadline filter, causal (filter_settled)",
+                self.filter_samples_per_s,
+            ),
+            (
+                "leadline filter --zero-phase (zero_phase)",
+                self.zero_phase_samples_per_s,
+            ),
+            (
+                "DSP thread, 1 ch, 10-frame blocks",
+                self.live_1ch_samples_per_s,
+            ),
+            (
+                "DSP thread, 8 ch, 20-frame blocks",
+                self.live_8ch_samples_per_s,
+            ),
+            (
+                "detector band-pass, blocks of 64",
+                self.block64_samples_per_s,
+            ),
+            ("sample by sample, no kernel", self.per_sample_samples_per_s),
+            (
+                "hand-written direct-form loop",
+                self.direct_loop_samples_per_s,
+            ),
+        ];
+        for (what, v) in rows {
+            println!("  {what:<44} {:8.1}", v / 1e6);
         }
-        BenchWhat::Beats => {
-            let f = beats(a.record.as_deref(), &a.annotated)?;
+    }
+}
+
+impl BeatFigures {
+    /// The human lines.
+    pub(super) fn print(&self) {
+        println!(
+            "{}: {} samples at {} Hz, {} beats in {:.1} ms (detector alone); the whole readout in 10 ms blocks: {:.1} ms",
+            self.record, self.samples, self.fs_hz, self.beats, self.detect_ms, self.readout_ms
+        );
+        for r in &self.in_sample {
             println!(
-                "{}: {} samples at {} Hz, {} beats in {:.1} ms (detector alone); the whole readout in 10 ms blocks: {:.1} ms",
-                f.record, f.samples, f.fs_hz, f.beats, f.detect_ms, f.readout_ms
+                "in-sample  {:>6}: Se {:6.2} %  +P {:6.2} %",
+                r.name, r.se_pct, r.ppv_pct
             );
-            for r in &f.in_sample {
+        }
+        if !self.in_sample.is_empty() {
+            println!(
+                "in-sample  gross : Se {:6.2} %  +P {:6.2} %",
+                self.in_sample_gross_se_pct, self.in_sample_gross_ppv_pct
+            );
+        }
+        if let Some(h) = &self.held_out {
+            for r in &h.records {
                 println!(
-                    "in-sample  {:>6}: Se {:6.2} %  +P {:6.2} %",
+                    "held out   {:>6}: Se {:6.2} %  +P {:6.2} %  (tuned on 3 others, 4 splits)",
                     r.name, r.se_pct, r.ppv_pct
                 );
             }
-            if !f.in_sample.is_empty() {
+            println!(
+                "held out   gross : Se {:6.2} %  +P {:6.2} %  over {} splits",
+                h.gross_se_pct,
+                h.gross_ppv_pct,
+                h.splits.len()
+            );
+            for (t, w) in h.wins.iter().filter(|w| w.1 > 0) {
                 println!(
-                    "in-sample  gross : Se {:6.2} %  +P {:6.2} %",
-                    f.in_sample_gross_se_pct, f.in_sample_gross_ppv_pct
+                    "  chosen {w} times: threshold {}, search back after {} RR, relocation {}",
+                    t.threshold,
+                    t.search_back_rr,
+                    if t.relocate { "on" } else { "off" }
                 );
             }
-            if let Some(h) = &f.held_out {
-                for r in &h.records {
-                    println!(
-                        "held out   {:>6}: Se {:6.2} %  +P {:6.2} %  (tuned on 3 others, 4 splits)",
-                        r.name, r.se_pct, r.ppv_pct
-                    );
-                }
-                println!(
-                    "held out   gross : Se {:6.2} %  +P {:6.2} %  over {} splits",
-                    h.gross_se_pct,
-                    h.gross_ppv_pct,
-                    h.splits.len()
-                );
-                for (t, w) in h.wins.iter().filter(|w| w.1 > 0) {
-                    println!(
-                        "  chosen {w} times: threshold {}, search back after {} RR, relocation {}",
-                        t.threshold,
-                        t.search_back_rr,
-                        if t.relocate { "on" } else { "off" }
-                    );
-                }
-            }
-            for c in &f.development {
-                println!(
-                    "development {:<18}: {:4} beats  Se {:6.2} %  +P {:6.2} %",
-                    c.case, c.beats, c.se_pct, c.ppv_pct
-                );
-            }
-            println!("{}", serde_json::to_string(&f)?);
         }
-        BenchWhat::Wire => {
-            let f = wire()?;
+        for c in &self.development {
             println!(
-                "text lines:    {:8.1} MB/s over {} bytes",
-                f.text_mb_per_s, f.text_bytes
+                "development {:<18}: {:4} beats  Se {:6.2} %  +P {:6.2} %",
+                c.case, c.beats, c.se_pct, c.ppv_pct
             );
-            println!(
-                "binary frames: {:8.1} MB/s over {} bytes",
-                f.binary_mb_per_s, f.binary_bytes
-            );
-            println!("{}", serde_json::to_string(&f)?);
-        }
-        BenchWhat::Measure => {
-            let f = measure()?;
-            println!(
-                "60 s × 2 channels at 1 kHz: response {:.1} ms, noise {:.1} ms",
-                f.response_ms, f.noise_ms
-            );
-            println!("{}", serde_json::to_string(&f)?);
-        }
-        BenchWhat::Net => {
-            let f = net()?;
-            println!(
-                "UDP datagrams decoded and reordered: {:.0} frames/s of 8 channels = {:.0} × the heaviest stream (8 × 4 kHz)",
-                f.frames_per_s, f.times_heaviest
-            );
-            println!("{}", serde_json::to_string(&f)?);
-        }
-        BenchWhat::Sound => {
-            let f = sound()?;
-            println!(
-                "sound for 60 s of a 1 kHz stream (tone on every beat and the signal, 48 kHz): {:.1} ms = {:.3} % of a core",
-                f.render_ms, f.core_pct
-            );
-            println!(
-                "live EMG view of the same stream (10-sample blocks, a view every 250 ms): {:.1} ms = {:.3} % of a core",
-                f.emg_live_ms,
-                100.0 * f.emg_live_ms / (f.stream_s * 1e3)
-            );
-            println!("{}", serde_json::to_string(&f)?);
-        }
-        BenchWhat::Spectrum => {
-            let f = spectrum()?;
-            println!(
-                "Welch PSD of {} samples, segment {}: {:.3} ms an update",
-                f.samples, f.segment, f.update_ms
-            );
-            println!("mains measurement on it: {:.3} ms", f.mains_ms);
-            println!("{}", serde_json::to_string(&f)?);
         }
     }
-    Ok(())
+}
+
+impl WireFigures {
+    /// The human lines.
+    pub(super) fn print(&self) {
+        println!(
+            "text lines:    {:8.1} MB/s over {} bytes",
+            self.text_mb_per_s, self.text_bytes
+        );
+        println!(
+            "binary frames: {:8.1} MB/s over {} bytes",
+            self.binary_mb_per_s, self.binary_bytes
+        );
+    }
+}
+
+impl MeasureFigures {
+    /// The human lines.
+    pub(super) fn print(&self) {
+        println!(
+            "60 s × 2 channels at 1 kHz: response {:.1} ms, noise {:.1} ms",
+            self.response_ms, self.noise_ms
+        );
+    }
+}
+
+impl NetFigures {
+    /// The human lines.
+    pub(super) fn print(&self) {
+        println!(
+            "UDP datagrams decoded and reordered: {:.0} frames/s of 8 channels = {:.0} × the heaviest stream (8 × 4 kHz)",
+            self.frames_per_s, self.times_heaviest
+        );
+    }
+}
+
+impl SoundFigures {
+    /// The human lines.
+    pub(super) fn print(&self) {
+        println!(
+            "sound for 60 s of a 1 kHz stream (tone on every beat and the signal, 48 kHz): {:.1} ms = {:.3} % of a core",
+            self.render_ms, self.core_pct
+        );
+        println!(
+            "live EMG view of the same stream (10-sample blocks, a view every 250 ms): {:.1} ms = {:.3} % of a core",
+            self.emg_live_ms,
+            100.0 * self.emg_live_ms / (self.stream_s * 1e3)
+        );
+    }
+}
+
+impl SpectrumFigures {
+    /// The human lines.
+    pub(super) fn print(&self) {
+        println!(
+            "Welch PSD of {} samples, segment {}: {:.3} ms an update",
+            self.samples, self.segment, self.update_ms
+        );
+        println!("mains measurement on it: {:.3} ms", self.mains_ms);
+    }
 }
