@@ -2,7 +2,9 @@
 
 use std::path::PathBuf;
 
-use clap::{Args, ValueEnum};
+use clap::Args;
+
+use crate::setup::LowerView;
 
 use super::args::*;
 use super::num;
@@ -58,28 +60,52 @@ pub struct MonitorArgs {
     pub scale: ScaleArgs,
 }
 
-/// The lower strip of the monitor.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum, Default)]
+/// What the monitor starts on: a strip under the traces (the setup's own [`LowerView`]), or a
+/// measurement preset.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum StartView {
-    /// Averaged beat and RR tachogram.
-    Beats,
-    /// Running spectrum and mains measurement.
-    #[default]
-    Spectrum,
-    /// Magnitude, phase and group delay of the chain.
-    Response,
-    /// The chain realised with standard parts.
-    Parts,
-    /// Measuring the built front end.
-    Measure,
-    /// Surface EMG (switches the monitor to EMG: the 20–450 Hz chain and the EMG view).
-    Emg,
-    /// Traces only.
-    Traces,
+    /// A strip under the traces.
+    Strip(LowerView),
     /// Measurement preset: simulator at 1 kHz, 1 channel, 10 s window, spectrum strip.
     Default,
     /// Measurement preset: simulator 8 channels at 2 kHz, 30 s window, spectrum strip.
     Heavy,
+}
+
+impl Default for StartView {
+    fn default() -> Self {
+        StartView::Strip(LowerView::default())
+    }
+}
+
+impl clap::ValueEnum for StartView {
+    fn value_variants<'a>() -> &'a [Self] {
+        const ALL: [StartView; 9] = [
+            StartView::Strip(LowerView::ALL[0]),
+            StartView::Strip(LowerView::ALL[1]),
+            StartView::Strip(LowerView::ALL[2]),
+            StartView::Strip(LowerView::ALL[3]),
+            StartView::Strip(LowerView::ALL[4]),
+            StartView::Strip(LowerView::ALL[5]),
+            StartView::Strip(LowerView::ALL[6]),
+            StartView::Default,
+            StartView::Heavy,
+        ];
+        &ALL
+    }
+
+    fn to_possible_value(&self) -> Option<clap::builder::PossibleValue> {
+        use clap::builder::PossibleValue;
+        Some(match self {
+            StartView::Strip(v) => PossibleValue::new(v.name()).help(v.describe()),
+            StartView::Default => PossibleValue::new("default").help(
+                "Measurement preset: simulator at 1 kHz, 1 channel, 10 s window, spectrum strip.",
+            ),
+            StartView::Heavy => PossibleValue::new("heavy").help(
+                "Measurement preset: simulator 8 channels at 2 kHz, 30 s window, spectrum strip.",
+            ),
+        })
+    }
 }
 
 /// The settings to start with: `--config`, else the remembered setup (unless `--fresh`), else
@@ -130,14 +156,8 @@ pub fn start_settings(args: &MonitorArgs) -> anyhow::Result<crate::gui::state::S
     settings.setup.synth.validate()?;
     if let Some(v) = args.view {
         settings.setup.view.lower = match v {
-            StartView::Beats => crate::gui::state::LowerView::Beats,
-            StartView::Spectrum => crate::gui::state::LowerView::Spectrum,
-            StartView::Response => crate::gui::state::LowerView::Response,
-            StartView::Parts => crate::gui::state::LowerView::Parts,
-            StartView::Measure => crate::gui::state::LowerView::Measure,
-            StartView::Emg => crate::gui::state::LowerView::Muscle,
-            StartView::Traces => crate::gui::state::LowerView::Hidden,
-            StartView::Default | StartView::Heavy => crate::gui::state::LowerView::Spectrum,
+            StartView::Strip(l) => l,
+            StartView::Default | StartView::Heavy => LowerView::Spectrum,
         };
         let heavy = v == StartView::Heavy;
         if matches!(v, StartView::Default | StartView::Heavy) {
@@ -148,7 +168,7 @@ pub fn start_settings(args: &MonitorArgs) -> anyhow::Result<crate::gui::state::S
             settings.setup.view.display_hz = 30.0;
             settings.setup.synth.validate()?;
         }
-        if v == StartView::Emg {
+        if v == StartView::Strip(LowerView::Muscle) {
             // The simulator becomes a contracting muscle (at 1 kHz unless told otherwise).
             if settings.simulating() {
                 settings.setup.synth.muscle = Some(crate::sim::muscle::MuscleSettings::default());
@@ -181,10 +201,12 @@ pub fn run(args: &MonitorArgs) -> anyhow::Result<()> {
         paused: args.paused,
         bench_s: args.bench,
         bench_view: match args.view {
-            Some(StartView::Heavy) => "heavy".into(),
-            Some(StartView::Default) | None => "default".into(),
-            Some(other) => format!("{other:?}").to_lowercase(),
-        } + if args.bench_sound { "+sound" } else { "" },
+            Some(StartView::Heavy) => "heavy",
+            Some(StartView::Default) | None => "default",
+            Some(StartView::Strip(l)) => l.name(),
+        }
+        .to_string()
+            + if args.bench_sound { "+sound" } else { "" },
         bench_sound: args.bench_sound,
     };
     crate::gui::run(settings, start)

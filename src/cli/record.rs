@@ -149,6 +149,36 @@ fn request(a: &RecordArgs, chain: &ChainSettings) -> RecordRequest {
     req
 }
 
+/// The summary line of a finished recording: what the file holds and what the link lost.
+fn summary(
+    a: &RecordArgs,
+    status: &crate::recorder::RecorderStatus,
+    net: Option<&crate::source::net::NetStatus>,
+    serial: Option<&crate::source::serial::SerialStatus>,
+    stats: Option<&crate::msg::Stats>,
+) -> Summary {
+    Summary {
+        out: a.out.display().to_string(),
+        frames: status.frames,
+        padded_frames: status.padded_frames,
+        lost: match (net, serial) {
+            (Some(n), _) => n.order.lost,
+            (None, Some(s)) => s.wire.lost_frames,
+            _ => stats.map_or(0, |s| s.frames_lost),
+        },
+        duplicate: net.map_or(0, |n| n.order.duplicate),
+        late: net.map_or(0, |n| n.order.late),
+        foreign: net.map_or(0, |n| n.foreign),
+        gaps: stats.map_or(0, |s| s.gaps),
+        reconnects: net
+            .map(|n| n.reconnects)
+            .or(serial.map(|s| s.reconnects))
+            .unwrap_or(0),
+        losses_countable: !net.is_some_and(|n| n.losses_uncountable),
+        peer: net.and_then(|n| n.peer).map(|p| p.to_string()),
+    }
+}
+
 /// Runs the command.
 ///
 /// # Errors
@@ -205,27 +235,7 @@ pub fn run(a: &RecordArgs) -> Result<()> {
     let stats = pipeline.latest_snapshot().map(|s| s.stats);
     drop(pipeline);
     let status = status.unwrap_or_default();
-    let summary = Summary {
-        out: a.out.display().to_string(),
-        frames: status.frames,
-        padded_frames: status.padded_frames,
-        lost: match (&net, &serial) {
-            (Some(n), _) => n.order.lost,
-            (None, Some(s)) => s.wire.lost_frames,
-            _ => stats.as_ref().map_or(0, |s| s.frames_lost),
-        },
-        duplicate: net.as_ref().map_or(0, |n| n.order.duplicate),
-        late: net.as_ref().map_or(0, |n| n.order.late),
-        foreign: net.as_ref().map_or(0, |n| n.foreign),
-        gaps: stats.as_ref().map_or(0, |s| s.gaps),
-        reconnects: net
-            .as_ref()
-            .map(|n| n.reconnects)
-            .or(serial.as_ref().map(|s| s.reconnects))
-            .unwrap_or(0),
-        losses_countable: !net.as_ref().is_some_and(|n| n.losses_uncountable),
-        peer: net.as_ref().and_then(|n| n.peer).map(|p| p.to_string()),
-    };
+    let summary = summary(a, &status, net.as_ref(), serial.as_ref(), stats.as_ref());
     // The last line on stdout, for every source and outcome a script can read.
     println!("{}", serde_json::to_string(&summary)?);
     if let Some(e) = net.as_ref().and_then(|n| n.error.clone()) {

@@ -112,27 +112,10 @@ pub fn run(design: &[Section], state: &mut [DirectForm2Transposed<f64>], x: &mut
     if n < MIN_LEN || design.is_empty() || design.len() != state.len() {
         return false;
     }
-    let mut norm = Vec::with_capacity(design.len());
-    // Gain of the cascade up to and including section k.
-    let mut cum = Vec::with_capacity(design.len());
-    let mut g = 1.0;
-    for s in design {
-        if s.b0 == 0.0 || !s.b0.is_finite() {
-            return false;
-        }
-        g *= s.b0;
-        if !(g.is_finite() && g != 0.0) {
-            return false;
-        }
-        norm.push(Norm {
-            beta1: s.b1 / s.b0,
-            beta2: s.b2 / s.b0,
-            a1: s.a1,
-            a2: s.a2,
-        });
-        cum.push(g);
-    }
-    let total = g;
+    let Some((norm, cum)) = normalise(design) else {
+        return false;
+    };
+    let total = cum[cum.len() - 1];
     let half = n / 2;
     let (first, rest) = x.split_at_mut(half);
     let (second, tail) = rest.split_at_mut(half);
@@ -208,6 +191,31 @@ pub fn run(design: &[Section], state: &mut [DirectForm2Transposed<f64>], x: &mut
         *v = state.iter_mut().fold(*v, |u, s| s.run(u));
     }
     true
+}
+
+/// Each section divided by its b0, and the gain of the cascade up to and including each
+/// section; `None` when a b0 is zero or a gain leaves the finite numbers.
+fn normalise(design: &[Section]) -> Option<(Vec<Norm>, Vec<f64>)> {
+    let mut norm = Vec::with_capacity(design.len());
+    let mut cum = Vec::with_capacity(design.len());
+    let mut g = 1.0;
+    for s in design {
+        if s.b0 == 0.0 || !s.b0.is_finite() {
+            return None;
+        }
+        g *= s.b0;
+        if !(g.is_finite() && g != 0.0) {
+            return None;
+        }
+        norm.push(Norm {
+            beta1: s.b1 / s.b0,
+            beta2: s.b2 / s.b0,
+            a1: s.a1,
+            a2: s.a2,
+        });
+        cum.push(g);
+    }
+    Some((norm, cum))
 }
 
 #[cfg(test)]

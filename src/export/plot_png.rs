@@ -206,20 +206,7 @@ pub fn trace_png(
         .map(|c| c.t0_s + c.dt_s * c.min.len() as f64)
         .fold(t_lo + 1e-3, f64::max);
     let k = 1.0 / uv_per_unit;
-    let (mut v_lo, mut v_hi) = (f64::MAX, f64::MIN);
-    for c in &cols {
-        for (&a, &b) in c.min.iter().zip(&c.max) {
-            if a.is_finite() && b.is_finite() {
-                v_lo = v_lo.min(f64::from(a) * k);
-                v_hi = v_hi.max(f64::from(b) * k);
-            }
-        }
-    }
-    if v_lo >= v_hi {
-        (v_lo, v_hi) = (v_lo - 1.0, v_lo + 1.0);
-    }
-    let pad = 0.06 * (v_hi - v_lo);
-    let (v_lo, v_hi) = (v_lo - pad, v_hi + pad);
+    let (v_lo, v_hi, pad) = value_range(&cols, k);
     let mut buf = vec![0u8; (w * h * 3) as usize];
     {
         let root = BitMapBackend::with_buffer(&mut buf, (w, h)).into_drawing_area();
@@ -287,6 +274,24 @@ pub fn trace_png(
         root.present().map_err(draw_err)?;
     }
     write_rgb_png(path, &buf, w, h)
+}
+
+/// The value axis of the columns in display units (µV × `k`), padded by 6 %: (low, high, pad).
+fn value_range(cols: &[&Columns], k: f64) -> (f64, f64, f64) {
+    let (mut v_lo, mut v_hi) = (f64::MAX, f64::MIN);
+    for c in cols {
+        for (&a, &b) in c.min.iter().zip(&c.max) {
+            if a.is_finite() && b.is_finite() {
+                v_lo = v_lo.min(f64::from(a) * k);
+                v_hi = v_hi.max(f64::from(b) * k);
+            }
+        }
+    }
+    if v_lo >= v_hi {
+        (v_lo, v_hi) = (v_lo - 1.0, v_lo + 1.0);
+    }
+    let pad = 0.06 * (v_hi - v_lo);
+    (v_lo - pad, v_hi + pad, pad)
 }
 
 /// Min/max columns of `x` (µV) at `fs`: about `n` columns, for plotting long signals.

@@ -34,6 +34,47 @@ pub enum LowerView {
     Hidden,
 }
 
+impl LowerView {
+    /// Every strip, in the order the view tabs show them.
+    pub const ALL: [LowerView; 7] = [
+        LowerView::Beats,
+        LowerView::Spectrum,
+        LowerView::Response,
+        LowerView::Parts,
+        LowerView::Measure,
+        LowerView::Muscle,
+        LowerView::Hidden,
+    ];
+
+    /// The name a setup file and the command line use.
+    pub fn name(self) -> &'static str {
+        match self {
+            LowerView::Beats => "beats",
+            LowerView::Spectrum => "spectrum",
+            LowerView::Response => "response",
+            LowerView::Parts => "parts",
+            LowerView::Measure => "measure",
+            LowerView::Muscle => "emg",
+            LowerView::Hidden => "traces",
+        }
+    }
+
+    /// One line on what it shows.
+    pub fn describe(self) -> &'static str {
+        match self {
+            LowerView::Beats => "Averaged beat and RR tachogram.",
+            LowerView::Spectrum => "Running spectrum and mains measurement.",
+            LowerView::Response => "Magnitude, phase and group delay of the chain.",
+            LowerView::Parts => "The chain realised with standard parts.",
+            LowerView::Measure => "Measuring the built front end.",
+            LowerView::Muscle => {
+                "Surface EMG (switches the monitor to EMG: the 20–450 Hz chain and the EMG view)."
+            }
+            LowerView::Hidden => "Traces only.",
+        }
+    }
+}
+
 /// Unit of the trace axes.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
 pub enum TraceUnit {

@@ -186,17 +186,7 @@ pub fn run_udp(
                     }
                 });
                 frames.clear();
-                match fmt {
-                    Format::Binary => binary::decode_datagram(bytes, &mut frames, &mut wire_stats),
-                    Format::Text => {
-                        text.push(bytes, &mut frames);
-                        // A datagram is whole lines: a last line without its end is complete.
-                        if bytes.last().is_some_and(|&b| b != b'\n') {
-                            text.push(b"\n", &mut frames);
-                        }
-                        wire_stats = text.stats();
-                    }
-                }
+                decode(bytes, fmt, &mut text, &mut frames, &mut wire_stats);
                 let empty = frames.is_empty();
                 for f in frames.drain(..) {
                     reorder.push(f, now, &mut ordered);
@@ -250,6 +240,27 @@ pub fn run_udp(
             if !send_blocking(&out, b, stop) {
                 return;
             }
+        }
+    }
+}
+
+/// One datagram's frames, in its format.
+fn decode(
+    bytes: &[u8],
+    fmt: Format,
+    text: &mut ascii::Decoder,
+    frames: &mut Vec<crate::wire::Frame>,
+    wire_stats: &mut WireStats,
+) {
+    match fmt {
+        Format::Binary => binary::decode_datagram(bytes, frames, wire_stats),
+        Format::Text => {
+            text.push(bytes, frames);
+            // A datagram is whole lines: a last line without its end is complete.
+            if bytes.last().is_some_and(|&b| b != b'\n') {
+                text.push(b"\n", frames);
+            }
+            *wire_stats = text.stats();
         }
     }
 }

@@ -105,33 +105,7 @@ impl SourceSpec {
             }));
         }
         if let Some(rest) = text.strip_prefix("udp:") {
-            let (addr, from) = match rest.split_once("?from=") {
-                Some((a, f)) => (a, Some(f)),
-                None => (rest, None),
-            };
-            let bind: std::net::SocketAddr = match addr.parse::<u16>() {
-                Ok(port) => std::net::SocketAddr::from(([0, 0, 0, 0], port)),
-                Err(_) => addr.parse().map_err(|_| {
-                    err("expected udp:PORT or udp:ADDR:PORT with a numeric address")
-                })?,
-            };
-            let from = match from {
-                None => None,
-                Some(f) => Some(match f.parse::<std::net::SocketAddr>() {
-                    Ok(a) => super::net::Peer::Addr(a),
-                    Err(_) => super::net::Peer::Ip(
-                        f.parse()
-                            .map_err(|_| err("from= takes an IP address, or IP:PORT"))?,
-                    ),
-                }),
-            };
-            return Ok(SourceSpec::Udp(super::net::UdpSpec {
-                bind,
-                from,
-                fs_hz,
-                scale,
-                physical_to_uv: 1e3,
-            }));
+            return udp_spec(rest, fs_hz, scale).map_err(err);
         }
         if let Some(rest) = text.strip_prefix("tcp:") {
             let (rest, format) = strip_format(rest);
@@ -180,6 +154,41 @@ impl SourceSpec {
             physical_to_uv: 1e3,
         }))
     }
+}
+
+/// `udp:PORT` or `udp:ADDR:PORT`, with `?from=IP[:PORT]` to admit one sender only.
+fn udp_spec(
+    rest: &str,
+    fs_hz: Option<f64>,
+    scale: crate::scale::InputScale,
+) -> Result<SourceSpec, &'static str> {
+    let (addr, from) = match rest.split_once("?from=") {
+        Some((a, f)) => (a, Some(f)),
+        None => (rest, None),
+    };
+    let bind: std::net::SocketAddr = match addr.parse::<u16>() {
+        Ok(port) => std::net::SocketAddr::from(([0, 0, 0, 0], port)),
+        Err(_) => addr
+            .parse()
+            .map_err(|_| "expected udp:PORT or udp:ADDR:PORT with a numeric address")?,
+    };
+    let from = match from {
+        None => None,
+        Some(f) => Some(match f.parse::<std::net::SocketAddr>() {
+            Ok(a) => super::net::Peer::Addr(a),
+            Err(_) => super::net::Peer::Ip(
+                f.parse()
+                    .map_err(|_| "from= takes an IP address, or IP:PORT")?,
+            ),
+        }),
+    };
+    Ok(SourceSpec::Udp(super::net::UdpSpec {
+        bind,
+        from,
+        fs_hz,
+        scale,
+        physical_to_uv: 1e3,
+    }))
 }
 
 /// How fast a generated or replayed source runs.

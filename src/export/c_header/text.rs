@@ -92,7 +92,36 @@ fn comment(h: &mut String, sections: &[Section], info: &HeaderInfo) {
         );
     }
     let _ = writeln!(h, " *");
-    match info.format {
+    arithmetic_note(h, info.format);
+    let _ = writeln!(h, " *");
+    let _ = writeln!(
+        h,
+        " * Worst-case internal gain (largest |output| of each section for |input| <= 1, the"
+    );
+    let _ = writeln!(
+        h,
+        " * l1 norm of its impulse response from the chain input):"
+    );
+    for (i, g) in gains.iter().enumerate() {
+        let _ = writeln!(h, " *   section {i}: {g:.4}");
+    }
+    let _ = writeln!(
+        h,
+        " * Largest: {worst:.4}. Keep |input| below {:.4} of full scale to never saturate.",
+        1.0 / worst.max(1e-12)
+    );
+    let _ = writeln!(h, " *");
+    let _ = writeln!(
+        h,
+        " * Use: {p}_state s; {p}_init(&s); then y = {p}_process(&s, x) once per sample."
+    );
+    let _ = writeln!(h, " * Not a medical device; not for diagnosis.");
+    let _ = writeln!(h, " */");
+}
+
+/// What the format's arithmetic is, for the header's opening comment.
+fn arithmetic_note(h: &mut String, format: CFormat) {
+    match format {
         CFormat::F32 => {
             let _ = writeln!(
                 h,
@@ -108,7 +137,7 @@ fn comment(h: &mut String, sections: &[Section], info: &HeaderInfo) {
             );
         }
         CFormat::Q15 | CFormat::Q31 => {
-            if info.format == CFormat::Q15 {
+            if format == CFormat::Q15 {
                 let _ = writeln!(
                     h,
                     " * Format q15: int16_t samples in and out (Q1.15, full scale = 1.0). Inside, samples"
@@ -150,30 +179,6 @@ fn comment(h: &mut String, sections: &[Section], info: &HeaderInfo) {
             let _ = writeln!(h, " * (gcc, clang, Arm and IAR compilers do this).");
         }
     }
-    let _ = writeln!(h, " *");
-    let _ = writeln!(
-        h,
-        " * Worst-case internal gain (largest |output| of each section for |input| <= 1, the"
-    );
-    let _ = writeln!(
-        h,
-        " * l1 norm of its impulse response from the chain input):"
-    );
-    for (i, g) in gains.iter().enumerate() {
-        let _ = writeln!(h, " *   section {i}: {g:.4}");
-    }
-    let _ = writeln!(
-        h,
-        " * Largest: {worst:.4}. Keep |input| below {:.4} of full scale to never saturate.",
-        1.0 / worst.max(1e-12)
-    );
-    let _ = writeln!(h, " *");
-    let _ = writeln!(
-        h,
-        " * Use: {p}_state s; {p}_init(&s); then y = {p}_process(&s, x) once per sample."
-    );
-    let _ = writeln!(h, " * Not a medical device; not for diagnosis.");
-    let _ = writeln!(h, " */");
 }
 
 /// The coefficient table and the C code of the format.

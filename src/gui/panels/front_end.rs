@@ -65,28 +65,7 @@ fn edit(
             .small(),
         );
     }
-    if channels > 1 {
-        ui.horizontal(|ui| {
-            ui.label("Set for");
-            egui::ComboBox::from_id_salt("front-end-channel")
-                .selected_text(match p.editing {
-                    None => "every channel".to_string(),
-                    Some(k) => format!("ch{}", k + 1),
-                })
-                .show_ui(ui, |ui| {
-                    ui.selectable_value(&mut p.editing, None, "every channel");
-                    for k in 0..channels {
-                        ui.selectable_value(&mut p.editing, Some(k), format!("ch{}", k + 1));
-                    }
-                })
-                .response
-                .on_hover_text(
-                    "A stimulus channel and a front-end channel can have different scaling.",
-                );
-        });
-    } else {
-        p.editing = None;
-    }
+    channel_choice(ui, p, channels);
     let k = p.editing.unwrap_or(0);
     let mut fe = scale::for_channel(list, k).copied().unwrap_or_default();
     let before = fe;
@@ -156,6 +135,32 @@ fn edit(
         change.scaling = true;
     }
     change
+}
+
+/// Which channel the values below are for (every channel, or one of several).
+fn channel_choice(ui: &mut egui::Ui, p: &mut FrontEndPanel, channels: usize) {
+    if channels > 1 {
+        ui.horizontal(|ui| {
+            ui.label("Set for");
+            egui::ComboBox::from_id_salt("front-end-channel")
+                .selected_text(match p.editing {
+                    None => "every channel".to_string(),
+                    Some(k) => format!("ch{}", k + 1),
+                })
+                .show_ui(ui, |ui| {
+                    ui.selectable_value(&mut p.editing, None, "every channel");
+                    for k in 0..channels {
+                        ui.selectable_value(&mut p.editing, Some(k), format!("ch{}", k + 1));
+                    }
+                })
+                .response
+                .on_hover_text(
+                    "A stimulus channel and a front-end channel can have different scaling.",
+                );
+        });
+    } else {
+        p.editing = None;
+    }
 }
 
 fn adc_controls(ui: &mut egui::Ui, adc: &mut InputScale) {

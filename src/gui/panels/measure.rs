@@ -317,26 +317,7 @@ fn response(
                     pu.line(Line::new("measured − design", PlotPoints::new(diff)));
                 }
             });
-        Plot::new("measure-phase")
-            .show_background(false)
-            .grid_spacing(crate::gui::plot::GRID_SPACING)
-            .width(w)
-            .height(ui.available_height().max(120.0))
-            .x_axis_label("frequency (log10 Hz)")
-            .y_axis_label("phase (°)")
-            .show(ui, |pu| {
-                pu.points(Points::new("phase", PlotPoints::new(phase)).radius(1.5));
-            });
-        Plot::new("measure-delay")
-            .show_background(false)
-            .grid_spacing(crate::gui::plot::GRID_SPACING)
-            .width(w)
-            .height(ui.available_height().max(120.0))
-            .x_axis_label("frequency (log10 Hz)")
-            .y_axis_label("group delay (ms)")
-            .show(ui, |pu| {
-                pu.points(Points::new("group delay", PlotPoints::new(delay)).radius(1.5));
-            });
+        phase_and_delay(ui, phase, delay, w);
     });
     save_png(
         ui,
@@ -348,6 +329,30 @@ fn response(
         design.map(|d| (d, offset)),
         fs,
     );
+}
+
+/// The measured phase and group delay, side by side.
+fn phase_and_delay(ui: &mut egui::Ui, phase: Vec<[f64; 2]>, delay: Vec<[f64; 2]>, w: f32) {
+    Plot::new("measure-phase")
+        .show_background(false)
+        .grid_spacing(crate::gui::plot::GRID_SPACING)
+        .width(w)
+        .height(ui.available_height().max(120.0))
+        .x_axis_label("frequency (log10 Hz)")
+        .y_axis_label("phase (°)")
+        .show(ui, |pu| {
+            pu.points(Points::new("phase", PlotPoints::new(phase)).radius(1.5));
+        });
+    Plot::new("measure-delay")
+        .show_background(false)
+        .grid_spacing(crate::gui::plot::GRID_SPACING)
+        .width(w)
+        .height(ui.available_height().max(120.0))
+        .x_axis_label("frequency (log10 Hz)")
+        .y_axis_label("group delay (ms)")
+        .show(ui, |pu| {
+            pu.points(Points::new("group delay", PlotPoints::new(delay)).radius(1.5));
+        });
 }
 
 /// The stepped sine's gains over the design.

@@ -143,6 +143,30 @@ fn pick(
             .desired_width(200.0),
     )
     .on_hover_text("Device path of the board's serial port.");
+    line_settings(ui, p);
+    ui.horizontal(|ui| {
+        ui.label("Sample rate");
+        super::rate_choice(ui, "serial-rate", &mut p.rate_set, &mut p.fs_hz, "From the stream's `# fs=` line when it sends one, else estimated from when the frames arrive; or the rate you set.");
+    });
+    if ui
+        .add_enabled(!p.path.is_empty(), egui::Button::new("Connect"))
+        .on_hover_text("Read this port. If the device goes away the monitor keeps running and reopens it when it returns.")
+        .clicked()
+    {
+        req = Some(SourceRequest::Serial(SerialSpec {
+            path: p.path.clone(),
+            baud: p.baud,
+            format: p.format,
+            fs_hz: p.rate_set.then_some(p.fs_hz),
+            scale,
+            physical_to_uv: 1e3,
+        }));
+    }
+    req
+}
+
+/// The line speed and the wire format.
+fn line_settings(ui: &mut egui::Ui, p: &mut SourcePicker) {
     ui.horizontal(|ui| {
         egui::ComboBox::from_id_salt("serial-baud")
             .selected_text(format!("{} baud", p.baud))
@@ -170,25 +194,6 @@ fn pick(
             .response
             .on_hover_text("Wire format; auto detects it from the first bytes.");
     });
-    ui.horizontal(|ui| {
-        ui.label("Sample rate");
-        super::rate_choice(ui, "serial-rate", &mut p.rate_set, &mut p.fs_hz, "From the stream's `# fs=` line when it sends one, else estimated from when the frames arrive; or the rate you set.");
-    });
-    if ui
-        .add_enabled(!p.path.is_empty(), egui::Button::new("Connect"))
-        .on_hover_text("Read this port. If the device goes away the monitor keeps running and reopens it when it returns.")
-        .clicked()
-    {
-        req = Some(SourceRequest::Serial(SerialSpec {
-            path: p.path.clone(),
-            baud: p.baud,
-            format: p.format,
-            fs_hz: p.rate_set.then_some(p.fs_hz),
-            scale,
-            physical_to_uv: 1e3,
-        }));
-    }
-    req
 }
 
 #[cfg(test)]

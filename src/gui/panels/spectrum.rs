@@ -224,35 +224,12 @@ fn draw(
                     .width(1.5),
             );
         }
-        if let Some(r) = &frame.mains_raw {
-            let at = |f: f64| {
-                let k = (f / frame.raw.bin_hz).round() as usize;
-                frame.raw.density.get(k).map_or(FLOOR_DB, |&d| db(d))
-            };
-            let marks: Vec<[f64; 2]> = r.harmonics.iter().map(|h| [xf(h.hz), at(h.hz)]).collect();
-            pu.points(
-                Points::new("mains lines", PlotPoints::new(marks))
-                    .radius(4.0)
-                    .color(BEFORE_COLOUR),
-            );
-            for h in &r.harmonics {
-                let label = if h.order == 1 {
-                    format!("{:.2} Hz\n{:.1} µV", h.hz, h.rms_uv)
-                } else {
-                    format!("{:.1} µV", h.rms_uv)
-                };
-                pu.text(
-                    Text::new("", PlotPoint::new(xf(h.hz), at(h.hz) + 4.0), label)
-                        .color(BEFORE_COLOUR),
-                );
-            }
-        }
+        mains_marks(pu, frame, &xf);
     });
     control
 }
 
-/// The view's controls; a new Welch segment is sent to the DSP thread.
-/// The view's own settings; holding a "before" goes to the app (it is the app's state).
+/// The view's own settings (a new Welch segment goes to the DSP thread); holding a "before" goes to the app (it is the app's state).
 fn controls(ui: &mut egui::Ui, view: &mut SpectrumView) -> Option<Action> {
     let mut control = None;
     ui.horizontal(|ui| {
@@ -284,6 +261,31 @@ fn controls(ui: &mut egui::Ui, view: &mut SpectrumView) -> Option<Action> {
         }
     });
     control
+}
+
+/// The measured mains lines marked on the estimate before the chain, with their RMS.
+fn mains_marks(pu: &mut egui_plot::PlotUi, frame: &SpectrumFrame, xf: &dyn Fn(f64) -> f64) {
+    let Some(r) = &frame.mains_raw else { return };
+    let at = |f: f64| {
+        let k = (f / frame.raw.bin_hz).round() as usize;
+        frame.raw.density.get(k).map_or(FLOOR_DB, |&d| db(d))
+    };
+    let marks: Vec<[f64; 2]> = r.harmonics.iter().map(|h| [xf(h.hz), at(h.hz)]).collect();
+    pu.points(
+        Points::new("mains lines", PlotPoints::new(marks))
+            .radius(4.0)
+            .color(BEFORE_COLOUR),
+    );
+    for h in &r.harmonics {
+        let label = if h.order == 1 {
+            format!("{:.2} Hz\n{:.1} µV", h.hz, h.rms_uv)
+        } else {
+            format!("{:.1} µV", h.rms_uv)
+        };
+        pu.text(
+            Text::new("", PlotPoint::new(xf(h.hz), at(h.hz) + 4.0), label).color(BEFORE_COLOUR),
+        );
+    }
 }
 
 /// The mains report and, with a spectrum held, the change at each line.

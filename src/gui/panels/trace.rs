@@ -204,23 +204,33 @@ fn draw(
             cursor_lines(pu, &state.cursors, factor);
             pu.pointer_coordinate()
         });
-        let r = &resp.response;
-        if r.clicked()
-            && let Some(p) = resp.inner
-        {
-            // The cursor's time is on the axis as drawn (sweep time in sweep mode).
-            events.push(TraceEvent::Place([p.x, p.y / factor]));
-        }
-        let scrolled = r.hovered() && ui.input(|i| i.smooth_scroll_delta != egui::Vec2::ZERO);
-        if r.dragged() || scrolled {
-            events.push(TraceEvent::LeaveLive);
-        }
+        events.extend(pointer_events(ui, &resp, factor));
     }
     events
 }
 
-/// The cursors' readout and the button that clears them.
-/// True when "Clear cursors" was clicked.
+/// A click places a cursor (at the time on the axis as drawn: sweep time in sweep mode); a
+/// drag or a scroll leaves the live view.
+fn pointer_events(
+    ui: &egui::Ui,
+    resp: &egui_plot::PlotResponse<Option<egui_plot::PlotPoint>>,
+    factor: f64,
+) -> Vec<TraceEvent> {
+    let mut out = Vec::new();
+    let r = &resp.response;
+    if r.clicked()
+        && let Some(p) = resp.inner
+    {
+        out.push(TraceEvent::Place([p.x, p.y / factor]));
+    }
+    let scrolled = r.hovered() && ui.input(|i| i.smooth_scroll_delta != egui::Vec2::ZERO);
+    if r.dragged() || scrolled {
+        out.push(TraceEvent::LeaveLive);
+    }
+    out
+}
+
+/// The cursors' readout and the button that clears them; true when it was clicked.
 fn readout_row(ui: &mut egui::Ui, r: &str) -> bool {
     ui.horizontal(|ui| {
         ui.label(egui::RichText::new(r).monospace().strong())

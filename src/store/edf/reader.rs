@@ -65,29 +65,7 @@ pub(super) fn parse_header(bytes: &[u8], path: &Path) -> Result<Header, StoreErr
             bytes.len()
         )));
     }
-    let kind = if bytes[0] == 0xFF && &bytes[1..8] == b"BIOSEMI" {
-        EdfKind::Bdf
-    } else if text(&bytes[0..8]) == "0" {
-        EdfKind::Edf
-    } else {
-        return Err(bad(
-            "not an EDF or BDF file (the version field is neither \"0\" nor 0xFF BIOSEMI)".into(),
-        ));
-    };
-    let ext = crate::store::extension_of(path);
-    match (kind, ext.as_str()) {
-        (EdfKind::Bdf, "edf") => {
-            return Err(bad(
-                "the version field says BDF (0xFF \"BIOSEMI\") but the name ends in .edf: a BDF file is named .bdf".into(),
-            ));
-        }
-        (EdfKind::Edf, "bdf") => {
-            return Err(bad(
-                "the version field says EDF (\"0\") but the name ends in .bdf: an EDF file is named .edf".into(),
-            ));
-        }
-        _ => {}
-    }
+    let kind = kind_of(bytes, path).map_err(bad)?;
     // Each field as the EDF specification defines it (Kemp et al. 1992; BDF: BioSemi's format
     // description; docs/REFERENCES.md §6): whole numbers where it says so, and a range that the
     // field's 8 characters can write without an exponent.
@@ -138,57 +116,22 @@ pub(super) fn parse_header(bytes: &[u8], path: &Path) -> Result<Header, StoreErr
     let dmaxs = column(8);
     let _prefilter = column(80);
     let sprs = column(8);
-    let (dlo, dhi) = kind.digital_range();
     let mut signals = Vec::with_capacity(ns);
     for i in 0..ns {
-        let at = |e: String| bad(format!("signal {} ({}): {e}", i + 1, labels[i]));
-        let pmin = real_field(&pmins[i], "physical minimum").map_err(at)?;
-        let pmax = real_field(&pmaxs[i], "physical maximum").map_err(at)?;
-        let dmin = whole_field(&dmins[i], "digital minimum").map_err(at)?;
-        let dmax = whole_field(&dmaxs[i], "digital maximum").map_err(at)?;
-        for (v, name) in [(dmin, "digital minimum"), (dmax, "digital maximum")] {
-            if v < i64::from(dlo) || v > i64::from(dhi) {
-                return Err(at(format!(
-                    "'{name}' {v} is outside the format's {dlo}…{dhi}"
-                )));
-            }
-        }
-        if dmax <= dmin {
-            return Err(at(format!(
-                "'digital maximum' {dmax} is not above 'digital minimum' {dmin}"
-            )));
-        }
-        if pmax == pmin {
-            return Err(at(format!(
-                "'physical minimum' and 'physical maximum' are both {}",
-                crate::numeric::short(pmin)
-            )));
-        }
-        let spr = whole_field(&sprs[i], "samples per record").map_err(at)?;
-        if spr < 1 {
-            return Err(at(format!(
-                "'samples per record' is {spr}: expected 1 or more"
-            )));
-        }
-        let rate = spr as f64 / duration;
-        if rate > MAX_RATE_HZ {
-            return Err(at(format!(
-                "{spr} samples per {} s record is {} Hz, above the {} Hz any biopotential converter runs at",
-                crate::numeric::short(duration),
-                crate::numeric::short(rate),
-                crate::numeric::short(MAX_RATE_HZ)
-            )));
-        }
+        let fields = SignalFields {
+            pmin: &pmins[i],
+            pmax: &pmaxs[i],
+            dmin: &dmins[i],
+            dmax: &dmaxs[i],
+            spr: &sprs[i],
+        };
+        let scaled = signal_scaling(&fields, kind, duration)
+            .map_err(|e| bad(format!("signal {} ({}): {e}", i + 1, labels[i])))?;
         signals.push(Signal {
             label: labels[i].clone(),
             dimension: dims[i].clone(),
-            scaling: Scaling {
-                pmin,
-                pmax,
-                dmin: dmin as i32,
-                dmax: dmax as i32,
-            },
-            spr: spr as usize,
+            scaling: scaled.0,
+            spr: scaled.1,
         });
     }
     let count = count as f64;
@@ -199,6 +142,102 @@ pub(super) fn parse_header(bytes: &[u8], path: &Path) -> Result<Header, StoreErr
         duration,
         signals,
     })
+}
+
+/// EDF or BDF, from the version field, which must agree with the file's extension.
+fn kind_of(bytes: &[u8], path: &Path) -> Result<EdfKind, String> {
+    let kind = if bytes[0] == 0xFF && &bytes[1..8] == b"BIOSEMI" {
+        EdfKind::Bdf
+    } else if text(&bytes[0..8]) == "0" {
+        EdfKind::Edf
+    } else {
+        return Err(
+            "not an EDF or BDF file (the version field is neither \"0\" nor 0xFF BIOSEMI)".into(),
+        );
+    };
+    match (kind, crate::store::extension_of(path).as_str()) {
+        (EdfKind::Bdf, "edf") => Err(
+            "the version field says BDF (0xFF \"BIOSEMI\") but the name ends in .edf: a BDF file is named .bdf".into(),
+        ),
+        (EdfKind::Edf, "bdf") => Err(
+            "the version field says EDF (\"0\") but the name ends in .bdf: an EDF file is named .edf".into(),
+        ),
+        _ => Ok(kind),
+    }
+}
+
+/// One signal's header fields as written.
+struct SignalFields<'a> {
+    pmin: &'a str,
+    pmax: &'a str,
+    dmin: &'a str,
+    dmax: &'a str,
+    spr: &'a str,
+}
+
+/// A signal's scaling and samples per record, each field checked as the specification says.
+fn signal_scaling(
+    f: &SignalFields,
+    kind: EdfKind,
+    duration: f64,
+) -> Result<(Scaling, usize), String> {
+    let (dlo, dhi) = kind.digital_range();
+    let pmin = real_field(f.pmin, "physical minimum")?;
+    let pmax = real_field(f.pmax, "physical maximum")?;
+    let dmin = whole_field(f.dmin, "digital minimum")?;
+    let dmax = whole_field(f.dmax, "digital maximum")?;
+    for (v, name) in [(dmin, "digital minimum"), (dmax, "digital maximum")] {
+        if v < i64::from(dlo) || v > i64::from(dhi) {
+            return Err(format!("'{name}' {v} is outside the format's {dlo}…{dhi}"));
+        }
+    }
+    if dmax <= dmin {
+        return Err(format!(
+            "'digital maximum' {dmax} is not above 'digital minimum' {dmin}"
+        ));
+    }
+    if pmax == pmin {
+        return Err(format!(
+            "'physical minimum' and 'physical maximum' are both {}",
+            crate::numeric::short(pmin)
+        ));
+    }
+    let spr = whole_field(f.spr, "samples per record")?;
+    if spr < 1 {
+        return Err(format!("'samples per record' is {spr}: expected 1 or more"));
+    }
+    let rate = spr as f64 / duration;
+    if rate > MAX_RATE_HZ {
+        return Err(format!(
+            "{spr} samples per {} s record is {} Hz, above the {} Hz any biopotential converter runs at",
+            crate::numeric::short(duration),
+            crate::numeric::short(rate),
+            crate::numeric::short(MAX_RATE_HZ)
+        ));
+    }
+    let scaling = Scaling {
+        pmin,
+        pmax,
+        dmin: dmin as i32,
+        dmax: dmax as i32,
+    };
+    Ok((scaling, spr as usize))
+}
+
+/// Where the file marks the end of its data (the last record padded), the channels end; the
+/// marker and the padding note are the file's own bookkeeping, not events.
+fn cut_at_data_end(channels: &mut [Vec<f64>], events: &mut Vec<crate::store::Event>, fs_hz: f64) {
+    if let Some(end) = events
+        .iter()
+        .find(|e| e.text == DATA_END)
+        .map(|e| e.onset_s)
+    {
+        let n = (end * fs_hz).round().max(0.0) as usize;
+        for c in channels.iter_mut() {
+            c.truncate(n);
+        }
+        events.retain(|e| e.text != DATA_END && !e.text.starts_with(PADDING));
+    }
 }
 
 /// The highest signal rate a file may claim, Hz.
@@ -382,18 +421,7 @@ pub fn read_group(path: &Path, pick: Option<usize>) -> Result<Recording, StoreEr
         sig_offset += s.spr * width;
     }
     let fs_hz = spr as f64 / duration;
-    if let Some(end) = events
-        .iter()
-        .find(|e| e.text == DATA_END)
-        .map(|e| e.onset_s)
-    {
-        let n = (end * fs_hz).round().max(0.0) as usize;
-        for c in &mut channels {
-            c.truncate(n);
-        }
-        // The end marker and the padding note are the file's own bookkeeping, not events.
-        events.retain(|e| e.text != DATA_END && !e.text.starts_with(PADDING));
-    }
+    cut_at_data_end(&mut channels, &mut events, fs_hz);
     Ok(Recording {
         fs_hz,
         names,
