@@ -255,6 +255,13 @@ fn setup_save_and_open_restore_the_chain_and_view() {
     h.run_steps(1);
     h.get_by_role_and_label(Role::Button, "Open").click();
     h.run_steps(2);
+    // Opening runs on the job runner too.
+    let deadline = Instant::now() + Duration::from_secs(10);
+    while h.query_by_label_contains("loaded ").is_none() {
+        assert!(Instant::now() < deadline, "setup open did not report");
+        h.run_steps(1);
+        std::thread::sleep(Duration::from_millis(20));
+    }
     assert_eq!(h.state().state.settings.setup.chain.lowpass.corner_hz, 35.0);
     assert_eq!(
         h.state().state.settings.setup.view.theme,
