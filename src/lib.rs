@@ -48,6 +48,7 @@ pub mod conform;
 pub mod dsp;
 pub mod export;
 pub mod gui;
+pub mod leads;
 pub mod measure;
 pub mod msg;
 pub mod numeric;
