@@ -82,7 +82,10 @@ impl LeadSet {
 
     /// The output leads' names.
     pub fn output_names(self) -> Vec<String> {
-        self.outputs().iter().map(|&k| TWELVE[k].to_string()).collect()
+        self.outputs()
+            .iter()
+            .map(|&k| TWELVE[k].to_string())
+            .collect()
     }
 
     /// Checks that a source with `channels` channels has what this set needs.
@@ -133,14 +136,7 @@ impl LeadSet {
             LeadSet::Limb2 | LeadSet::Leads8 => (x[0], x[1]),
             LeadSet::Electrodes9 => (x[1] - x[0], x[2] - x[0]),
         };
-        out.extend([
-            i,
-            ii,
-            ii - i,
-            -(i + ii) / 2.0,
-            i - ii / 2.0,
-            ii - i / 2.0,
-        ]);
+        out.extend([i, ii, ii - i, -(i + ii) / 2.0, i - ii / 2.0, ii - i / 2.0]);
         match self {
             LeadSet::Limb2 => {}
             LeadSet::Leads8 => out.extend_from_slice(&x[2..8]),
@@ -199,7 +195,12 @@ pub fn axis_words(deg: f64) -> &'static str {
 
 /// The frontal axis from leads I and aVF (µV at `fs`) over the beats at `r_peaks` (samples).
 /// `None` with no beat whose window lies inside both signals, or when both areas vanish.
-pub fn frontal_axis(lead_i: &[f64], lead_avf: &[f64], r_peaks: &[usize], fs: f64) -> Option<FrontalAxis> {
+pub fn frontal_axis(
+    lead_i: &[f64],
+    lead_avf: &[f64],
+    r_peaks: &[usize],
+    fs: f64,
+) -> Option<FrontalAxis> {
     let ms = |m: f64| (m * 1e-3 * fs).round() as usize;
     let (before, after, level) = (ms(50.0), ms(70.0), ms(20.0).max(1));
     let n = lead_i.len().min(lead_avf.len());
@@ -213,7 +214,11 @@ pub fn frontal_axis(lead_i: &[f64], lead_avf: &[f64], r_peaks: &[usize], fs: f64
         }
         let net = |x: &[f64]| {
             let base = x[start..start + level].iter().sum::<f64>() / level as f64;
-            x[start + level..r + after].iter().map(|v| v - base).sum::<f64>() / fs
+            x[start + level..r + after]
+                .iter()
+                .map(|v| v - base)
+                .sum::<f64>()
+                / fs
         };
         ai += net(lead_i);
         af += net(lead_avf);
@@ -242,7 +247,11 @@ pub fn electrodes_off(set: LeadSet, at_rail: &[bool], mains_rms_uv: &[f64]) -> V
         return Vec::new();
     }
     let names = set.inputs();
-    let mut sorted: Vec<f64> = mains_rms_uv.iter().copied().filter(|v| v.is_finite()).collect();
+    let mut sorted: Vec<f64> = mains_rms_uv
+        .iter()
+        .copied()
+        .filter(|v| v.is_finite())
+        .collect();
     sorted.sort_by(f64::total_cmp);
     let median = sorted.get(sorted.len() / 2).copied().unwrap_or(0.0);
     names
@@ -282,7 +291,9 @@ mod tests {
     /// LL = 1.3 mV, V1…V6 = 0.2…0.7 mV.
     #[test]
     fn leads_from_electrodes_match_a_hand_computation() {
-        let x = [100.0, 900.0, 1300.0, 200.0, 300.0, 400.0, 500.0, 600.0, 700.0];
+        let x = [
+            100.0, 900.0, 1300.0, 200.0, 300.0, 400.0, 500.0, 600.0, 700.0,
+        ];
         let mut out = Vec::new();
         LeadSet::Electrodes9.derive(&x, &mut out);
         // By hand: I = 900 − 100 = 800; II = 1300 − 100 = 1200; III = 1300 − 900 = 400;
@@ -325,13 +336,22 @@ mod tests {
 
     #[test]
     fn a_files_names_choose_the_set_and_the_channels() {
-        let names: Vec<String> = ["time", "ECG II", "ECG I"].iter().map(|s| s.to_string()).collect();
-        assert_eq!(LeadSet::from_names(&names), Some((LeadSet::Limb2, vec![2, 1])));
+        let names: Vec<String> = ["time", "ECG II", "ECG I"]
+            .iter()
+            .map(|s| s.to_string())
+            .collect();
+        assert_eq!(
+            LeadSet::from_names(&names),
+            Some((LeadSet::Limb2, vec![2, 1]))
+        );
         let names: Vec<String> = ["RA", "LA", "LL", "V1", "V2", "V3", "V4", "V5", "V6"]
             .iter()
             .map(|s| s.to_string())
             .collect();
-        assert_eq!(LeadSet::from_names(&names).map(|s| s.0), Some(LeadSet::Electrodes9));
+        assert_eq!(
+            LeadSet::from_names(&names).map(|s| s.0),
+            Some(LeadSet::Electrodes9)
+        );
         let names: Vec<String> = ["ch1", "ch2"].iter().map(|s| s.to_string()).collect();
         assert_eq!(LeadSet::from_names(&names), None);
     }
@@ -365,10 +385,16 @@ mod tests {
         let rails = [false; 9];
         let mut hum = [3.0; 9];
         hum[1] = 900.0;
-        assert_eq!(electrodes_off(LeadSet::Electrodes9, &rails, &hum), vec!["LA"]);
+        assert_eq!(
+            electrodes_off(LeadSet::Electrodes9, &rails, &hum),
+            vec!["LA"]
+        );
         let mut rails = [false; 9];
         rails[2] = true;
-        assert_eq!(electrodes_off(LeadSet::Electrodes9, &rails, &[3.0; 9]), vec!["LL"]);
+        assert_eq!(
+            electrodes_off(LeadSet::Electrodes9, &rails, &[3.0; 9]),
+            vec!["LL"]
+        );
         assert!(electrodes_off(LeadSet::Leads8, &rails, &hum).is_empty());
     }
 }

@@ -17,6 +17,7 @@ fn main() -> ExitCode {
         Some(Command::Filter(a)) => leadline::cli::filter::run(&a).map(|_| ()),
         Some(Command::Beats(a)) => leadline::cli::beats::run(&a).map(|_| ()),
         Some(Command::Emg(a)) => leadline::cli::emg::run(&a),
+        Some(Command::Leads(a)) => leadline::cli::leads::run(&a),
         Some(Command::Sound(a)) => leadline::cli::sound::run(&a),
         Some(Command::Spectrum(a)) => leadline::cli::spectrum::run(&a),
         Some(Command::Parts(a)) => leadline::cli::parts::run(&a),

@@ -450,3 +450,116 @@ pub fn signals_out(rec: &crate::store::Recording) -> Vec<SignalOut> {
 #[derive(Debug, thiserror::Error)]
 #[error("{0}")]
 pub struct BadInput(pub String);
+
+/// What a recording's channels are, for the commands that can derive the twelve leads.
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct LeadArgs {
+    /// The channels are leads or electrodes, in this order: limb2 (I, II), leads8 (I, II,
+    /// V1–V6) or electrodes9 (RA, LA, LL, V1–V6); the standard leads are derived from them
+    /// (Einthoven, Goldberger, Wilson). Not needed when the file's channel names say it.
+    #[arg(long, value_enum, value_name = "SET")]
+    pub lead_set: Option<crate::leads::LeadSet>,
+}
+
+impl LeadArgs {
+    /// Reads `src` and picks `channel`: with a lead set (given, or spelled by the file's channel
+    /// names) the recording's channels become the derived leads first, and `channel` names one
+    /// of them (I, II, III, aVR, aVL, aVF, V1–V6, or an index).
+    ///
+    /// # Errors
+    /// As [`InputArgs::load`]; a lead set that needs more channels than the file has, named
+    /// with both numbers.
+    pub fn load(
+        &self,
+        src: &InputArgs,
+        channel: &str,
+    ) -> anyhow::Result<(crate::store::Recording, usize)> {
+        self.load_leads(src, channel).map(|(rec, ch, _)| (rec, ch))
+    }
+
+    /// As [`Self::load`], with the lead set the channels were read as (`None`: not leads).
+    ///
+    /// # Errors
+    /// As [`Self::load`].
+    pub fn load_leads(
+        &self,
+        src: &InputArgs,
+        channel: &str,
+    ) -> anyhow::Result<(
+        crate::store::Recording,
+        usize,
+        Option<crate::leads::LeadSet>,
+    )> {
+        let (rec, ch) = match self.lead_set {
+            Some(_) => src.load("0")?,
+            None => match src.load(channel) {
+                Ok(v) => v,
+                // A derived lead's name (aVF) is not in a file of leads I, II, …
+                Err(e)
+                    if crate::leads::TWELVE
+                        .iter()
+                        .any(|n| n.eq_ignore_ascii_case(channel)) =>
+                {
+                    src.load("0").map_err(|_| e)?
+                }
+                Err(e) => return Err(e),
+            },
+        };
+        let (rec, set) = derive_leads(rec, self.lead_set)?;
+        let Some(set) = set else {
+            return Ok((rec, ch, None));
+        };
+        eprintln!(
+            "{}: channels read as {}; the leads {} are derived",
+            src.input.display(),
+            set.describe(),
+            set.output_names().join(", ")
+        );
+        let ch = rec.find_signal(channel).map_err(BadInput)?;
+        Ok((rec, ch, Some(set)))
+    }
+}
+
+/// The recording with its channels replaced by the leads derived from them, when `set` is given
+/// or the channel names spell a set (with the set); else the recording as it was.
+///
+/// # Errors
+/// A set that needs more channels than the recording has (bad input, both numbers named).
+pub fn derive_leads(
+    rec: crate::store::Recording,
+    set: Option<crate::leads::LeadSet>,
+) -> anyhow::Result<(crate::store::Recording, Option<crate::leads::LeadSet>)> {
+    let (set, picks) = match set {
+        Some(s) => {
+            s.check(rec.channels.len())
+                .map_err(|e| BadInput(e.to_string()))?;
+            (s, (0..s.inputs().len()).collect())
+        }
+        None => match crate::leads::LeadSet::from_names(&rec.names) {
+            Some(found) => found,
+            None => return Ok((rec, None)),
+        },
+    };
+    let n = rec.len();
+    let outputs = set.outputs().len();
+    let mut leads = vec![Vec::with_capacity(n); outputs];
+    let (mut frame, mut out) = (Vec::with_capacity(picks.len()), Vec::with_capacity(outputs));
+    for i in 0..n {
+        frame.clear();
+        frame.extend(picks.iter().map(|&k: &usize| rec.channels[k][i]));
+        out.clear();
+        set.derive(&frame, &mut out);
+        for (l, v) in leads.iter_mut().zip(&out) {
+            l.push(*v);
+        }
+    }
+    Ok((
+        crate::store::Recording {
+            names: set.output_names(),
+            channels: leads,
+            signals: Vec::new(),
+            ..rec
+        },
+        Some(set),
+    ))
+}

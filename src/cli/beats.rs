@@ -17,6 +17,8 @@ use std::fmt::Write as _;
 pub struct BeatsArgs {
     #[command(flatten)]
     pub src: InputArgs,
+    #[command(flatten)]
+    pub leads: LeadArgs,
     /// Signal to analyse: 0-based index or name (every signal of an EDF/BDF, whatever its rate).
     #[arg(long, default_value = "0", value_name = "K|NAME")]
     pub channel: String,
@@ -53,7 +55,7 @@ struct Summary {
 /// # Errors
 /// A bad or unreadable input, a rate outside 125–2000 Hz, an unwritable output.
 pub fn run(a: &BeatsArgs) -> Result<usize> {
-    let (rec, ch) = a.src.load(&a.channel)?;
+    let (rec, ch) = a.leads.load(&a.src, &a.channel)?;
     let x = &rec.channels[ch];
     // The monitor's readout, fed as the monitor feeds it (10 ms blocks; any split gives the
     // same result).

@@ -18,6 +18,8 @@ pub struct FilterArgs {
     #[command(flatten)]
     pub src: InputArgs,
     #[command(flatten)]
+    pub leads: LeadArgs,
+    #[command(flatten)]
     pub chain: ChainArgs,
     /// Output file; its extension chooses the format (.csv, .edf, .bdf, .f32, .f64). With no
     /// filter flags the data pass unchanged, so this converts between formats.
@@ -87,7 +89,7 @@ fn auto_notch(rec: &store::Recording, notch: crate::dsp::Notch) -> Result<crate:
 /// # Errors
 /// An unreadable or malformed input (bad input), a chain that cannot be built, a failed write.
 pub fn run(a: &FilterArgs) -> Result<usize> {
-    let (mut rec, _) = a.src.load("0")?;
+    let (mut rec, _) = a.leads.load(&a.src, "0")?;
     let setup = a.src.setup()?;
     a.chain.check_notch(true)?;
     let mut settings = match (&setup, a.chain.any_stage()) {

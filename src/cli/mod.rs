@@ -7,6 +7,7 @@ pub mod conform;
 pub mod emg;
 pub mod export_c;
 pub mod filter;
+pub mod leads;
 pub mod measure;
 pub mod monitor;
 pub mod num;
@@ -142,6 +143,10 @@ pub enum Command {
     /// Write the chain as a self-contained C99 header (float32, Q15 or Q31) for firmware.
     #[command(name = "export-c")]
     ExportC(ExportCArgs),
+    /// The standard leads of a recording of leads or electrode potentials (EDF+/BDF+/CSV), with
+    /// the frontal QRS axis and the beats on lead II (JSON).
+    #[command(after_help = CAUTION_HELP)]
+    Leads(leads::LeadsArgs),
     /// Surface EMG of a recording: envelope and moving RMS (CSV), contractions with their
     /// amplitude, mean and median frequency, the fatigue trend and %MVC (JSON).
     #[command(after_help = CAUTION_HELP)]

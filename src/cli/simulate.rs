@@ -125,6 +125,15 @@ pub struct SimulateArgs {
     /// Fall of the muscle's upper spectral corner per contraction, % (fatigue).
     #[arg(value_parser = num::real(0.0, 50.0, "%"), long, default_value_t = 0.0, value_name = "PCT")]
     pub fatigue: f64,
+    /// A board of many leads, the heart as a dipole seen by each (after Sameni et al. 2007):
+    /// 2 (leads I, II), 8 (I, II, V1–V6), 9 (electrodes RA, LA, LL, V1–V6) channels as the board
+    /// sends them, or 12: the twelve standard leads derived from the eight (CSV only, columns I …
+    /// V6). Overrides --channels.
+    #[arg(long, value_name = "N", value_parser = ["2", "8", "9", "12"])]
+    pub leads: Option<String>,
+    /// The frontal QRS axis of the many-lead heart, degrees (−180…180).
+    #[arg(value_parser = num::real(-180.0, 180.0, "°"), long, default_value_t = 60.0, value_name = "DEG")]
+    pub axis_deg: f64,
     /// Output format.
     #[arg(long, value_enum, default_value_t = SimFormat::Csv)]
     pub format: SimFormat,
@@ -150,11 +159,25 @@ pub struct SimulateArgs {
     pub tcp_listen: Option<u16>,
 }
 
+/// The board's lead set for `--leads` (12 is derived from the eight leads).
+fn lead_set(a: &SimulateArgs) -> Option<crate::leads::LeadSet> {
+    use crate::leads::LeadSet;
+    match a.leads.as_deref() {
+        Some("2") => Some(LeadSet::Limb2),
+        Some("8" | "12") => Some(LeadSet::Leads8),
+        Some("9") => Some(LeadSet::Electrodes9),
+        _ => None,
+    }
+}
+
 /// Simulator settings from the command line.
 pub fn settings(a: &SimulateArgs) -> SynthSettings {
+    let heart_leads = lead_set(a);
     SynthSettings {
         fs_hz: a.fs,
-        channels: a.channels,
+        channels: heart_leads.map_or(a.channels, |s| s.inputs().len()),
+        heart_leads,
+        axis_deg: a.axis_deg,
         seed: a.seed,
         hr_bpm: a.hr,
         hrv_bpm: a.hrv,
@@ -179,6 +202,15 @@ pub fn settings(a: &SimulateArgs) -> SynthSettings {
             ..Default::default()
         }),
         ..SynthSettings::default()
+    }
+}
+
+/// The CSV columns: the leads' or electrodes' names with --leads, else ch1, ch2, …
+fn column_names(a: &SimulateArgs, channels: usize) -> Vec<String> {
+    match (a.leads.as_deref(), lead_set(a)) {
+        (Some("12"), _) => crate::leads::TWELVE.iter().map(|s| s.to_string()).collect(),
+        (_, Some(set)) => set.inputs().iter().map(|s| s.to_string()).collect(),
+        _ => (1..=channels).map(|k| format!("ch{k}")).collect(),
     }
 }
 
@@ -210,11 +242,19 @@ pub fn write_stream(a: &SimulateArgs, out: &mut dyn Write) -> Result<u64> {
         SimFormat::Binary => {}
         SimFormat::Csv => {
             text.push_str("time_s");
-            for k in 1..=n_ch {
-                let _ = write!(text, ",ch{k}");
+            for name in column_names(a, n_ch) {
+                let _ = write!(text, ",{name}");
             }
             text.push('\n');
         }
+    }
+    let twelve = a.leads.as_deref() == Some("12");
+    if twelve && (a.format != SimFormat::Csv || a.units == Units::Counts) {
+        return Err(super::BadInput(
+            "--leads 12 writes the derived leads as CSV in volts; a board sends --leads 8 or 9"
+                .into(),
+        )
+        .into());
     }
     let mut buf = Vec::new();
     let mut bin = Vec::new();
@@ -231,10 +271,19 @@ pub fn write_stream(a: &SimulateArgs, out: &mut dyn Write) -> Result<u64> {
             }
             SimFormat::Ascii => ascii::encode_frames(&buf, n_ch, &mut text),
             SimFormat::Csv => {
+                let mut derived = Vec::new();
                 for (i, frame) in buf.chunks_exact(n_ch).enumerate() {
                     text.push_str(&time_text(n + i as u64, s.fs_hz));
-                    for &c in frame {
-                        let uv = scale.counts_to_uv(c);
+                    let values: &[f64] = if twelve {
+                        let uv: Vec<f64> = frame.iter().map(|&c| scale.counts_to_uv(c)).collect();
+                        derived.clear();
+                        crate::leads::LeadSet::Leads8.derive(&uv, &mut derived);
+                        &derived
+                    } else {
+                        frame
+                    };
+                    for &c in values {
+                        let uv = if twelve { c } else { scale.counts_to_uv(c) };
                         let _ = match a.units {
                             Units::Counts => write!(text, ",{}", c as i64),
                             Units::Volts => write!(text, ",{:.10}", uv * 1e-6),

@@ -19,6 +19,8 @@ use std::fmt::Write as _;
 pub struct SpectrumArgs {
     #[command(flatten)]
     pub src: InputArgs,
+    #[command(flatten)]
+    pub leads: LeadArgs,
     /// Welch segment length (power of two, 256–16384); default about 4 s of signal.
     #[arg(value_parser = num::whole::<usize>(256, 16_384), long, value_name = "N")]
     pub segment: Option<usize>,
@@ -55,7 +57,7 @@ struct Report<'a> {
 /// # Errors
 /// A bad or unreadable input (exit 2 for bad input), or an output that cannot be written.
 pub fn run(a: &SpectrumArgs) -> Result<()> {
-    let (rec, ch) = a.src.load(&a.channel)?;
+    let (rec, ch) = a.leads.load(&a.src, &a.channel)?;
     let x = &rec.channels[ch];
     let segment = a.segment.unwrap_or_else(|| {
         segment_for(rec.fs_hz, 4.0)

@@ -225,6 +225,11 @@ impl EcgModel {
         self.t_s += h;
     }
 
+    /// The cardiac phase now, rad (R at 0): what drives the dipole of the many-lead model.
+    pub fn phase(&self) -> f64 {
+        self.state[1].atan2(self.state[0])
+    }
+
     /// Advances one output sample and returns the ECG in volts at the electrodes, and whether the
     /// R event (θ crossing 0) happened during it.
     pub fn next_sample(&mut self) -> (f64, bool) {

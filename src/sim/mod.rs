@@ -1,8 +1,9 @@
 //! The simulator's signal models, apart from any I/O: the heart ([`ecg_model`], the McSharry
 //! model; [`rhythm`], the standards' irregular rhythms on a schedule), a contracting muscle
-//! ([`muscle`]), and the modelled bench and board that turn them into ADC counts ([`synth`]).
+//! ([`muscle`]), the heart as a dipole seen by many leads ([`dipole`]), and the modelled bench and board that turn them into ADC counts ([`synth`]).
 //! The thread that streams them is a source like any other (`source::run`).
 
+pub mod dipole;
 pub mod ecg_model;
 pub mod muscle;
 pub mod rhythm;

@@ -15,6 +15,7 @@ use std::f64::consts::{SQRT_2, TAU};
 
 use serde::{Deserialize, Serialize};
 
+use super::dipole::Dipole;
 use super::ecg_model::EcgModel;
 use crate::rng::Rng;
 use crate::scale::InputScale;
@@ -47,6 +48,9 @@ pub enum SynthError {
     /// 1 to 8 channels.
     #[error("{0} channels requested; the simulator makes 1–8")]
     Channels(usize),
+    /// The many-lead heart fixes the channels and needs the sinus model.
+    #[error("{0}")]
+    Leads(String),
     /// Heart rate outside the simulated range.
     #[error("heart rate {0} bpm is outside 20–300 bpm")]
     HeartRate(f64),
@@ -156,6 +160,11 @@ pub struct SynthSettings {
     /// A contracting muscle under the electrodes (surface EMG), with the heart's signal
     /// reduced to its set share; `None` for an ECG.
     pub muscle: Option<MuscleSettings>,
+    /// A board of many leads: the heart as a dipole projected on each channel's lead
+    /// (`sim::dipole`); the channels are then the set's inputs. `None`: one lead scaled per channel.
+    pub heart_leads: Option<crate::leads::LeadSet>,
+    /// The frontal QRS axis of the many-lead heart, degrees.
+    pub axis_deg: f64,
 }
 
 impl Default for SynthSettings {
@@ -182,6 +191,8 @@ impl Default for SynthSettings {
             front_end: Board::default(),
             rhythm: Rhythm::Sinus,
             muscle: None,
+            heart_leads: None,
+            axis_deg: 60.0,
         }
     }
 }
@@ -212,6 +223,34 @@ impl Heart {
 }
 
 impl SynthSettings {
+    /// The many-lead heart: as many channels as its set has inputs, the sinus model, an axis
+    /// within ±180°.
+    fn check_leads(&self) -> Result<(), SynthError> {
+        let Some(set) = self.heart_leads else {
+            return Ok(());
+        };
+        let needs = set.inputs().len();
+        if self.channels != needs {
+            return Err(SynthError::Leads(format!(
+                "the {} heart makes {needs} channels, not {}",
+                set.name(),
+                self.channels
+            )));
+        }
+        if self.rhythm != Rhythm::Sinus || self.muscle.is_some() {
+            return Err(SynthError::Leads(
+                "the many-lead heart runs on the sinus model, without a muscle".into(),
+            ));
+        }
+        if !(self.axis_deg.is_finite() && (-180.0..=180.0).contains(&self.axis_deg)) {
+            return Err(SynthError::Leads(format!(
+                "axis {} degrees is outside −180…180",
+                self.axis_deg
+            )));
+        }
+        Ok(())
+    }
+
     /// Checks every setting.
     ///
     /// # Errors
@@ -220,7 +259,8 @@ impl SynthSettings {
         if !(125.0..=4000.0).contains(&self.fs_hz) {
             return Err(SynthError::SampleRate(self.fs_hz));
         }
-        if !(1..=8).contains(&self.channels) {
+        self.check_leads()?;
+        if self.heart_leads.is_none() && !(1..=8).contains(&self.channels) {
             return Err(SynthError::Channels(self.channels));
         }
         if !(20.0..=300.0).contains(&self.hr_bpm) {
@@ -300,6 +340,9 @@ pub struct Synth {
     clipped: u64,
     lead_off_rng: Rng,
     r_events: std::collections::VecDeque<u64>,
+    /// The many-lead heart's dipole, and the channels' heart signals of the current frame (V).
+    dipole: Option<Dipole>,
+    heart_v: Vec<f64>,
 }
 
 /// R events kept for [`Synth::r_events`] (about an hour at 72 bpm).
@@ -317,7 +360,8 @@ impl Synth {
         let mut phase_rng = rng.fork(2);
         let harmonic_phase = [0; 4].map(|_| TAU * phase_rng.uniform());
         let mut channels = Vec::with_capacity(settings.channels);
-        for (k, &lead) in LEAD_FACTORS.iter().enumerate().take(settings.channels) {
+        for k in 0..settings.channels {
+            let lead = LEAD_FACTORS.get(k).copied().unwrap_or(1.0);
             let mut drift_rng = rng.fork(100 + k as u64);
             // Start the drift in its stationary distribution so there is no start-up ramp.
             let drift_v = settings.drift_uv * 1e-6 * drift_rng.normal();
@@ -355,6 +399,10 @@ impl Synth {
             clipped: 0,
             lead_off_rng: rng.fork(3),
             r_events: std::collections::VecDeque::new(),
+            dipole: settings
+                .heart_leads
+                .map(|_| Dipole::new(settings.axis_deg, settings.r_mv)),
+            heart_v: Vec::new(),
             settings,
         })
     }
@@ -391,6 +439,9 @@ impl Synth {
                 }
                 (None, _) => ch.muscle = None,
             }
+        }
+        if new.heart_leads.is_some() && (new.axis_deg != s.axis_deg || new.r_mv != s.r_mv) {
+            self.dipole = Some(Dipole::new(new.axis_deg, new.r_mv));
         }
         self.scale = scale;
         let (fs, n, seed) = (s.fs_hz, s.channels, s.seed);
@@ -451,6 +502,16 @@ impl Synth {
         let fs = s.fs_hz;
         let fe = s.front_end;
         let (ecg_v, r_event) = self.ecg.next_sample();
+        self.heart_v.clear();
+        match (&self.dipole, &self.ecg, s.heart_leads) {
+            (Some(d), Heart::Model(m), Some(set)) => {
+                Dipole::channels(set, d.at(m.phase(), s.hr_bpm), &mut self.heart_v);
+                self.heart_v.iter_mut().for_each(|v| *v *= 1e-3);
+            }
+            _ => self
+                .heart_v
+                .extend(self.channels.iter().map(|c| c.lead * ecg_v)),
+        }
         if r_event {
             if self.r_events.len() == R_EVENTS_KEPT {
                 self.r_events.pop_front();
@@ -490,7 +551,7 @@ impl Synth {
         };
         let polarity = if s.inverted { -1.0 } else { 1.0 };
 
-        for ch in &mut self.channels {
+        for (ch, &heart_v) in self.channels.iter_mut().zip(&self.heart_v) {
             ch.drift_v = rho * ch.drift_v + drift_w * ch.drift_rng.normal();
             let white = ch.noise_rng.normal();
             ch.noise_prev_out = a_mus * (ch.noise_prev_out + white - ch.noise_prev_in);
@@ -501,8 +562,7 @@ impl Synth {
                 Some(m) => (s.muscle.map_or(1.0, |m| m.ecg_share), m.next_v()),
                 None => (1.0, 0.0),
             };
-            let differential =
-                heart_share * ch.lead * ecg_v + emg_v + resp_v + ch.drift_v + ch.offset_v;
+            let differential = heart_share * heart_v + emg_v + resp_v + ch.drift_v + ch.offset_v;
             let mut electrode_v = polarity * differential + mains_v + muscle_v;
             if s.lead_off {
                 let pickup = SQRT_2 * LEAD_OFF_MAINS_V * self.mains_phase.sin();

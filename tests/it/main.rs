@@ -19,6 +19,7 @@ mod front_end;
 mod fuzz;
 mod gui;
 mod heart_rate;
+mod leads;
 mod measure;
 mod pipeline;
 mod record;

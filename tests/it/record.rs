@@ -18,7 +18,7 @@ fn tmp(name: &str) -> PathBuf {
 }
 
 /// The CI venv's Python (tests/reference/check.sh makes it), if present.
-fn reference_python() -> Option<PathBuf> {
+pub fn reference_python() -> Option<PathBuf> {
     let p = Path::new(env!("CARGO_MANIFEST_DIR")).join(".venv/bin/python");
     if p.exists() {
         return Some(p);
@@ -33,7 +33,7 @@ fn reference_python() -> Option<PathBuf> {
 }
 
 /// What pyedflib and edfio read from `path` (tests/reference/read_edf.py).
-fn outside_readers(py: &Path, path: &Path) -> serde_json::Value {
+pub fn outside_readers(py: &Path, path: &Path) -> serde_json::Value {
     let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/read_edf.py");
     let out = Command::new(py).arg(script).arg(path).output().unwrap();
     assert!(

@@ -50,9 +50,15 @@ fn function_lengths(text: &str) -> Vec<(usize, usize, String)> {
     for (i, line) in lines.iter().enumerate() {
         let trimmed = line.trim_start();
         let indent = &line[..line.len() - trimmed.len()];
-        let head = ["pub fn ", "fn ", "pub(crate) fn ", "pub(super) fn ", "const fn "]
-            .iter()
-            .find_map(|p| trimmed.strip_prefix(p));
+        let head = [
+            "pub fn ",
+            "fn ",
+            "pub(crate) fn ",
+            "pub(super) fn ",
+            "const fn ",
+        ]
+        .iter()
+        .find_map(|p| trimmed.strip_prefix(p));
         let Some(rest) = head else { continue };
         let name: String = rest
             .chars()
@@ -85,7 +91,11 @@ fn no_file_over_700_lines_and_no_function_over_100() {
     let (mut long_files, mut long_fns, mut counted) = (Vec::new(), Vec::new(), 0);
     for f in &files {
         let text = std::fs::read_to_string(f).expect("source text");
-        let rel = f.strip_prefix(root).expect("under the root").display().to_string();
+        let rel = f
+            .strip_prefix(root)
+            .expect("under the root")
+            .display()
+            .to_string();
         let n = text.lines().count();
         if n > 700 {
             long_files.push(format!("{rel}: {n} lines"));
@@ -98,8 +108,14 @@ fn no_file_over_700_lines_and_no_function_over_100() {
         }
     }
     assert!(counted > 1000, "the scan found the functions: {counted}");
-    assert!(long_files.is_empty(), "files over 700 lines: {long_files:?}");
-    assert!(long_fns.is_empty(), "functions over 100 lines: {long_fns:?}");
+    assert!(
+        long_files.is_empty(),
+        "files over 700 lines: {long_files:?}"
+    );
+    assert!(
+        long_fns.is_empty(),
+        "functions over 100 lines: {long_fns:?}"
+    );
 }
 
 #[test]
