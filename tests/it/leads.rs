@@ -1,5 +1,7 @@
 //! Twelve leads: derived from a board's leads or electrodes, written as EDF+ and CSV, and the
 //! frontal QRS axis of the simulator's heart read back.
+// Helpers outside #[test] functions unwrap too: a panic is the failure report.
+#![allow(clippy::unwrap_used)]
 
 use std::path::{Path, PathBuf};
 use std::process::Command;
