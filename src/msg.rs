@@ -70,6 +70,8 @@ pub struct RecordBlock {
     pub gap_before: bool,
     /// Input-referred µV of the converter's bottom and top counts, when the source sends counts.
     pub range_uv: Option<(f64, f64)>,
+    /// The channels' names when they are derived leads (I, II, …), else `None` (ch1, ch2, …).
+    pub names: Option<Arc<Vec<String>>>,
 }
 
 /// A min/max-per-column reduction of one trace over the display window.
@@ -196,6 +198,14 @@ pub struct Snapshot {
     /// Age of the newest sample in this snapshot when it was made, ms: from the source thread
     /// handing it over to the snapshot leaving the DSP thread (the display's leading edge).
     pub latency_ms: f64,
+    /// The channels' names when they are the derived standard leads.
+    pub leads: Option<Arc<Vec<String>>>,
+    /// Why the lead set is not applied (too few channels), if so.
+    pub lead_error: Option<String>,
+    /// Electrodes that look off (electrode-potential inputs).
+    pub electrodes_off: Vec<&'static str>,
+    /// The frontal QRS axis over the last 10 s, while the leads are derived.
+    pub frontal_axis: Option<crate::leads::FrontalAxis>,
 }
 
 /// Messages from the GUI (or CLI) to the threads. Tiny and rare: the channel is unbounded.
@@ -227,6 +237,8 @@ pub enum Control {
     Emg(Option<crate::analysis::emg::EmgSettings>),
     /// A mark in the EMG view (rest, maximum contraction, clear).
     EmgMark(crate::process::emg::Mark),
+    /// What the source's channels are (leads derived before the chain), or nothing.
+    LeadSet(Option<crate::leads::LeadSet>),
 }
 
 /// What the DSP thread needs to make sound.

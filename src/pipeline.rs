@@ -55,6 +55,8 @@ pub struct PipelineConfig {
     pub display_hz: f64,
     /// The user's front end per channel; None uses the source's own scaling.
     pub front_end: Option<Vec<crate::scale::FrontEnd>>,
+    /// What the source's channels are: the standard leads are derived from them.
+    pub lead_set: Option<crate::leads::LeadSet>,
     /// Real time or as fast as possible.
     pub pacing: Pacing,
     /// Stop the source after this many seconds of signal (None: run until stopped).
@@ -74,6 +76,7 @@ impl Default for PipelineConfig {
             window_s: 10.0,
             display_hz: 30.0,
             front_end: None,
+            lead_set: None,
             pacing: Pacing::RealTime,
             limit_s: None,
             record: false,
@@ -149,6 +152,7 @@ impl Pipeline {
             window_s: cfg.window_s,
             display_hz: cfg.display_hz,
             front_end: cfg.front_end,
+            lead_set: cfg.lead_set,
             nominal_fs_hz,
             design_slot: Arc::clone(&design_slot),
         };

@@ -151,7 +151,14 @@ impl Active {
         self.fs_hz = b.fs_hz;
         self.time_fs = b.fs_hz;
         self.channels = b.channels;
-        let labels: Vec<String> = (1..=b.channels).map(|k| format!("ch{k}")).collect();
+        let labels: Vec<String> = match &b.names {
+            // Derived leads carry the EDF+ specification's standard texts (ECG I, ECG II, …).
+            Some(n) if matches!(self.format, RecordFormat::Edf | RecordFormat::Bdf) => {
+                n.iter().map(|n| format!("ECG {n}")).collect()
+            }
+            Some(n) => n.to_vec(),
+            None => (1..=b.channels).map(|k| format!("ch{k}")).collect(),
+        };
         let sink = match self.format {
             RecordFormat::Edf | RecordFormat::Bdf => {
                 let kind = if self.format == RecordFormat::Edf {
@@ -548,6 +555,7 @@ mod tests {
             received: v,
             gap_before: false,
             range_uv: Some((-3300.0, 3300.0)),
+            names: None,
         }
     }
 

@@ -18,6 +18,8 @@ pub struct MonitorArgs {
     /// Default: the setup's source (see --config), else the simulator.
     #[arg(long, value_name = "SPEC")]
     pub source: Option<String>,
+    #[command(flatten)]
+    pub leads: LeadArgs,
     /// Start from this setup (TOML) instead of the one remembered from the last run.
     #[arg(long, value_name = "FILE")]
     pub config: Option<PathBuf>,
@@ -80,7 +82,7 @@ impl Default for StartView {
 
 impl clap::ValueEnum for StartView {
     fn value_variants<'a>() -> &'a [Self] {
-        const ALL: [StartView; 9] = [
+        const ALL: [StartView; 10] = [
             StartView::Strip(LowerView::ALL[0]),
             StartView::Strip(LowerView::ALL[1]),
             StartView::Strip(LowerView::ALL[2]),
@@ -88,6 +90,7 @@ impl clap::ValueEnum for StartView {
             StartView::Strip(LowerView::ALL[4]),
             StartView::Strip(LowerView::ALL[5]),
             StartView::Strip(LowerView::ALL[6]),
+            StartView::Strip(LowerView::ALL[7]),
             StartView::Default,
             StartView::Heavy,
         ];
@@ -152,6 +155,14 @@ pub fn start_settings(args: &MonitorArgs) -> anyhow::Result<crate::gui::state::S
     }
     if let Some(n) = args.channels {
         settings.setup.synth.channels = n;
+    }
+    if let Some(set) = args.leads.lead_set {
+        settings.setup.set_lead_set(Some(set));
+        // The simulator becomes a board of that many leads.
+        if settings.simulating() {
+            settings.setup.synth.heart_leads = Some(set);
+            settings.setup.synth.channels = set.inputs().len();
+        }
     }
     settings.setup.synth.validate()?;
     if let Some(v) = args.view {

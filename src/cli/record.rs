@@ -26,6 +26,8 @@ pub struct RecordArgs {
     /// reconnects).
     #[arg(long, value_name = "SPEC")]
     pub source: Option<String>,
+    #[command(flatten)]
+    pub leads: LeadArgs,
     /// Take the source, scaling, simulator and chain from this setup (TOML); --source and any
     /// filter flag given on the command line win.
     #[arg(long, value_name = "FILE")]
@@ -149,6 +151,24 @@ fn request(a: &RecordArgs, chain: &ChainSettings) -> RecordRequest {
     req
 }
 
+/// Waits for the stream's first snapshot (at most 5 s): a lead set that needs more channels
+/// than the source has is refused before anything is written.
+fn refuse_a_lead_set_too_large(pipeline: &Pipeline) -> Result<()> {
+    let deadline = Instant::now() + Duration::from_secs(5);
+    while Instant::now() < deadline {
+        if let Some(s) = pipeline.latest_snapshot() {
+            if let Some(e) = s.lead_error {
+                return Err(BadInput(e).into());
+            }
+            if s.leads.is_some() {
+                return Ok(());
+            }
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    }
+    Ok(())
+}
+
 /// The summary line of a finished recording: what the file holds and what the link lost.
 fn summary(
     a: &RecordArgs,
@@ -201,11 +221,16 @@ pub fn run(a: &RecordArgs) -> Result<()> {
         .into());
     }
     let (spec, chain, front_end) = source_and_chain(a)?;
+    let lead_set = match a.leads.lead_set {
+        Some(s) => Some(s),
+        None => super::load_setup(a.config.as_deref())?.and_then(|s| s.lead_set()),
+    };
     let pipeline = Pipeline::start(
         PipelineConfig {
             source: spec,
             chain,
             front_end,
+            lead_set,
             pacing: Pacing::RealTime,
             recorder: true,
             display_hz: 2.0,
@@ -213,6 +238,9 @@ pub fn run(a: &RecordArgs) -> Result<()> {
         },
         Arc::new(|| {}),
     )?;
+    if lead_set.is_some() {
+        refuse_a_lead_set_too_large(&pipeline)?;
+    }
     let req = request(a, &chain);
     pipeline.recorder(RecorderCommand::Start(req));
     for m in &a.marker {

@@ -392,3 +392,103 @@ pub fn response_png(
     }
     write_rgb_png(path, &buf, w, h)
 }
+
+/// One piece of a twelve-lead sheet for [`sheet_png`]: a label, where it goes (s, mV), and the
+/// polyline (x s from the sheet's start, y mV including the row's offset).
+pub struct SheetPiece<'a> {
+    pub label: &'a str,
+    pub at: [f64; 2],
+    pub points: &'a [[f64; 2]],
+}
+
+/// The twelve leads as a print-out: `span` s wide at 25 mm/s and 10 mm/mV (the image keeps
+/// that aspect), on a paper grid of 1 mm and 5 mm divisions when `grid`, with the calibration
+/// pulses and the pieces.
+///
+/// # Errors
+/// Drawing or writing failed.
+pub fn sheet_png(
+    path: &Path,
+    pieces: &[SheetPiece<'_>],
+    pulses: &[Vec<[f64; 2]>],
+    (span, rows_mv): (f64, f64),
+    grid: bool,
+    title: &str,
+) -> Result<(), PlotError> {
+    register_font();
+    // 25 mm/s and 10 mm/mV at 6 pixels per mm.
+    let px_mm = 6.0;
+    let (x0, x1, y0, y1) = (-0.5, span, -1.5, rows_mv + 1.6);
+    let w = ((x1 - x0) * 25.0 * px_mm) as u32 + 120;
+    let h = ((y1 - y0) * 10.0 * px_mm) as u32 + 110;
+    let mut buf = vec![0u8; (w * h * 3) as usize];
+    {
+        let root = BitMapBackend::with_buffer(&mut buf, (w, h)).into_drawing_area();
+        root.fill(&WHITE).map_err(draw_err)?;
+        let mut chart = ChartBuilder::on(&root)
+            .caption(title, (FONT, 22))
+            .margin(12)
+            .x_label_area_size(40)
+            .y_label_area_size(60)
+            .build_cartesian_2d(x0..x1, y0..y1)
+            .map_err(draw_err)?;
+        chart
+            .configure_mesh()
+            .disable_mesh()
+            .x_desc("time (s), 25 mm/s")
+            .y_desc("mV, 10 mm/mV (rows 3 mV apart)")
+            .label_style((FONT, 14))
+            .axis_desc_style((FONT, 16))
+            .draw()
+            .map_err(draw_err)?;
+        if grid {
+            let (minor, major) = (RGBColor(250, 214, 214), RGBColor(236, 150, 150));
+            let mut lines = Vec::new();
+            for k in 0..=((x1 - x0) / 0.04).round() as i64 {
+                let x = x0 + k as f64 * 0.04;
+                lines.push((vec![(x, y0), (x, y1)], k % 5 == 0));
+            }
+            for k in 0..=((y1 - y0) / 0.1).round() as i64 {
+                let y = y0 + k as f64 * 0.1;
+                lines.push((vec![(x0, y), (x1, y)], k % 5 == 0));
+            }
+            for major_pass in [false, true] {
+                let c = if major_pass { major } else { minor };
+                chart
+                    .draw_series(
+                        lines
+                            .iter()
+                            .filter(|l| l.1 == major_pass)
+                            .map(|l| PathElement::new(l.0.clone(), c)),
+                    )
+                    .map_err(draw_err)?;
+            }
+        }
+        let ink = RGBColor(20, 20, 20);
+        for p in pulses {
+            chart
+                .draw_series(LineSeries::new(
+                    p.iter().map(|q| (q[0], q[1])),
+                    ink.stroke_width(2),
+                ))
+                .map_err(draw_err)?;
+        }
+        for p in pieces {
+            chart
+                .draw_series(LineSeries::new(
+                    p.points.iter().map(|q| (q[0], q[1])),
+                    ink.stroke_width(2),
+                ))
+                .map_err(draw_err)?;
+            chart
+                .draw_series(std::iter::once(plotters::element::Text::new(
+                    p.label.to_string(),
+                    (p.at[0], p.at[1]),
+                    (FONT, 18).into_font().color(&ink),
+                )))
+                .map_err(draw_err)?;
+        }
+        root.present().map_err(draw_err)?;
+    }
+    write_rgb_png(path, &buf, w, h)
+}

@@ -53,6 +53,8 @@ pub enum Action {
     Replay(ReplayCommand),
     /// The recording path as typed in the source section.
     ReplayPath(String),
+    /// What the source's channels are (leads or electrodes), or plain channels.
+    LeadSet(Option<crate::leads::LeadSet>),
     /// Start, stop or mark a recording.
     Record(RecordAction),
     /// Open or save a setup, export C, save a PNG.
@@ -65,6 +67,8 @@ pub enum Action {
     View(crate::setup::ViewSetup),
     /// Freeze or resume the traces.
     Pause(bool),
+    /// The twelve-lead sheet's paper grid on or off.
+    PaperGrid(bool),
     /// Keep (or drop) the current spectrum as "before".
     HoldSpectrum(bool),
     /// The strip under the traces.
@@ -99,4 +103,5 @@ pub enum FilesAction {
     },
     TracePng(PathBuf),
     SpectrumPng(PathBuf),
+    TwelvePng(PathBuf),
 }

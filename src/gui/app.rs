@@ -83,6 +83,7 @@ fn start_pipeline(settings: &Settings, notify: Notify) -> Result<Pipeline, Pipel
                 .setup
                 .from_board()
                 .then(|| settings.setup.front_ends()),
+            lead_set: settings.setup.lead_set(),
             pacing: Pacing::RealTime,
             limit_s: None,
             record: false,

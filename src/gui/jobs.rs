@@ -27,6 +27,8 @@ pub enum Job {
     },
     /// The followed channel's traces as a PNG.
     TracePng(Box<TracePng>),
+    /// The twelve-lead sheet as a PNG.
+    TwelvePng(Box<TwelvePng>),
     /// The newest spectrum as a PNG.
     SpectrumPng {
         path: PathBuf,
@@ -43,6 +45,16 @@ pub struct TracePng {
     /// Unit symbol, and µV per unit.
     pub unit: (&'static str, f64),
     pub markers: Vec<(f64, String)>,
+    pub title: String,
+}
+
+/// What the twelve-lead PNG needs, copied when it was asked for.
+#[derive(Debug, Clone)]
+pub struct TwelvePng {
+    pub path: PathBuf,
+    pub pieces: Vec<super::panels::twelve::Piece>,
+    pub span_s: f64,
+    pub grid: bool,
     pub title: String,
 }
 
@@ -100,6 +112,7 @@ pub fn run(job: Job) -> JobDone {
                 }),
         ),
         Job::TracePng(t) => JobDone::message(trace_png(&t)),
+        Job::TwelvePng(t) => JobDone::message(twelve_png(&t)),
         Job::SpectrumPng { path, frame, title } => JobDone::message(
             crate::export::plot_png::psd_png(
                 &path,
@@ -133,6 +146,30 @@ fn trace_png(t: &TracePng) -> Result<String, String> {
         ],
         t.unit,
         &t.markers,
+        &t.title,
+    )
+    .map(|()| format!("saved {}", t.path.display()))
+    .map_err(|e| e.to_string())
+}
+
+fn twelve_png(t: &TwelvePng) -> Result<String, String> {
+    use super::panels::twelve::{ROW_MV, calibration};
+    use crate::export::plot_png::{SheetPiece, sheet_png};
+    let pieces: Vec<SheetPiece> = t
+        .pieces
+        .iter()
+        .map(|p| SheetPiece {
+            label: &p.label,
+            at: p.at,
+            points: &p.points,
+        })
+        .collect();
+    sheet_png(
+        &t.path,
+        &pieces,
+        &calibration(4),
+        (t.span_s, 3.0 * ROW_MV),
+        t.grid,
         &t.title,
     )
     .map(|()| format!("saved {}", t.path.display()))

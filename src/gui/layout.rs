@@ -136,7 +136,8 @@ fn top_bar(ui: &mut egui::Ui, st: &AppState, w: &mut Widgets, live: &Live) -> Ve
             .map_or(st.settings.setup.synth.channels, |s| s.traces.len());
         if n > 1 {
             ui.separator();
-            channel_picker(ui, &mut view.channel, n);
+            let names = st.view.snapshot.as_ref().and_then(|s| s.leads.clone());
+            channel_picker(ui, &mut view.channel, n, names.as_deref().map(Vec::as_slice));
         }
         let snap = st.view.snapshot.as_ref();
         let beats = snap.and_then(|s| s.beats.as_ref());
@@ -160,12 +161,18 @@ fn top_bar(ui: &mut egui::Ui, st: &AppState, w: &mut Widgets, live: &Live) -> Ve
     out
 }
 
-fn channel_picker(ui: &mut egui::Ui, channel: &mut usize, n: usize) {
+/// The followed channel, by its lead's name when the channels are derived leads.
+fn channel_picker(ui: &mut egui::Ui, channel: &mut usize, n: usize, names: Option<&[String]>) {
+    let name = |k: usize| {
+        names
+            .and_then(|v| v.get(k).cloned())
+            .unwrap_or_else(|| format!("ch{}", k + 1))
+    };
     egui::ComboBox::from_id_salt("channel")
-        .selected_text(format!("ch{}", *channel + 1))
+        .selected_text(name(*channel))
         .show_ui(ui, |ui| {
             for k in 0..n {
-                ui.selectable_value(channel, k, format!("ch{}", k + 1));
+                ui.selectable_value(channel, k, name(k));
             }
         })
         .response
@@ -188,6 +195,19 @@ fn status_bar(ui: &mut egui::Ui, st: &AppState, live: &Live) {
 fn central(ui: &mut egui::Ui, st: &AppState, w: &mut Widgets) -> Vec<Action> {
     let mut out = Vec::new();
     let total = ui.available_height();
+    if st.settings.setup.view.lower == LowerView::Twelve {
+        // The sheet takes the traces' place and the strip's.
+        ui.allocate_ui(egui::vec2(ui.available_width(), total - 30.0), |ui| {
+            out.extend(panels::twelve::show(
+                ui,
+                st.view.snapshot.as_ref(),
+                &st.trace,
+                st.paper_grid,
+            ));
+        });
+        out.extend(view_tabs(ui, st));
+        return out;
+    }
     let lower_h = if st.settings.setup.view.lower == LowerView::Hidden {
         0.0
     } else {
@@ -232,6 +252,9 @@ fn view_tabs(ui: &mut egui::Ui, st: &AppState) -> Vec<Action> {
         tab(ui, LowerView::Measure, "Measure", "Measure the built front end on the live stream: response from a stimulus channel, a stepped sine, noise, CMRR.");
         if st.settings.emg_mode {
             tab(ui, LowerView::Muscle, "Muscle", "Envelope, moving RMS and contractions of the followed channel, with each contraction's median frequency.");
+        }
+        if st.settings.setup.lead_set().is_some() {
+            tab(ui, LowerView::Twelve, "12 leads", "The twelve leads as a print-out arranges them: 3 × 4 columns of 2.5 s and a rhythm strip of II, 25 mm/s, 10 mm/mV.");
         }
         tab(ui, LowerView::Hidden, "Traces only", "Hide the lower strip: the traces take the whole height.");
     });
@@ -279,7 +302,12 @@ fn lower_strip(ui: &mut egui::Ui, st: &AppState, w: &mut Widgets) -> Option<Acti
             )
         }
         LowerView::Beats => {
-            panels::beats::show(ui, snap.and_then(|s| s.beats.as_ref()), fs);
+            panels::beats::show(
+                ui,
+                snap.and_then(|s| s.beats.as_ref()),
+                snap.and_then(|s| s.frontal_axis.as_ref()),
+                fs,
+            );
             None
         }
         LowerView::Parts => {
@@ -312,6 +340,6 @@ fn lower_strip(ui: &mut egui::Ui, st: &AppState, w: &mut Widgets) -> Option<Acti
                 .map(|t| &t.filtered);
             panels::muscle::show(ui, v, trace, &mut w.emg, fs)
         }
-        LowerView::Hidden => None,
+        LowerView::Hidden | LowerView::Twelve => None,
     }
 }

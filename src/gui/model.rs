@@ -59,6 +59,8 @@ pub struct AppState {
     pub help_open: bool,
     /// The first-start caution is open.
     pub caution_open: bool,
+    /// The twelve-lead sheet shows the paper grid.
+    pub paper_grid: bool,
 }
 
 /// What the app must do after a change of state.
@@ -87,6 +89,7 @@ impl AppState {
         Self {
             settings,
             replay_path,
+            paper_grid: true,
             ..Self::default()
         }
     }
@@ -157,6 +160,7 @@ pub fn apply(st: &mut AppState, a: Action) -> Vec<Effect> {
             st.replay_path = p;
             Vec::new()
         }
+        Action::LeadSet(set) => lead_set(st, set),
         Action::Record(r) => record(st, r),
         Action::Files(f) => files(st, f),
         Action::JobDone(done) => job_done(st, done),
@@ -173,6 +177,10 @@ pub fn apply(st: &mut AppState, a: Action) -> Vec<Effect> {
             if e == super::panels::trace::TraceEvent::LeaveLive && !st.paused {
                 return apply(st, Action::Pause(true));
             }
+            Vec::new()
+        }
+        Action::PaperGrid(on) => {
+            st.paper_grid = on;
             Vec::new()
         }
         Action::HoldSpectrum(hold) => {
@@ -217,6 +225,26 @@ fn view(st: &mut AppState, v: crate::setup::ViewSetup) -> Vec<Effect> {
         out.push(Effect::Control(Control::DisplayRate(new.display_hz)));
     }
     out
+}
+
+/// What the channels are. The simulator becomes a board of that many leads (a new stream);
+/// another source keeps running and the DSP thread derives the leads from its next block.
+fn lead_set(st: &mut AppState, set: Option<crate::leads::LeadSet>) -> Vec<Effect> {
+    let simulating = st.settings.simulating();
+    let setup = &mut st.settings.setup;
+    setup.set_lead_set(set);
+    if simulating {
+        let synth = &mut setup.synth;
+        synth.heart_leads = set;
+        synth.channels = set.map_or(synth.channels.min(8), |s| s.inputs().len());
+        if set.is_some() {
+            synth.rhythm = crate::sim::rhythm::Rhythm::Sinus;
+            synth.muscle = None;
+        }
+        setup.view.channel = set.map_or(0, |_| crate::leads::LEAD_II);
+        return vec![Effect::RestartSource];
+    }
+    vec![Effect::Control(Control::LeadSet(set))]
 }
 
 /// Heart (ECG) or muscle (EMG) signals: the chain preset, the view and the EMG analysis.
@@ -289,6 +317,7 @@ fn files(st: &mut AppState, f: FilesAction) -> Vec<Effect> {
         },
         FilesAction::TracePng(p) => trace_png(st, p).map(|t| Job::TracePng(Box::new(t))),
         FilesAction::SpectrumPng(path) => spectrum_png(st, path),
+        FilesAction::TwelvePng(path) => twelve_png(st, path),
     };
     match job {
         Ok(job) => {
@@ -342,6 +371,26 @@ fn trace_png(st: &AppState, path: PathBuf) -> Result<TracePng, String> {
             st.settings.setup.chain.describe()
         ),
     })
+}
+
+/// The twelve-lead sheet now on screen, copied for the PNG job.
+fn twelve_png(st: &AppState, path: PathBuf) -> Result<Job, String> {
+    let snap = st.view.snapshot.as_ref().ok_or("no samples yet")?;
+    let (pieces, _, span) = super::panels::twelve::sheet(snap);
+    if pieces.is_empty() {
+        return Err("no twelve leads: choose what the channels are in the Source section".into());
+    }
+    Ok(Job::TwelvePng(Box::new(super::jobs::TwelvePng {
+        path,
+        pieces,
+        span_s: span,
+        grid: st.paper_grid,
+        title: format!(
+            "12 leads at {} Hz, chain {} — 25 mm/s, 10 mm/mV",
+            snap.fs_hz,
+            st.settings.setup.chain.describe()
+        ),
+    })))
 }
 
 fn spectrum_png(st: &AppState, path: PathBuf) -> Result<Job, String> {
@@ -561,6 +610,22 @@ mod tests {
             (st.files.message.as_str(), st.files.failed),
             ("loaded bench.toml", false)
         );
+    }
+
+    #[test]
+    fn a_lead_set_makes_the_simulator_a_board_of_leads_and_follows_lead_ii() {
+        let mut st = AppState::default();
+        let set = Some(crate::leads::LeadSet::Leads8);
+        let fx = apply(&mut st, Action::LeadSet(set));
+        assert!(matches!(fx.as_slice(), [Effect::RestartSource]));
+        let s = &st.settings.setup;
+        assert_eq!((s.synth.channels, s.synth.heart_leads), (8, set));
+        assert_eq!((s.lead_set(), s.view.channel), (set, 1));
+        // A board: the DSP thread is told, the stream goes on.
+        st.settings.setup.source.kind = crate::setup::SourceKind::Serial;
+        let fx = apply(&mut st, Action::LeadSet(None));
+        assert_eq!(controls(&fx), vec![Control::LeadSet(None)]);
+        assert_eq!(st.settings.setup.lead_set(), None);
     }
 
     #[test]

@@ -93,6 +93,7 @@ fn source(ui: &mut egui::Ui, st: &AppState, w: &mut Widgets, live: &Live) -> Vec
         st.settings.simulating(),
         adc,
     ));
+    out.extend(lead_choice(ui, st));
     // A Wi-Fi board and a recording to replay fold away while neither is the source: fewer
     // widgets to draw every frame (under software OpenGL the open section cost about a tenth
     // of a core) and a shorter panel.
@@ -114,6 +115,36 @@ fn source(ui: &mut egui::Ui, st: &AppState, w: &mut Widgets, live: &Live) -> Vec
         out.extend(panels::replay::show(ui, r));
     }
     out
+}
+
+/// What the channels are: plain channels, or leads or electrodes from which the standard leads
+/// are derived.
+fn lead_choice(ui: &mut egui::Ui, st: &AppState) -> Option<Action> {
+    use crate::leads::LeadSet;
+    let now = st.settings.setup.lead_set();
+    let mut pick = now;
+    ui.horizontal(|ui| {
+        ui.label("Channels are");
+        egui::ComboBox::from_id_salt("lead-set")
+            .selected_text(now.map_or("plain channels", LeadSet::describe))
+            .show_ui(ui, |ui| {
+                ui.selectable_value(&mut pick, None, "plain channels");
+                for s in LeadSet::ALL {
+                    ui.selectable_value(&mut pick, Some(s), s.describe());
+                }
+            })
+            .response
+            .on_hover_text("A multi-channel board's leads or electrodes: the limb leads (Einthoven, Goldberger) and the chest leads against Wilson's central terminal are derived, and the 12 leads view shows them. The simulator becomes such a board.");
+    });
+    if let Some(e) = st
+        .view
+        .snapshot
+        .as_ref()
+        .and_then(|s| s.lead_error.as_ref())
+    {
+        ui.colored_label(ui.visuals().error_fg_color, e);
+    }
+    (pick != now).then_some(Action::LeadSet(pick))
 }
 
 /// The path of a recording to replay, and the button that replays it.

@@ -86,6 +86,11 @@ impl BeatState {
         }
     }
 
+    /// The R peaks kept (samples since the stream started).
+    pub(super) fn beat_samples(&self) -> Vec<u64> {
+        self.beats.iter().copied().collect()
+    }
+
     pub(super) fn view(&self) -> BeatView {
         BeatView {
             channel: self.channel,

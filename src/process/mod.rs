@@ -8,6 +8,7 @@
 
 mod beats;
 pub mod emg;
+mod leads;
 mod spectrum;
 mod thread;
 mod trace;
@@ -55,6 +56,8 @@ pub struct DspConfig {
     pub display_hz: f64,
     /// The user's front end per channel (None: the source's own scaling).
     pub front_end: Option<Vec<FrontEnd>>,
+    /// What the source's channels are (the standard leads are derived before the chain).
+    pub lead_set: Option<crate::leads::LeadSet>,
     /// The rate the source is expected to run at, if it says (the simulator, a board given its
     /// rate): the chain is designed at it before the first block, so the views can show it.
     pub nominal_fs_hz: Option<f64>,
@@ -79,6 +82,8 @@ pub struct DspPorts {
 /// The stream being processed: its shape, the chain that runs and the display traces.
 struct Running {
     fs: f64,
+    /// The source's channels, and the stream's after the lead stage.
+    inputs: usize,
     channels: usize,
     chain: Chain,
     raw: Vec<TraceBuf>,
@@ -137,6 +142,7 @@ pub struct Dsp {
     measured: Option<Arc<crate::measure::Measured>>,
     sound: Option<Sound>,
     emg: Option<Emg>,
+    leads: leads::LeadStage,
     /// The source's expected rate, for designing before the first block.
     nominal_fs: Option<f64>,
     design_slot: DesignSlot,
@@ -169,6 +175,7 @@ impl Dsp {
             measured: None,
             sound: None,
             emg: None,
+            leads: leads::LeadStage::new(cfg.lead_set),
             nominal_fs: cfg.nominal_fs_hz,
             design_slot: cfg.design_slot,
         };
@@ -272,6 +279,11 @@ impl Dsp {
                 });
             }
             Control::Emg(e) => self.set_emg(e),
+            Control::LeadSet(set) => {
+                // The stream's shape changes: it starts again with the next block.
+                self.leads = leads::LeadStage::new(set);
+                self.state = None;
+            }
             Control::EmgMark(m) => {
                 if let Some(e) = self.emg.as_mut()
                     && let Some(l) = e.live.as_mut()
@@ -282,6 +294,22 @@ impl Dsp {
                 }
             }
         }
+    }
+
+    /// The frontal QRS axis over the beats of the last 10 s, while the twelve leads are derived
+    /// (leads I and aVF before the chain: the chain's delay would move the QRS out of the
+    /// net-area window).
+    fn frontal_axis(&self, r: &Running) -> Option<crate::leads::FrontalAxis> {
+        self.leads.names.as_ref()?;
+        let beats = self.beats.as_ref()?.beat_samples();
+        let (i, avf) = (r.raw_tail(0, 10.0), r.raw_tail(5, 10.0));
+        let first = r.next_sample.saturating_sub(i.len() as u64);
+        let rel: Vec<usize> = beats
+            .iter()
+            .filter(|&&b| b >= first)
+            .map(|&b| (b - first) as usize)
+            .collect();
+        crate::leads::frontal_axis(&i, &avf, &rel, r.fs)
     }
 
     /// The EMG view on (with these settings) or off. The marks made so far stay unless the new
@@ -309,27 +337,29 @@ impl Dsp {
     /// A stream of a new shape (rate, channels) starts: the last good chain at its rate (or a
     /// pass-through while it cannot be built there), fresh traces, a fresh readout.
     fn start_stream(&mut self, block: &RawBlock) -> bool {
-        let built = Chain::new(self.chain, block.fs_hz, block.channels).or_else(|e| {
+        let channels = self.leads.outputs(block.channels);
+        let built = Chain::new(self.chain, block.fs_hz, channels).or_else(|e| {
             self.chain_error = Some(e.to_string());
-            Chain::new(ChainSettings::band(None, None), block.fs_hz, block.channels)
+            Chain::new(ChainSettings::band(None, None), block.fs_hz, channels)
         });
         let Ok(chain) = built else { return false };
         let traces = || {
-            (0..block.channels)
+            (0..channels)
                 .map(|_| TraceBuf::new(block.fs_hz, self.window_s))
                 .collect()
         };
         self.publish(chain.design());
         self.state = Some(Running {
             fs: block.fs_hz,
-            channels: block.channels,
+            inputs: block.channels,
+            channels,
             chain,
             raw: traces(),
             filtered: traces(),
             last_uv: vec![0.0; block.channels],
             next_sample: block.first_sample,
         });
-        self.beats = BeatState::new(block.fs_hz, self.follow.min(block.channels - 1));
+        self.beats = BeatState::new(block.fs_hz, self.follow.min(channels - 1));
         if let Some(s) = self.sound.as_mut() {
             s.renderer = None;
         }
@@ -416,10 +446,11 @@ impl Dsp {
     /// Processes one raw block. Returns what the recorder path gets (every sample, never
     /// dropped), or `None` when no stream could be started.
     pub fn push(&mut self, block: RawBlock) -> Option<RecordBlock> {
-        let fresh = self
-            .state
-            .as_ref()
-            .is_none_or(|r| r.fs != block.fs_hz || r.channels != block.channels);
+        let fresh = self.state.as_ref().is_none_or(|r| {
+            r.fs != block.fs_hz
+                || r.inputs != block.channels
+                || r.channels != self.leads.outputs(block.channels)
+        });
         if fresh && !self.start_stream(&block) {
             return None;
         }
@@ -437,8 +468,12 @@ impl Dsp {
         self.newest_pending = Some(block.made_at);
 
         let mut last_uv = std::mem::take(&mut r.last_uv);
-        let uv = self.scale_block(&block, r.channels, &mut last_uv);
+        let uv = self.scale_block(&block, r.inputs, &mut last_uv);
         r.last_uv = last_uv;
+        let rails = std::mem::take(&mut self.rails);
+        let (uv, rails) = self.leads.apply(uv, rails, r.inputs, r.fs);
+        self.rails = rails;
+        let derived = self.leads.names.is_some();
         let mut filt = uv.clone();
         r.chain.process_interleaved(&mut filt);
         for (i, (&a, &b)) in uv.iter().zip(&filt).enumerate() {
@@ -459,12 +494,14 @@ impl Dsp {
         Some(RecordBlock {
             first_sample: block.first_sample,
             fs_hz: block.fs_hz,
-            channels: block.channels,
+            channels: self.state.as_ref().map_or(block.channels, |r| r.channels),
+            // Derived leads have no counts of their own: they are recorded in µV.
+            received: if derived { uv.clone() } else { block.data },
             raw_uv: uv,
             filtered_uv: filt,
-            received: block.data,
             gap_before: block.gap_before,
             range_uv,
+            names: self.leads.names.clone(),
         })
     }
 
@@ -516,6 +553,7 @@ impl Dsp {
             self.latency_max_ms = 0.0;
             self.latency_window_start = now;
         }
+        let frontal_axis = self.state.as_ref().and_then(|r| self.frontal_axis(r));
         let r = self.state.as_mut()?;
         if done {
             self.spectrum.frame = None;
@@ -584,6 +622,10 @@ impl Dsp {
             emg: self.emg.as_ref().and_then(|e| e.view.clone()),
             inverted: self.invert,
             latency_ms: newest_age_ms,
+            leads: self.leads.names.clone(),
+            lead_error: self.leads.error.clone(),
+            electrodes_off: self.leads.off.clone(),
+            frontal_axis,
         })
     }
 }
@@ -612,6 +654,7 @@ mod tests {
             window_s: 10.0,
             display_hz: 30.0,
             front_end: None,
+            lead_set: None,
             nominal_fs_hz: None,
             design_slot: DesignSlot::default(),
         })

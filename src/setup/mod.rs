@@ -63,6 +63,9 @@ pub struct SourceSetup {
     pub file_unit: String,
     /// A network board: "udp:5005", "udp:5005?from=192.0.2.7" or "tcp:192.0.2.7:5006".
     pub network: String,
+    /// What the channels are: "" (channels), "limb2" (I, II), "leads8" (I, II, V1–V6) or
+    /// "electrodes9" (RA, LA, LL, V1–V6); the standard leads are derived from them.
+    pub leads: String,
 }
 
 impl Default for SourceSetup {
@@ -77,6 +80,7 @@ impl Default for SourceSetup {
             file: String::new(),
             file_unit: "mV".into(),
             network: String::new(),
+            leads: String::new(),
         }
     }
 }
@@ -194,6 +198,12 @@ impl Setup {
     /// # Errors
     /// A message naming the key.
     pub fn validate(&self) -> Result<(), String> {
+        if !self.source.leads.is_empty() && self.lead_set().is_none() {
+            return Err(format!(
+                "source.leads = {:?}: expected \"\", \"limb2\", \"leads8\" or \"electrodes9\"",
+                self.source.leads
+            ));
+        }
         self.scale.validate().map_err(|e| format!("[scale]: {e}"))?;
         for (k, fe) in self.front_end.channels.iter().enumerate() {
             fe.validate()
@@ -265,6 +275,18 @@ impl Setup {
         let tmp = path.with_extension("toml.partial");
         std::fs::write(&tmp, text).map_err(io)?;
         std::fs::rename(&tmp, path).map_err(io)
+    }
+
+    /// What the channels are, when they are leads or electrodes.
+    pub fn lead_set(&self) -> Option<crate::leads::LeadSet> {
+        crate::leads::LeadSet::ALL
+            .into_iter()
+            .find(|s| s.name() == self.source.leads)
+    }
+
+    /// Sets what the channels are (`None`: plain channels).
+    pub fn set_lead_set(&mut self, set: Option<crate::leads::LeadSet>) {
+        self.source.leads = set.map_or(String::new(), |s| s.name().to_string());
     }
 
     /// The front end per channel (entry k for channel k; the last one for the rest).
@@ -501,6 +523,7 @@ mod tests {
             file: String::new(),
             file_unit: "uV".into(),
             network: String::new(),
+            leads: "leads8".into(),
         };
         s.view.theme = Theme::Light;
         s.view.window_s = 4.5;

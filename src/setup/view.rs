@@ -29,6 +29,8 @@ pub enum LowerView {
     /// Surface EMG: envelope, moving RMS, contractions, median-frequency trend.
     #[serde(rename = "emg")]
     Muscle,
+    /// The twelve standard leads in the usual 3 × 4 arrangement with a rhythm strip of II.
+    Twelve,
     /// Nothing: the traces take the whole height.
     #[serde(rename = "traces")]
     Hidden,
@@ -36,13 +38,14 @@ pub enum LowerView {
 
 impl LowerView {
     /// Every strip, in the order the view tabs show them.
-    pub const ALL: [LowerView; 7] = [
+    pub const ALL: [LowerView; 8] = [
         LowerView::Beats,
         LowerView::Spectrum,
         LowerView::Response,
         LowerView::Parts,
         LowerView::Measure,
         LowerView::Muscle,
+        LowerView::Twelve,
         LowerView::Hidden,
     ];
 
@@ -55,6 +58,7 @@ impl LowerView {
             LowerView::Parts => "parts",
             LowerView::Measure => "measure",
             LowerView::Muscle => "emg",
+            LowerView::Twelve => "twelve",
             LowerView::Hidden => "traces",
         }
     }
@@ -69,6 +73,9 @@ impl LowerView {
             LowerView::Measure => "Measuring the built front end.",
             LowerView::Muscle => {
                 "Surface EMG (switches the monitor to EMG: the 20–450 Hz chain and the EMG view)."
+            }
+            LowerView::Twelve => {
+                "The twelve leads, 3 × 4 with a rhythm strip of II (needs a lead set: --lead-set)."
             }
             LowerView::Hidden => "Traces only.",
         }

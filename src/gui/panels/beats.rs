@@ -44,7 +44,19 @@ pub fn rate_readout(ui: &mut egui::Ui, view: Option<&BeatView>) {
 }
 
 /// Draws the beats view.
-pub fn show(ui: &mut egui::Ui, view: Option<&BeatView>, fs: f64) {
+pub fn show(
+    ui: &mut egui::Ui,
+    view: Option<&BeatView>,
+    axis: Option<&crate::leads::FrontalAxis>,
+    fs: f64,
+) {
+    if let Some(a) = axis {
+        ui.label(format!(
+            "frontal QRS axis {:+.0}° ({}), {} beats",
+            a.degrees, a.words, a.beats
+        ))
+        .on_hover_text(a.method);
+    }
     let Some(b) = view else {
         ui.label("Beat detection runs at 125–2000 Hz.");
         return;

@@ -16,6 +16,7 @@ pub struct FilesPanel {
     pub prefix: String,
     pub trace_png: String,
     pub spectrum_png: String,
+    pub twelve_png: String,
 }
 
 impl Default for FilesPanel {
@@ -27,6 +28,7 @@ impl Default for FilesPanel {
             prefix: "leadline".into(),
             trace_png: "trace.png".into(),
             spectrum_png: "spectrum.png".into(),
+            twelve_png: "twelve-leads.png".into(),
         }
     }
 }
@@ -145,6 +147,17 @@ fn files(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<FilesAction> {
         );
         if ui.button("Save spectrum").clicked() {
             action = Some(FilesAction::SpectrumPng(p.spectrum_png.trim().into()));
+        }
+    });
+    ui.horizontal(|ui| {
+        path_row(
+            ui,
+            "12-lead PNG file",
+            &mut p.twelve_png,
+            "PNG of the twelve leads as the 12 leads view shows them (25 mm/s, 10 mm/mV).",
+        );
+        if ui.button("Save 12 leads").clicked() {
+            action = Some(FilesAction::TwelvePng(p.twelve_png.trim().into()));
         }
     });
     action

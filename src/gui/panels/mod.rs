@@ -20,6 +20,7 @@ pub mod source;
 pub mod spectrum;
 pub mod status;
 pub mod trace;
+pub mod twelve;
 
 use eframe::egui;
 

@@ -40,6 +40,13 @@ pub fn show(
                 ui.separator();
                 ui.label(format!("display drops {}", s.stats.snapshots_dropped))
                     .on_hover_text("Screen updates skipped because drawing was slower than the data; no samples are lost.");
+                if !s.electrodes_off.is_empty() {
+                    ui.separator();
+                    let names: Vec<String> =
+                        s.electrodes_off.iter().map(|e| format!("{e} off")).collect();
+                    ui.colored_label(ui.visuals().error_fg_color, names.join(", "))
+                        .on_hover_text("An electrode at a rail, or picking up far more mains than the others: check its contact and lead (common practice).");
+                }
                 ui.separator();
                 let clip = ui.label(format!("at rails {}", s.stats.clipped));
                 clip.on_hover_text("Samples at an ADC rail: the true signal may have been larger.");
