@@ -18,6 +18,7 @@ shot beats 20 --view beats
 shot response 6 --view response
 shot parts 6 --view parts
 shot emg 14 --view emg
+shot twelve 14 --lead-set leads8 --view twelve
 printf '[view]\ntheme = "light"\nlower = "beats"\n[synth]\nchannels = 3\n' > "$cfg/light.toml"
 shot light 20 --config "$cfg/light.toml"
 python3 assets/board_stream.py 40 "$cfg/pty" &
