@@ -177,7 +177,7 @@ pub struct FrontalAxis {
 
 /// The method's one line.
 pub const AXIS_METHOD: &str = "net QRS area in leads I and aVF (R−50 ms to R+70 ms, level of the 20 ms before); \
-axis = atan2(2·aVF/√3, I) for the Einthoven triangle";
+axis = atan2(2·aVF/√3, I) for the Einthoven triangle; the words for the ranges are common practice";
 
 /// The usual words for an axis (common practice; the ranges from memory of the
 /// AHA/ACCF/HRS recommendations, Surawicz et al. 2009).

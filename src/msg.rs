@@ -260,3 +260,38 @@ impl PartialEq for SoundFeed {
             }
     }
 }
+
+/// The EMG analysis of the followed channel over the newest stretch (up to 20 s).
+#[derive(Debug, Clone, PartialEq)]
+pub struct EmgView {
+    /// Time of the first point, s since the stream started, and the spacing of the points, s.
+    pub t0_s: f64,
+    pub dt_s: f64,
+    /// Linear envelope and moving RMS, µV, each point the largest of its stretch.
+    pub envelope: Vec<f32>,
+    pub rms: Vec<f32>,
+    /// Contractions, with times since the stream started (the newest may still run).
+    pub bursts: Vec<crate::analysis::emg::Burst>,
+    /// Onset threshold on the detector's signal, µV.
+    pub threshold_uv: f64,
+    /// (contraction midpoint s, median Hz), and the fitted change, %.
+    pub trend: Vec<(f64, f64)>,
+    pub trend_change_pct: Option<f64>,
+    /// Why there is no analysis (too short, a setting), if so.
+    pub error: Option<String>,
+    /// The settings it was made with (marks included).
+    pub settings: crate::analysis::emg::EmgSettings,
+    /// A message about the last mark (e.g. no contraction to take as the maximum).
+    pub note: Option<String>,
+}
+
+/// What the user marks in the monitor's EMG view.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Mark {
+    /// The newest second is rest: its level becomes the baseline.
+    Rest,
+    /// The newest contraction is the maximum: its RMS becomes 100 % MVC.
+    Mvc,
+    /// Back to the quietest second and no MVC.
+    Clear,
+}

@@ -19,40 +19,7 @@ pub const VIEW_S: f64 = 20.0;
 /// Points of the envelope and the RMS in a view.
 const POINTS: f64 = 2000.0;
 
-/// The EMG analysis of the followed channel over the newest stretch (up to 20 s).
-#[derive(Debug, Clone, PartialEq)]
-pub struct EmgView {
-    /// Time of the first point, s since the stream started, and the spacing of the points, s.
-    pub t0_s: f64,
-    pub dt_s: f64,
-    /// Linear envelope and moving RMS, µV, each point the largest of its stretch.
-    pub envelope: Vec<f32>,
-    pub rms: Vec<f32>,
-    /// Contractions, with times since the stream started (the newest may still run).
-    pub bursts: Vec<Burst>,
-    /// Onset threshold on the detector's signal, µV.
-    pub threshold_uv: f64,
-    /// (contraction midpoint s, median Hz), and the fitted change, %.
-    pub trend: Vec<(f64, f64)>,
-    pub trend_change_pct: Option<f64>,
-    /// Why there is no analysis (too short, a setting), if so.
-    pub error: Option<String>,
-    /// The settings it was made with (marks included).
-    pub settings: EmgSettings,
-    /// A message about the last mark (e.g. no contraction to take as the maximum).
-    pub note: Option<String>,
-}
-
-/// What the user marks in the monitor's EMG view.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub enum Mark {
-    /// The newest second is rest: its level becomes the baseline.
-    Rest,
-    /// The newest contraction is the maximum: its RMS becomes 100 % MVC.
-    Mvc,
-    /// Back to the quietest second and no MVC.
-    Clear,
-}
+pub use crate::msg::{EmgView, Mark};
 
 /// The onset detector's state.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -533,6 +500,43 @@ impl LiveEmg {
             v.trend_change_pct = Some(t.change_pct);
         }
         v
+    }
+}
+
+impl super::Dsp {
+    /// The EMG view on (with these settings) or off. The marks made so far stay unless the new
+    /// settings bring their own.
+    pub(super) fn set_emg(&mut self, e: Option<EmgSettings>) {
+        let keep = self
+            .emg
+            .as_ref()
+            .map(|o| (o.settings.baseline_uv, o.settings.mvc_rms_uv));
+        self.emg = e.map(|mut n| {
+            if let Some((b, m)) = keep {
+                n.baseline_uv = n.baseline_uv.or(b);
+                n.mvc_rms_uv = n.mvc_rms_uv.or(m);
+            }
+            super::Emg {
+                settings: n,
+                live: None,
+                view: None,
+                at: std::time::Instant::now(),
+            }
+        });
+        self.restart_emg();
+    }
+
+    /// A fresh live EMG analysis of the followed channel, fed once with the newest 20 s it
+    /// still has (after new settings, another channel or a new stream); from then on each
+    /// block feeds it its own samples only.
+    pub(super) fn restart_emg(&mut self) {
+        let Some(e) = self.emg.as_mut() else { return };
+        e.view = None;
+        e.live = self.state.as_ref().map(|r| {
+            let mut live = LiveEmg::new(r.fs, e.settings);
+            live.push(r.raw_tail(self.follow, VIEW_S));
+            live
+        });
     }
 }
 

@@ -113,6 +113,24 @@ impl LeadStage {
     }
 }
 
+impl super::Dsp {
+    /// The frontal QRS axis over the beats of the last 10 s, while the twelve leads are derived
+    /// (leads I and aVF before the chain: the chain's delay would move the QRS out of the
+    /// net-area window).
+    pub(super) fn frontal_axis(&self, r: &super::Running) -> Option<crate::leads::FrontalAxis> {
+        self.leads.names.as_ref()?;
+        let beats = self.beats.as_ref()?.beat_samples();
+        let (i, avf) = (r.raw_tail(0, 10.0), r.raw_tail(5, 10.0));
+        let first = r.next_sample.saturating_sub(i.len() as u64);
+        let rel: Vec<usize> = beats
+            .iter()
+            .filter(|&&b| b >= first)
+            .map(|&b| (b - first) as usize)
+            .collect();
+        crate::leads::frontal_axis(&i, &avf, &rel, r.fs)
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -296,44 +296,6 @@ impl Dsp {
         }
     }
 
-    /// The frontal QRS axis over the beats of the last 10 s, while the twelve leads are derived
-    /// (leads I and aVF before the chain: the chain's delay would move the QRS out of the
-    /// net-area window).
-    fn frontal_axis(&self, r: &Running) -> Option<crate::leads::FrontalAxis> {
-        self.leads.names.as_ref()?;
-        let beats = self.beats.as_ref()?.beat_samples();
-        let (i, avf) = (r.raw_tail(0, 10.0), r.raw_tail(5, 10.0));
-        let first = r.next_sample.saturating_sub(i.len() as u64);
-        let rel: Vec<usize> = beats
-            .iter()
-            .filter(|&&b| b >= first)
-            .map(|&b| (b - first) as usize)
-            .collect();
-        crate::leads::frontal_axis(&i, &avf, &rel, r.fs)
-    }
-
-    /// The EMG view on (with these settings) or off. The marks made so far stay unless the new
-    /// settings bring their own.
-    fn set_emg(&mut self, e: Option<EmgSettings>) {
-        let keep = self
-            .emg
-            .as_ref()
-            .map(|o| (o.settings.baseline_uv, o.settings.mvc_rms_uv));
-        self.emg = e.map(|mut n| {
-            if let Some((b, m)) = keep {
-                n.baseline_uv = n.baseline_uv.or(b);
-                n.mvc_rms_uv = n.mvc_rms_uv.or(m);
-            }
-            Emg {
-                settings: n,
-                live: None,
-                view: None,
-                at: Instant::now(),
-            }
-        });
-        self.restart_emg();
-    }
-
     /// A stream of a new shape (rate, channels) starts: the last good chain at its rate (or a
     /// pass-through while it cannot be built there), fresh traces, a fresh readout.
     fn start_stream(&mut self, block: &RawBlock) -> bool {
@@ -365,19 +327,6 @@ impl Dsp {
         }
         self.restart_emg();
         true
-    }
-
-    /// A fresh live EMG analysis of the followed channel, fed once with the newest 20 s it
-    /// still has (after new settings, another channel or a new stream); from then on each
-    /// block feeds it its own samples only.
-    fn restart_emg(&mut self) {
-        let Some(e) = self.emg.as_mut() else { return };
-        e.view = None;
-        e.live = self.state.as_ref().map(|r| {
-            let mut live = LiveEmg::new(r.fs, e.settings);
-            live.push(r.raw_tail(self.follow, emg::VIEW_S));
-            live
-        });
     }
 
     /// The block in input-referred µV (the user's front end wins over the source's own

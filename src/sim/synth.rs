@@ -551,7 +551,11 @@ impl Synth {
         };
         let polarity = if s.inverted { -1.0 } else { 1.0 };
 
-        for (ch, &heart_v) in self.channels.iter_mut().zip(&self.heart_v) {
+        // On a board of electrode potentials the lead that comes off is LA's alone.
+        let floating = |k: usize| {
+            s.lead_off && (s.heart_leads != Some(crate::leads::LeadSet::Electrodes9) || k == 1)
+        };
+        for (k, (ch, &heart_v)) in self.channels.iter_mut().zip(&self.heart_v).enumerate() {
             ch.drift_v = rho * ch.drift_v + drift_w * ch.drift_rng.normal();
             let white = ch.noise_rng.normal();
             ch.noise_prev_out = a_mus * (ch.noise_prev_out + white - ch.noise_prev_in);
@@ -564,7 +568,7 @@ impl Synth {
             };
             let differential = heart_share * heart_v + emg_v + resp_v + ch.drift_v + ch.offset_v;
             let mut electrode_v = polarity * differential + mains_v + muscle_v;
-            if s.lead_off {
+            if floating(k) {
                 let pickup = SQRT_2 * LEAD_OFF_MAINS_V * self.mains_phase.sin();
                 electrode_v = LEAD_OFF_DC_V + pickup + 1e-3 * self.lead_off_rng.normal();
             }

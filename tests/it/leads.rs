@@ -233,3 +233,96 @@ fn two_limb_leads_give_six_leads_and_no_chest_lead() {
         .unwrap();
     assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
 }
+
+/// The DSP thread derives the twelve leads from the simulated eight-lead board before the chain:
+/// every recorded frame holds twelve leads whose identities hold, and the last snapshot names
+/// them and gives the frontal axis the simulator was set to (60°, ±10°).
+#[test]
+fn the_dsp_thread_derives_twelve_leads_and_the_axis_live() {
+    use leadline::leads::LeadSet;
+    use leadline::pipeline::{Pipeline, PipelineConfig};
+    use leadline::source::{Pacing, SourceSpec, SynthSettings};
+    let mut p = Pipeline::start(
+        PipelineConfig {
+            source: SourceSpec::Synth(SynthSettings {
+                fs_hz: 500.0,
+                channels: 8,
+                heart_leads: Some(LeadSet::Leads8),
+                axis_deg: 60.0,
+                ..SynthSettings::default()
+            }),
+            lead_set: Some(LeadSet::Leads8),
+            pacing: Pacing::Unpaced,
+            limit_s: Some(12.0),
+            record: true,
+            ..PipelineConfig::default()
+        },
+        std::sync::Arc::new(|| {}),
+    )
+    .unwrap();
+    let rx = p.take_records().unwrap();
+    let mut frames = 0;
+    for block in rx.iter() {
+        assert_eq!(block.channels, 12);
+        assert_eq!(block.names.as_ref().map(|n| n.len()), Some(12));
+        for f in block.raw_uv.chunks_exact(12) {
+            let scale = f.iter().fold(1.0f64, |m, v| m.max(v.abs()));
+            assert!((f[2] - (f[1] - f[0])).abs() <= 1e-9 * scale, "III = II − I");
+            assert!(
+                (f[3] + f[4] + f[5]).abs() <= 1e-9 * scale,
+                "aVR + aVL + aVF = 0"
+            );
+            frames += 1;
+        }
+    }
+    assert_eq!(frames, 6000);
+    let last = p.snapshots().try_iter().last().expect("a final snapshot");
+    assert_eq!(last.traces.len(), 12);
+    assert_eq!(
+        last.leads.as_ref().map(|n| n.join(" ")),
+        Some("I II III aVR aVL aVF V1 V2 V3 V4 V5 V6".to_string())
+    );
+    let axis = last.frontal_axis.expect("an axis after 12 s");
+    assert!((axis.degrees - 60.0).abs() <= 10.0, "{axis:?}");
+    assert!(last.electrodes_off.is_empty());
+}
+
+/// A board of nine electrodes with LA come off (the simulator floats that electrode: it picks
+/// up mains far above the others): the snapshot names it.
+#[test]
+fn an_electrode_that_comes_off_is_named() {
+    use leadline::leads::LeadSet;
+    use leadline::pipeline::{Pipeline, PipelineConfig};
+    use leadline::source::{Pacing, SourceSpec, SynthSettings};
+    let p = Pipeline::start(
+        PipelineConfig {
+            source: SourceSpec::Synth(SynthSettings {
+                fs_hz: 500.0,
+                channels: 9,
+                heart_leads: Some(LeadSet::Electrodes9),
+                lead_off: true,
+                ..SynthSettings::default()
+            }),
+            lead_set: Some(LeadSet::Electrodes9),
+            pacing: Pacing::Unpaced,
+            limit_s: Some(4.0),
+            ..PipelineConfig::default()
+        },
+        std::sync::Arc::new(|| {}),
+    )
+    .unwrap();
+    let deadline = std::time::Instant::now() + std::time::Duration::from_secs(20);
+    let mut last = None;
+    while std::time::Instant::now() < deadline {
+        if let Some(s) = p.latest_snapshot() {
+            let done = s.source_done;
+            last = Some(s);
+            if done {
+                break;
+            }
+        }
+        std::thread::sleep(std::time::Duration::from_millis(10));
+    }
+    let last = last.expect("snapshots");
+    assert_eq!(last.electrodes_off, vec!["LA"]);
+}

@@ -125,6 +125,12 @@ fn files(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<FilesAction> {
             });
         }
     });
+    action.or(pictures(ui, p))
+}
+
+/// The PNGs: traces, spectrum, twelve leads.
+fn pictures(ui: &mut egui::Ui, p: &mut FilesPanel) -> Option<FilesAction> {
+    let mut action = None;
     ui.add_space(4.0);
     ui.label(egui::RichText::new("Pictures").strong());
     ui.horizontal(|ui| {
