@@ -58,6 +58,7 @@ fn chain_with(sections: usize) -> ChainSettings {
                 order: 6,
             },
             gain: 1.0,
+            cancel: Default::default(),
         },
     }
 }

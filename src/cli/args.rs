@@ -269,6 +269,17 @@ pub struct ChainArgs {
     /// Plain gain after the filters, V/V.
     #[arg(value_parser = num::gain(), long, default_value_t = 1.0, value_name = "G")]
     pub gain: f64,
+    /// The adaptive mains canceller after the high-pass (Widrow's adaptive noise canceller with
+    /// an internal sinusoidal reference, the frequency tracked within ±1 Hz), in place of the
+    /// notch or with it; at --notch's frequency, else --mains-hz.
+    #[arg(long)]
+    pub mains_cancel: bool,
+    /// Harmonics the canceller follows: the fundamental and up to this order (1–5).
+    #[arg(value_parser = num::whole::<u32>(1, 5), long, default_value_t = 5, value_name = "N")]
+    pub mains_cancel_harmonics: u32,
+    /// Mains frequency for the canceller when --notch is not given, Hz.
+    #[arg(value_parser = num::real(40.0, 70.0, "Hz"), long, default_value_t = 50.0, value_name = "HZ")]
+    pub mains_hz: f64,
 }
 
 impl ChainArgs {
@@ -287,7 +298,10 @@ impl ChainArgs {
 
     /// True when any stage's flag was given.
     pub fn any_stage(&self) -> bool {
-        self.highpass.is_some() || self.notch.is_some() || self.lowpass.is_some()
+        self.highpass.is_some()
+            || self.notch.is_some()
+            || self.lowpass.is_some()
+            || self.mains_cancel
     }
 
     /// Checks `--notch auto`: it needs an input to measure.
@@ -314,7 +328,7 @@ impl ChainArgs {
             },
             notch: Notch {
                 enabled: self.notch.is_some(),
-                mains_hz: self.notch_hz().unwrap_or(50.0),
+                mains_hz: self.notch_hz().unwrap_or(self.mains_hz),
                 q: self.notch_q,
                 harmonics: self.notch_harmonics,
                 auto: self.notch_auto(),
@@ -325,6 +339,10 @@ impl ChainArgs {
                 order: self.lowpass_order,
             },
             gain: self.gain,
+            cancel: crate::dsp::canceller::MainsCancel {
+                enabled: self.mains_cancel,
+                harmonics: self.mains_cancel_harmonics,
+            },
         }
     }
 

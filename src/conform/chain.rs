@@ -102,15 +102,35 @@ pub struct Conformance {
     pub advice: Vec<String>,
 }
 
-fn run(sections: &[Section], x: &[f64], zero_phase: bool) -> Vec<f64> {
+/// `x` through the chain as it runs. With the mains canceller the live chain itself runs
+/// (high-pass, canceller, the other sections); forward and backward, the canceller runs once,
+/// forwards, before the sections.
+fn run(design: &Design, x: &[f64], zero_phase: bool) -> Vec<f64> {
+    let s = design.settings();
+    let sections = design.sections();
     if zero_phase {
+        let mut x = x.to_vec();
+        if s.cancel.enabled {
+            let mut c = crate::dsp::canceller::Canceller::new(
+                design.fs_hz(),
+                s.notch.mains_hz,
+                s.cancel.harmonics,
+            );
+            c.run_block(&mut x);
+        }
         // The signals here are seconds long: far longer than the padding.
-        chain::zero_phase(sections, x).unwrap_or_else(|_| x.to_vec())
-    } else {
-        let mut y = x.to_vec();
-        chain::filter_settled(sections, &mut y);
-        y
+        return chain::zero_phase(sections, &x).unwrap_or(x);
     }
+    let mut y = x.to_vec();
+    if s.cancel.enabled
+        && let Ok(mut live) = chain::Chain::new(*s, design.fs_hz(), 1)
+    {
+        live.settle(0, y.first().copied().unwrap_or(0.0));
+        live.process_channel(0, &mut y);
+        return y;
+    }
+    chain::filter_settled(sections, &mut y);
+    y
 }
 
 /// The impulse test's pulse at `fs`: zeros, 3 mV for 100 ms from 1 s, zeros for 5.5 s.
@@ -147,7 +167,7 @@ pub fn check(design: &Design, mode: Mode, zero_phase: bool) -> Result<Conformanc
     let gain = settings.gain;
     // Impulse test, judged on the chain's own scale (its plain gain divided out).
     let (x, end) = pulse(fs);
-    let y: Vec<f64> = run(sections, &x, zero_phase)
+    let y: Vec<f64> = run(design, &x, zero_phase)
         .iter()
         .map(|v| v / gain)
         .collect();
@@ -190,7 +210,7 @@ pub fn check(design: &Design, mode: Mode, zero_phase: bool) -> Result<Conformanc
         f *= 1.01;
     }
 
-    let st = st_shift(sections, fs, zero_phase) / gain;
+    let st = st_shift(design, zero_phase) / gain;
 
     let pass = Passes {
         impulse_undershoot: undershoot <= UNDERSHOOT_LIMIT_UV,
@@ -238,11 +258,12 @@ pub fn check(design: &Design, mode: Mode, zero_phase: bool) -> Result<Conformanc
 
 /// ST shift the chain makes on the simulator's beat (1 mV, 60 bpm, no noise), µV: the ST level
 /// (60 ms after the end of the QRS) against the PR level (70 ms before R), after − before.
-fn st_shift(sections: &[Section], fs: f64, zero_phase: bool) -> f64 {
+fn st_shift(design: &Design, zero_phase: bool) -> f64 {
+    let fs = design.fs_hz();
     let beat = BeatShape::normal(1.0);
     let mut heart = ScheduledHeart::new(fs, vec![(1.0, beat)]);
     let x = heart.render_uv(20.0);
-    let y = run(sections, &x, zero_phase);
+    let y = run(design, &x, zero_phase);
     // The beat at 15 s: well after any start-up, well before any end effect.
     let r = (15.0 * fs).round() as usize;
     let at = |v: &[f64], dt: f64| v[(r as f64 + dt * fs).round() as usize];

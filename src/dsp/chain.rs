@@ -91,6 +91,9 @@ pub struct ChainSettings {
     pub lowpass: LowPass,
     /// Plain gain after the filters, V/V.
     pub gain: f64,
+    /// The adaptive mains canceller after the high-pass, at the notch's mains frequency (not a
+    /// set of sections: it runs beside them and is not in the [`Design`]).
+    pub cancel: super::canceller::MainsCancel,
 }
 
 impl Default for ChainSettings {
@@ -100,6 +103,7 @@ impl Default for ChainSettings {
             notch: Notch::default(),
             lowpass: LowPass::default(),
             gain: 1.0,
+            cancel: super::canceller::MainsCancel::default(),
         }
     }
 }
@@ -138,6 +142,7 @@ impl ChainSettings {
                 },
             ),
             gain: 1.0,
+            cancel: Default::default(),
         }
     }
 
@@ -163,6 +168,12 @@ impl ChainSettings {
                 }
             ));
         }
+        if self.cancel.enabled {
+            parts.push(format!(
+                "C:{}Hz({}h)",
+                self.notch.mains_hz, self.cancel.harmonics
+            ));
+        }
         if self.lowpass.enabled {
             parts.push(format!(
                 "LP:{}Hz(o{})",
@@ -176,6 +187,15 @@ impl ChainSettings {
             "none".into()
         } else {
             parts.join(" ")
+        }
+    }
+
+    /// How many of the design's sections are the high-pass (the canceller runs after them).
+    pub fn highpass_sections(&self) -> usize {
+        if self.highpass.enabled {
+            self.highpass.order.div_ceil(2) as usize
+        } else {
+            0
         }
     }
 

@@ -1,6 +1,7 @@
 //! Digital filtering: designs ([`design`]) return plain second-order sections; the runtime
 //! cascade ([`chain`]) owns the state and retunes without reallocating.
 
+pub mod canceller;
 pub mod cascade;
 pub mod chain;
 pub mod design;

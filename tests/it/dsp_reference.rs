@@ -312,6 +312,7 @@ fn conform_matches_scipy_on_the_impulse_test_and_the_067_hz_gain() {
                 },
             },
             gain: 1.0,
+            cancel: Default::default(),
         };
         let fs = case["fs"].as_f64().unwrap();
         let zero_phase = case["zero_phase"].as_bool().unwrap();

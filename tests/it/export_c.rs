@@ -60,6 +60,7 @@ fn settings() -> ChainSettings {
             order: 4,
         },
         gain: 1.0,
+        cancel: Default::default(),
     }
 }
 

@@ -20,6 +20,7 @@ mod fuzz;
 mod gui;
 mod heart_rate;
 mod leads;
+mod mains;
 mod measure;
 mod pipeline;
 mod record;

@@ -76,6 +76,7 @@ pub fn bench_chain() -> ChainSettings {
             order: 4,
         },
         gain: 1.0,
+        cancel: Default::default(),
     }
 }
 
