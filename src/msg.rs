@@ -206,6 +206,8 @@ pub struct Snapshot {
     pub electrodes_off: Vec<&'static str>,
     /// The frontal QRS axis over the last 10 s, while the leads are derived.
     pub frontal_axis: Option<crate::leads::FrontalAxis>,
+    /// The mains canceller on the followed channel: tracked frequency, removed amplitudes.
+    pub cancel: Option<crate::dsp::canceller::CancelState>,
 }
 
 /// Messages from the GUI (or CLI) to the threads. Tiny and rare: the channel is unbounded.

@@ -6,6 +6,7 @@ pub mod beats;
 pub mod devset;
 pub mod emg;
 pub mod heldout;
+pub mod hum;
 pub mod mains;
 pub mod quality;
 pub mod rate;

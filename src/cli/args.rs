@@ -269,17 +269,8 @@ pub struct ChainArgs {
     /// Plain gain after the filters, V/V.
     #[arg(value_parser = num::gain(), long, default_value_t = 1.0, value_name = "G")]
     pub gain: f64,
-    /// The adaptive mains canceller after the high-pass (Widrow's adaptive noise canceller with
-    /// an internal sinusoidal reference, the frequency tracked within ±1 Hz), in place of the
-    /// notch or with it; at --notch's frequency, else --mains-hz.
-    #[arg(long)]
-    pub mains_cancel: bool,
-    /// Harmonics the canceller follows: the fundamental and up to this order (1–5).
-    #[arg(value_parser = num::whole::<u32>(1, 5), long, default_value_t = 5, value_name = "N")]
-    pub mains_cancel_harmonics: u32,
-    /// Mains frequency for the canceller when --notch is not given, Hz.
-    #[arg(value_parser = num::real(40.0, 70.0, "Hz"), long, default_value_t = 50.0, value_name = "HZ")]
-    pub mains_hz: f64,
+    #[command(flatten)]
+    pub cancel: CancelArgs,
 }
 
 impl ChainArgs {
@@ -301,7 +292,7 @@ impl ChainArgs {
         self.highpass.is_some()
             || self.notch.is_some()
             || self.lowpass.is_some()
-            || self.mains_cancel
+            || self.cancel.mains_cancel
     }
 
     /// Checks `--notch auto`: it needs an input to measure.
@@ -328,7 +319,7 @@ impl ChainArgs {
             },
             notch: Notch {
                 enabled: self.notch.is_some(),
-                mains_hz: self.notch_hz().unwrap_or(self.mains_hz),
+                mains_hz: self.notch_hz().unwrap_or(self.cancel.mains_hz),
                 q: self.notch_q,
                 harmonics: self.notch_harmonics,
                 auto: self.notch_auto(),
@@ -339,10 +330,7 @@ impl ChainArgs {
                 order: self.lowpass_order,
             },
             gain: self.gain,
-            cancel: crate::dsp::canceller::MainsCancel {
-                enabled: self.mains_cancel,
-                harmonics: self.mains_cancel_harmonics,
-            },
+            cancel: self.cancel.settings(),
         }
     }
 
@@ -580,4 +568,39 @@ pub fn derive_leads(
         },
         Some(set),
     ))
+}
+
+/// The adaptive mains canceller on the command line (in every chain, and before `spectrum` and
+/// `beats` analyse a recording).
+#[derive(Debug, Clone, Default, clap::Args)]
+pub struct CancelArgs {
+    /// The adaptive mains canceller after the high-pass (Widrow's adaptive noise canceller with
+    /// an internal sinusoidal reference, the frequency tracked within ±1 Hz), in place of the
+    /// notch or with it; at --notch's frequency, else --mains-hz.
+    #[arg(long)]
+    pub mains_cancel: bool,
+    /// Harmonics the canceller follows: the fundamental and up to this order (1–5).
+    #[arg(value_parser = num::whole::<u32>(1, 5), long, default_value_t = 5, value_name = "N")]
+    pub mains_cancel_harmonics: u32,
+    /// Mains frequency for the canceller when --notch is not given, Hz.
+    #[arg(value_parser = num::real(40.0, 70.0, "Hz"), long, default_value_t = 50.0, value_name = "HZ")]
+    pub mains_hz: f64,
+}
+
+impl CancelArgs {
+    /// The canceller's settings.
+    pub fn settings(&self) -> crate::dsp::canceller::MainsCancel {
+        crate::dsp::canceller::MainsCancel {
+            enabled: self.mains_cancel,
+            harmonics: self.mains_cancel_harmonics,
+        }
+    }
+
+    /// With `--mains-cancel`, runs the canceller over `x` (µV at `fs`) at --mains-hz.
+    pub fn apply(&self, x: &mut [f64], fs: f64) {
+        if self.mains_cancel {
+            crate::dsp::canceller::Canceller::new(fs, self.mains_hz, self.mains_cancel_harmonics)
+                .run_block(x);
+        }
+    }
 }

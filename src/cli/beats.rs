@@ -19,6 +19,8 @@ pub struct BeatsArgs {
     pub src: InputArgs,
     #[command(flatten)]
     pub leads: LeadArgs,
+    #[command(flatten)]
+    pub cancel: CancelArgs,
     /// Signal to analyse: 0-based index or name (every signal of an EDF/BDF, whatever its rate).
     #[arg(long, default_value = "0", value_name = "K|NAME")]
     pub channel: String,
@@ -55,7 +57,9 @@ struct Summary {
 /// # Errors
 /// A bad or unreadable input, a rate outside 125–2000 Hz, an unwritable output.
 pub fn run(a: &BeatsArgs) -> Result<usize> {
-    let (rec, ch) = a.leads.load(&a.src, &a.channel)?;
+    let (mut rec, ch) = a.leads.load(&a.src, &a.channel)?;
+    let fs = rec.fs_hz;
+    a.cancel.apply(&mut rec.channels[ch], fs);
     let x = &rec.channels[ch];
     // The monitor's readout, fed as the monitor feeds it (10 ms blocks; any split gives the
     // same result).

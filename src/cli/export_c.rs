@@ -60,9 +60,15 @@ pub fn run(a: &ExportCArgs) -> Result<()> {
         chain: a.chain.settings().describe(),
         prefix: a.prefix.clone(),
         format: a.format.format(),
+        canceller: a.chain.settings().cancel.enabled,
     };
     let text = c_header::header(&sections, &info).map_err(|e| BadInput(e.to_string()))?;
     std::fs::write(&a.out, text).with_context(|| format!("cannot write {}", a.out.display()))?;
+    if a.chain.cancel.mains_cancel {
+        eprintln!(
+            "note: the adaptive mains canceller is not in the header (it runs in leadline only); the header says so"
+        );
+    }
     eprintln!(
         "wrote {} ({} sections, {} at {} Hz)",
         a.out.display(),

@@ -21,6 +21,8 @@ pub struct SpectrumArgs {
     pub src: InputArgs,
     #[command(flatten)]
     pub leads: LeadArgs,
+    #[command(flatten)]
+    pub cancel: CancelArgs,
     /// Welch segment length (power of two, 256–16384); default about 4 s of signal.
     #[arg(value_parser = num::whole::<usize>(256, 16_384), long, value_name = "N")]
     pub segment: Option<usize>,
@@ -57,7 +59,9 @@ struct Report<'a> {
 /// # Errors
 /// A bad or unreadable input (exit 2 for bad input), or an output that cannot be written.
 pub fn run(a: &SpectrumArgs) -> Result<()> {
-    let (rec, ch) = a.leads.load(&a.src, &a.channel)?;
+    let (mut rec, ch) = a.leads.load(&a.src, &a.channel)?;
+    let fs = rec.fs_hz;
+    a.cancel.apply(&mut rec.channels[ch], fs);
     let x = &rec.channels[ch];
     let segment = a.segment.unwrap_or_else(|| {
         segment_for(rec.fs_hz, 4.0)

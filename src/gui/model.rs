@@ -310,6 +310,7 @@ fn files(st: &mut AppState, f: FilesAction) -> Vec<Effect> {
                     chain: design.settings().describe(),
                     prefix,
                     format,
+                    canceller: design.settings().cancel.enabled,
                 },
                 design: Arc::clone(design),
             }),

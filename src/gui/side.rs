@@ -50,6 +50,7 @@ fn filters(ui: &mut egui::Ui, st: &AppState) -> Vec<Action> {
         ui,
         &st.settings.setup.chain,
         st.fs_hz(),
+        snap.and_then(|s| s.cancel.as_ref()),
     ));
     let mains = snap
         .and_then(|s| s.spectrum.as_ref())

@@ -575,6 +575,7 @@ impl Dsp {
             lead_error: self.leads.error.clone(),
             electrodes_off: self.leads.off.clone(),
             frontal_axis,
+            cancel: r.chain.cancel_state(self.follow.min(r.channels - 1)),
         })
     }
 }

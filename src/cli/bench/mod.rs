@@ -13,6 +13,7 @@ use serde::Serialize;
 use std::hint::black_box;
 use std::time::Instant;
 
+mod mains;
 mod runs;
 
 pub use runs::annotated;
@@ -35,6 +36,9 @@ pub enum BenchWhat {
     /// Sound: the renderer (beat tone and signal, 48 kHz) on 60 s of a 1 kHz stream in 10 ms
     /// blocks, as the DSP thread runs it; and the EMG view of 20 s at 1 kHz.
     Sound,
+    /// The adaptive mains canceller against the Q 30 notch on the committed fixture (--mains):
+    /// residual per harmonic, QRS error, ST shift, the impulse test.
+    Mains,
 }
 
 /// Options of `leadline bench`.
@@ -53,6 +57,9 @@ pub struct BenchArgs {
     /// in-sample and the three-against-two held-out figures.
     #[arg(long, value_name = "DIR", default_value = "tests/data/mitdb")]
     pub annotated: PathBuf,
+    /// `bench mains`: the folder of the mains fixture (mains60.f32, mains60.json).
+    #[arg(long, value_name = "DIR", default_value = "tests/data/mains")]
+    pub mains: PathBuf,
 }
 
 /// The benchmark chain: HP 2nd order 0.5 Hz + notch 60 Hz Q 30 + LP 4th order 40 Hz at 1 kHz.
@@ -144,5 +151,6 @@ pub fn run(a: &BenchArgs) -> Result<()> {
         BenchWhat::Net => report(&runs::net()?, |f| f.print()),
         BenchWhat::Sound => report(&runs::sound()?, |f| f.print()),
         BenchWhat::Spectrum => report(&runs::spectrum()?, |f| f.print()),
+        BenchWhat::Mains => report(&mains::mains(&a.mains)?, |f| f.print()),
     }
 }

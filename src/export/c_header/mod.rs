@@ -168,6 +168,7 @@ mod tests {
             chain: "x".into(),
             prefix: "9lives".into(),
             format: CFormat::F32,
+            canceller: false,
         };
         assert!(matches!(
             header(&chain(500.0), &info),

@@ -14,6 +14,8 @@ pub struct HeaderInfo {
     pub chain: String,
     pub prefix: String,
     pub format: CFormat,
+    /// The chain runs the adaptive mains canceller too, which the header does not hold.
+    pub canceller: bool,
 }
 
 fn check_prefix(p: &str) -> Result<(), ExportError> {
@@ -80,6 +82,16 @@ fn comment(h: &mut String, sections: &[Section], info: &HeaderInfo) {
         info.fs_hz
     );
     let _ = writeln!(h, " * Chain (in processing order): {}", info.chain);
+    if info.canceller {
+        let _ = writeln!(
+            h,
+            " * NOT IN THIS HEADER: the chain's adaptive mains canceller (C:…) runs in leadline only;"
+        );
+        let _ = writeln!(
+            h,
+            " * the sections below are the rest of the chain. Without it, add a notch for the mains."
+        );
+    }
     let _ = writeln!(
         h,
         " * Sections: {n}. Per section (b0, b1, b2, a1, a2, a0 = 1) of the design:"

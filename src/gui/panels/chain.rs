@@ -2,17 +2,92 @@
 
 use eframe::egui;
 
+use crate::dsp::canceller::CancelState;
 use crate::dsp::chain::ChainSettings;
 use crate::gui::action::Action;
 
-/// Draws the chain controls for `chain`; the edited chain when anything changed.
-pub fn show(ui: &mut egui::Ui, chain: &ChainSettings, fs_hz: f64) -> Option<Action> {
+/// Draws the chain controls for `chain`, with what the mains canceller has found (`cancel`);
+/// the edited chain when anything changed.
+pub fn show(
+    ui: &mut egui::Ui,
+    chain: &ChainSettings,
+    fs_hz: f64,
+    cancel: Option<&CancelState>,
+) -> Option<Action> {
     let mut c = *chain;
-    (edit(ui, &mut c, fs_hz) || c != *chain).then_some(Action::Chain(c))
+    (edit(ui, &mut c, fs_hz, cancel) || c != *chain).then_some(Action::Chain(c))
+}
+
+/// The mains canceller: on or off, its harmonics, and what it tracks and removes.
+fn canceller(ui: &mut egui::Ui, chain: &mut ChainSettings, cancel: Option<&CancelState>) {
+    ui.checkbox(&mut chain.cancel.enabled, "Adaptive mains canceller")
+        .on_hover_text("Estimates the mains waveform and subtracts it (Widrow's adaptive noise canceller with an internal sinusoidal reference), following the frequency within ±1 Hz: deep at every harmonic without a notch's ringing. Alone or with the notch; fades in and out.");
+    if !chain.cancel.enabled {
+        return;
+    }
+    ui.add(egui::Slider::new(&mut chain.cancel.harmonics, 1..=5).text("Canceller harmonics"))
+        .on_hover_text("The fundamental and its harmonics up to this order (those below 0.45·fs).");
+    if let Some(c) = cancel {
+        let amps: Vec<String> = c.rms_uv.iter().map(|a| format!("{a:.1}")).collect();
+        ui.label(
+            egui::RichText::new(format!(
+                "tracking {:.2} Hz · removing {} µV RMS",
+                c.hz,
+                amps.join(" / ")
+            ))
+            .small(),
+        )
+        .on_hover_text("The tracked mains frequency, and the amplitude taken out at the fundamental and each harmonic on the followed channel.");
+    }
+}
+
+/// The mains notch: on or off, 50/60 Hz or following the measured mains, Q and harmonics.
+fn notch(ui: &mut egui::Ui, chain: &mut ChainSettings) {
+    ui.checkbox(&mut chain.notch.enabled, "Mains notch")
+        .on_hover_text("Second-order notch at the mains frequency (−3 dB bandwidth = f0/Q).");
+    ui.add_enabled_ui(chain.notch.enabled, |ui| {
+        ui.horizontal(|ui| {
+            ui.add_enabled_ui(!chain.notch.auto, |ui| {
+                ui.selectable_value(&mut chain.notch.mains_hz, 50.0, "50 Hz");
+                ui.selectable_value(&mut chain.notch.mains_hz, 60.0, "60 Hz");
+            });
+            ui.checkbox(&mut chain.notch.auto, "auto")
+                .on_hover_text("Follow the measured mains: its region (50/60 Hz), its exact frequency within ±1 Hz, and the harmonics that stand out. Retuned about once a second from the spectrum.");
+        });
+        if chain.notch.auto {
+            ui.label(
+                egui::RichText::new(format!(
+                    "following the mains: {:.2} Hz{}",
+                    chain.notch.mains_hz,
+                    if chain.notch.harmonics > 0 {
+                        format!(" + {} harmonic(s)", chain.notch.harmonics)
+                    } else {
+                        String::new()
+                    }
+                ))
+                .small(),
+            );
+        }
+        ui.add(
+            egui::Slider::new(&mut chain.notch.q, 1.0..=100.0)
+                .logarithmic(true)
+                .text("Notch Q")
+                .max_decimals(1),
+        )
+        .on_hover_text("Higher Q: narrower notch, less damage to the QRS, longer ringing, less tolerance of mains drift.");
+        ui.label(format!("bandwidth {:.2} Hz", chain.notch.mains_hz / chain.notch.q));
+        ui.add(egui::Slider::new(&mut chain.notch.harmonics, 0..=4).text("Harmonic notches"))
+            .on_hover_text("Also notch harmonics 2… of the mains (those below Nyquist).");
+    });
 }
 
 /// The controls; true when anything changed.
-fn edit(ui: &mut egui::Ui, chain: &mut ChainSettings, fs_hz: f64) -> bool {
+fn edit(
+    ui: &mut egui::Ui,
+    chain: &mut ChainSettings,
+    fs_hz: f64,
+    cancel: Option<&CancelState>,
+) -> bool {
     let before = *chain;
     let nyq = fs_hz / 2.0;
     ui.horizontal(|ui| {
@@ -53,42 +128,16 @@ fn edit(ui: &mut egui::Ui, chain: &mut ChainSettings, fs_hz: f64) -> bool {
     });
     ui.separator();
 
-    ui.checkbox(&mut chain.notch.enabled, "Mains notch")
-        .on_hover_text("Second-order notch at the mains frequency (−3 dB bandwidth = f0/Q).");
-    ui.add_enabled_ui(chain.notch.enabled, |ui| {
+    notch(ui, chain);
+    if !chain.notch.enabled {
+        // The canceller's mains frequency, when the notch (which holds it) is off.
         ui.horizontal(|ui| {
-            ui.add_enabled_ui(!chain.notch.auto, |ui| {
-                ui.selectable_value(&mut chain.notch.mains_hz, 50.0, "50 Hz");
-                ui.selectable_value(&mut chain.notch.mains_hz, 60.0, "60 Hz");
-            });
-            ui.checkbox(&mut chain.notch.auto, "auto")
-                .on_hover_text("Follow the measured mains: its region (50/60 Hz), its exact frequency within ±1 Hz, and the harmonics that stand out. Retuned about once a second from the spectrum.");
+            ui.label("Mains");
+            ui.selectable_value(&mut chain.notch.mains_hz, 50.0, "50 Hz");
+            ui.selectable_value(&mut chain.notch.mains_hz, 60.0, "60 Hz");
         });
-        if chain.notch.auto {
-            ui.label(
-                egui::RichText::new(format!(
-                    "following the mains: {:.2} Hz{}",
-                    chain.notch.mains_hz,
-                    if chain.notch.harmonics > 0 {
-                        format!(" + {} harmonic(s)", chain.notch.harmonics)
-                    } else {
-                        String::new()
-                    }
-                ))
-                .small(),
-            );
-        }
-        ui.add(
-            egui::Slider::new(&mut chain.notch.q, 1.0..=100.0)
-                .logarithmic(true)
-                .text("Notch Q")
-                .max_decimals(1),
-        )
-        .on_hover_text("Higher Q: narrower notch, less damage to the QRS, longer ringing, less tolerance of mains drift.");
-        ui.label(format!("bandwidth {:.2} Hz", chain.notch.mains_hz / chain.notch.q));
-        ui.add(egui::Slider::new(&mut chain.notch.harmonics, 0..=4).text("Harmonic notches"))
-            .on_hover_text("Also notch harmonics 2… of the mains (those below Nyquist).");
-    });
+    }
+    canceller(ui, chain, cancel);
     ui.separator();
 
     ui.checkbox(&mut chain.lowpass.enabled, "Low-pass")
