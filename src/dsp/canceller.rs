@@ -14,7 +14,9 @@
 //! standing error), within ±1 Hz of the nominal 50 or 60 Hz.
 //!
 //! Switching on or off fades the subtraction over 100 ms (the weights keep adapting), so the
-//! output never steps.
+//! output never steps. A step in the input far steeper than its usual change (a calibration
+//! pulse, an electrode pop) stops the learning for 150 ms, so the canceller does not learn the
+//! step's own content at the mains frequencies and give it back afterwards.
 
 use serde::{Deserialize, Serialize};
 use std::f64::consts::TAU;
@@ -36,6 +38,13 @@ const LOCKED_CORRECTIONS: usize = 20;
 const TRACK_RANGE_HZ: f64 = 1.0;
 /// The fade when switched on or off, s.
 const FADE_S: f64 = 0.1;
+/// A step in the input far steeper than its usual change (ten times its running mean
+/// sample-to-sample change, and at least 50 µV per millisecond) stops the learning for 150 ms:
+/// a calibration pulse or an electrode pop teaches the weights nothing, while the mains itself
+/// and the QRS change far less steeply (our choice).
+const EDGE_K: f64 = 10.0;
+const EDGE_FLOOR_UV_PER_MS: f64 = 50.0;
+const EDGE_HOLD_S: f64 = 0.15;
 /// Below this amplitude (µV) of the fundamental the frequency is not corrected: there is no
 /// mains to lock on.
 const LOCK_MIN_UV: f64 = 0.5;
@@ -89,6 +98,17 @@ pub struct Canceller {
     mix: f64,
     target: f64,
     fade_step: f64,
+    /// The last input, the running mean of its sample-to-sample change, its smoothing factor,
+    /// and the samples the learning still waits after a step.
+    x_last: f64,
+    dx_mean: f64,
+    dx_alpha: f64,
+    edge_floor: f64,
+    hold: usize,
+    hold_len: usize,
+    /// Samples left of the first quarter second, in which the usual change is learnt and
+    /// nothing is held.
+    warm: usize,
 }
 
 impl Canceller {
@@ -113,6 +133,13 @@ impl Canceller {
             mix: 1.0,
             target: 1.0,
             fade_step: 1.0 / (FADE_S * fs).max(1.0),
+            x_last: f64::NAN,
+            dx_mean: 0.0,
+            dx_alpha: 1.0 / fs.max(1.0),
+            edge_floor: EDGE_FLOOR_UV_PER_MS * 1000.0 / fs,
+            hold: 0,
+            hold_len: (EDGE_HOLD_S * fs).round() as usize,
+            warm: (0.25 * fs) as usize,
         }
     }
 
@@ -156,6 +183,10 @@ impl Canceller {
             m += self.w[h][0] * c + self.w[h][1] * s;
         }
         let e = x - m;
+        if self.stepped(x) {
+            self.advance();
+            return self.output(x, m);
+        }
         // Harmonic h turns h times faster for a given frequency error: its weights adapt √h
         // times faster, a balance between its lag and the ECG it would otherwise take out.
         let g = 2.0 * self.mu * e;
@@ -164,12 +195,47 @@ impl Canceller {
             w[0] += gh * r[0];
             w[1] += gh * r[1];
         }
+        self.advance();
+        self.output(x, m)
+    }
+
+    /// True while the input has just stepped far more steeply than it usually changes.
+    fn stepped(&mut self, x: f64) -> bool {
+        let dx = if self.x_last.is_nan() {
+            0.0
+        } else {
+            (x - self.x_last).abs()
+        };
+        self.x_last = x;
+        if self.warm > 0 {
+            self.warm -= 1;
+            self.dx_mean += (dx - self.dx_mean) * 10.0 * self.dx_alpha;
+            return false;
+        }
+        let limit = (EDGE_K * self.dx_mean).max(self.edge_floor);
+        if dx > limit {
+            self.hold = self.hold_len;
+        }
+        self.dx_mean += (dx.min(limit) - self.dx_mean) * self.dx_alpha;
+        if self.hold > 0 {
+            self.hold -= 1;
+            return true;
+        }
+        false
+    }
+
+    /// The reference phase one sample on, and the frequency corrected when due.
+    fn advance(&mut self) {
         self.phase = (self.phase + TAU * self.hz / self.fs).rem_euclid(TAU);
         self.since_track += 1;
         if self.since_track == self.track_every {
             self.since_track = 0;
             self.track();
         }
+    }
+
+    /// The output for input `x` and estimate `m`, with the fade.
+    fn output(&mut self, x: f64, m: f64) -> f64 {
         if self.mix != self.target {
             self.mix = if self.mix < self.target {
                 (self.mix + self.fade_step).min(self.target)

@@ -98,3 +98,34 @@ fn the_canceller_shifts_the_st_segment_of_the_simulators_beat_by_10_uv_or_less()
         assert!(shift.abs() <= 10.0, "{mains} Hz: ST shift {shift:.2} µV");
     }
 }
+
+/// The standards' impulse test (3 mV for 100 ms, as `leadline conform` runs it;
+/// docs/REFERENCES.md §2) with the canceller in the monitoring chain instead of the notch: no
+/// worse, at 500 and 1000 Hz.
+#[test]
+fn the_impulse_test_is_no_worse_with_the_canceller_than_with_the_notch() {
+    use leadline::conform::{Mode, check};
+    use leadline::dsp::ChainSettings;
+    let notch = ChainSettings::default();
+    let mut cancel = notch;
+    cancel.notch.enabled = false;
+    cancel.cancel.enabled = true;
+    for fs in [500.0, 1000.0] {
+        let n = check(&notch.design(fs).unwrap(), Mode::Monitoring, false).unwrap();
+        let c = check(&cancel.design(fs).unwrap(), Mode::Monitoring, false).unwrap();
+        assert!(
+            c.impulse_undershoot_uv <= n.impulse_undershoot_uv,
+            "{fs} Hz: {} vs {}",
+            c.impulse_undershoot_uv,
+            n.impulse_undershoot_uv
+        );
+        assert!(
+            c.impulse_slope_uv_per_s <= n.impulse_slope_uv_per_s * 1.01,
+            "{fs} Hz: {} vs {}",
+            c.impulse_slope_uv_per_s,
+            n.impulse_slope_uv_per_s
+        );
+        assert!(c.pass.impulse_undershoot || !n.pass.impulse_undershoot);
+        assert!(c.pass.impulse_slope || !n.pass.impulse_slope);
+    }
+}
