@@ -509,6 +509,8 @@ mod tests {
         s.chain.notch.mains_hz = 60.0;
         s.chain.notch.harmonics = 2;
         s.chain.lowpass.order = 6;
+        s.chain.cancel.enabled = true;
+        s.chain.cancel.harmonics = 3;
         s.synth.fs_hz = 1000.0;
         s.synth.channels = 3;
         s.synth.charger = true;

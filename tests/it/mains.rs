@@ -129,3 +129,60 @@ fn the_impulse_test_is_no_worse_with_the_canceller_than_with_the_notch() {
         assert!(c.pass.impulse_slope || !n.pass.impulse_slope);
     }
 }
+
+/// Switching the canceller on and off in the running chain (high-pass, notch off, low-pass)
+/// never steps the output: the sections' states carry over and the subtraction fades.
+#[test]
+fn switching_the_canceller_in_the_running_chain_is_glitch_free() {
+    use leadline::dsp::ChainSettings;
+    use leadline::dsp::chain::Chain;
+    let fx = Fixture::read(&dir()).unwrap();
+    let mut plain = ChainSettings::default();
+    plain.notch.enabled = false;
+    plain.notch.mains_hz = 60.0;
+    let mut on = plain;
+    on.cancel.enabled = true;
+    let mut chain = Chain::new(plain, 1000.0, 1).unwrap();
+    let mut reference = Chain::new(plain, 1000.0, 1).unwrap();
+    let mut y = fx.noisy[..20_000].to_vec();
+    let mut r = y.clone();
+    for (k, (b, rb)) in y.chunks_mut(10).zip(r.chunks_mut(10)).enumerate() {
+        match k {
+            500 => chain.retune(on).unwrap(),
+            1500 => chain.retune(plain).unwrap(),
+            _ => {}
+        }
+        chain.process_channel(0, b);
+        reference.process_channel(0, rb);
+    }
+    // Around each switch the output departs from the plain chain's only by the fading
+    // subtraction: never by more than the hum itself.
+    for at in [5000usize, 15_000] {
+        let worst = (at - 20..at + 20)
+            .map(|i| (y[i] - r[i]).abs())
+            .fold(0.0, f64::max);
+        assert!(worst < 250.0, "at {at}: {worst} µV");
+    }
+    // Once faded out, the chain is the plain one again, to the last bit.
+    assert!(
+        (19_000..20_000).all(|i| y[i] == r[i] || (y[i] - r[i]).abs() < 1e-6),
+        "after off"
+    );
+    // While on, the hum the plain chain lets through (its low-pass only attenuates 60 Hz) is
+    // gone: against the clean ECG through the same plain chain.
+    let mut clean = Chain::new(plain, 1000.0, 1).unwrap();
+    let mut c = fx.clean[..20_000].to_vec();
+    for b in c.chunks_mut(10) {
+        clean.process_channel(0, b);
+    }
+    let ph = fx.phase();
+    let at_60 = |v: &[f64]| {
+        let d: Vec<f64> = v.iter().zip(&c).map(|(a, b)| a - b).collect();
+        harmonic_amplitude(&d, &ph, 1.0, 12_000..14_000)
+    };
+    let (hum_plain, hum_on) = (at_60(&r), at_60(&y));
+    assert!(
+        hum_plain > 20.0 && hum_on < 0.01 * hum_plain,
+        "{hum_plain} → {hum_on} µV"
+    );
+}
