@@ -162,6 +162,7 @@ pub fn start_settings(args: &MonitorArgs) -> anyhow::Result<crate::gui::state::S
         if settings.simulating() {
             settings.setup.synth.heart_leads = Some(set);
             settings.setup.synth.channels = set.inputs().len();
+            settings.setup.view.channel = crate::leads::LEAD_II;
         }
     }
     settings.setup.synth.validate()?;

@@ -104,4 +104,10 @@ pub enum FilesAction {
     TracePng(PathBuf),
     SpectrumPng(PathBuf),
     TwelvePng(PathBuf),
+    /// The parts view's schematic (.svg), SPICE netlist (.cir) and parts list (-bom.csv).
+    PartsFiles {
+        base: String,
+        circuit: Box<crate::analog::circuit::Circuit>,
+        title: String,
+    },
 }

@@ -187,7 +187,6 @@ impl LeadlineApp {
                 let wake = Arc::clone(&self.notify);
                 self.jobs.start(job, move || wake());
             }
-            Effect::AcknowledgeCaution => super::state::acknowledge_caution(),
         }
     }
 
@@ -273,8 +272,13 @@ impl LeadlineApp {
         };
         if due {
             if let Some(p) = crate::setup::last_setup_path() {
-                // Not being able to remember only means defaults at the next start.
-                let _ = now.save(&p);
+                let job = super::jobs::Job::Remember(Box::new(now.clone()), p);
+                if force {
+                    // Closing: the process ends next, so the last setup is written before.
+                    let _ = super::jobs::run(job);
+                } else {
+                    self.jobs.start(job, || {});
+                }
             }
             self.remembered = Some((now, Instant::now()));
         }
@@ -301,7 +305,7 @@ impl LeadlineApp {
 
     /// Draws the whole window, then applies what was asked for.
     pub fn show(&mut self, ui: &mut egui::Ui) {
-        for done in self.jobs.finished() {
+        for done in self.jobs.finished().into_iter().filter(|d| !d.quiet) {
             self.apply(Action::JobDone(done));
         }
         if self.state.jobs_running > 0 {

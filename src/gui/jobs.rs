@@ -29,6 +29,16 @@ pub enum Job {
     TracePng(Box<TracePng>),
     /// The twelve-lead sheet as a PNG.
     TwelvePng(Box<TwelvePng>),
+    /// The parts view's schematic, netlist and parts list, from a base path.
+    PartsFiles {
+        base: String,
+        circuit: Box<crate::analog::circuit::Circuit>,
+        title: String,
+    },
+    /// The setup remembered for the next start (reported to no one).
+    Remember(Box<Setup>, PathBuf),
+    /// The mark that the first-start caution was read (reported to no one).
+    AcknowledgeCaution,
     /// The newest spectrum as a PNG.
     SpectrumPng {
         path: PathBuf,
@@ -65,6 +75,8 @@ pub struct JobDone {
     pub message: Result<String, String>,
     /// A setup that was read (a [`Job::LoadSetup`] that succeeded).
     pub setup: Option<Box<Setup>>,
+    /// Bookkeeping the user did not ask for: not reported in the Files section.
+    pub quiet: bool,
 }
 
 impl JobDone {
@@ -72,6 +84,7 @@ impl JobDone {
         Self {
             message,
             setup: None,
+            quiet: false,
         }
     }
 }
@@ -87,6 +100,7 @@ pub fn run(job: Job) -> JobDone {
                     format!("loaded {}; {}", p.display(), l.warnings.join("; "))
                 }),
                 setup: Some(Box::new(l.setup)),
+                quiet: false,
             },
             Err(e) => JobDone::message(Err(e.to_string())),
         },
@@ -113,6 +127,35 @@ pub fn run(job: Job) -> JobDone {
         ),
         Job::TracePng(t) => JobDone::message(trace_png(&t)),
         Job::TwelvePng(t) => JobDone::message(twelve_png(&t)),
+        Job::PartsFiles {
+            base,
+            circuit,
+            title,
+        } => {
+            let m = super::panels::parts::save(&base, &circuit, &title);
+            JobDone::message(if m.starts_with("wrote ") {
+                Ok(m)
+            } else {
+                Err(m)
+            })
+        }
+        Job::Remember(setup, p) => JobDone {
+            // Not being able to remember only means defaults at the next start.
+            message: setup
+                .save(&p)
+                .map(|()| String::new())
+                .map_err(|e| e.to_string()),
+            setup: None,
+            quiet: true,
+        },
+        Job::AcknowledgeCaution => {
+            super::state::acknowledge_caution();
+            JobDone {
+                message: Ok(String::new()),
+                setup: None,
+                quiet: true,
+            }
+        }
         Job::SpectrumPng { path, frame, title } => JobDone::message(
             crate::export::plot_png::psd_png(
                 &path,

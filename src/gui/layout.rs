@@ -203,6 +203,7 @@ fn central(ui: &mut egui::Ui, st: &AppState, w: &mut Widgets) -> Vec<Action> {
                 st.view.snapshot.as_ref(),
                 &st.trace,
                 st.paper_grid,
+                st.settings.setup.view.unit,
             ));
         });
         out.extend(view_tabs(ui, st));
@@ -310,15 +311,13 @@ fn lower_strip(ui: &mut egui::Ui, st: &AppState, w: &mut Widgets) -> Option<Acti
             );
             None
         }
-        LowerView::Parts => {
-            panels::parts::show(
-                ui,
-                &mut w.parts,
-                &st.settings.setup.chain,
-                st.design.clone(),
-            );
-            None
-        }
+        LowerView::Parts => panels::parts::show(
+            ui,
+            &mut w.parts,
+            &st.settings.setup.chain,
+            st.design.clone(),
+            &st.files,
+        ),
         LowerView::Measure => {
             update_parts(ui, st, w);
             let n = snap.map_or(1, |s| s.traces.len());

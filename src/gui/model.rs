@@ -78,8 +78,6 @@ pub enum Effect {
     Recorder(RecorderCommand),
     /// File work for the job runner.
     Job(Job),
-    /// Remember that the caution was read.
-    AcknowledgeCaution,
 }
 
 impl AppState {
@@ -205,7 +203,7 @@ pub fn apply(st: &mut AppState, a: Action) -> Vec<Effect> {
         }
         Action::CautionConfirmed => {
             st.caution_open = false;
-            vec![Effect::AcknowledgeCaution]
+            vec![Effect::Job(Job::AcknowledgeCaution)]
         }
     }
 }
@@ -319,6 +317,15 @@ fn files(st: &mut AppState, f: FilesAction) -> Vec<Effect> {
         FilesAction::TracePng(p) => trace_png(st, p).map(|t| Job::TracePng(Box::new(t))),
         FilesAction::SpectrumPng(path) => spectrum_png(st, path),
         FilesAction::TwelvePng(path) => twelve_png(st, path),
+        FilesAction::PartsFiles {
+            base,
+            circuit,
+            title,
+        } => Ok(Job::PartsFiles {
+            base,
+            circuit,
+            title,
+        }),
     };
     match job {
         Ok(job) => {
@@ -562,6 +569,7 @@ mod tests {
             Action::JobDone(JobDone {
                 message: Err("bench.toml: disk full".into()),
                 setup: None,
+                quiet: false,
             }),
         );
         assert_eq!(st.jobs_running, 0);
@@ -602,6 +610,7 @@ mod tests {
             Action::JobDone(JobDone {
                 message: Ok("loaded bench.toml".into()),
                 setup: Some(Box::new(setup)),
+                quiet: false,
             }),
         );
         assert!(matches!(fx.as_slice(), [Effect::RestartSource]));
@@ -637,6 +646,9 @@ mod tests {
         };
         let fx = apply(&mut st, Action::CautionConfirmed);
         assert!(!st.caution_open);
-        assert!(matches!(fx.as_slice(), [Effect::AcknowledgeCaution]));
+        assert!(matches!(
+            fx.as_slice(),
+            [Effect::Job(Job::AcknowledgeCaution)]
+        ));
     }
 }

@@ -781,3 +781,33 @@ fn plots_are_not_rebuilt_on_frames_without_new_data() {
     }
     assert_eq!(rebuilds(h.state()).1, realised);
 }
+
+/// The parts view's schematic, netlist and parts list are written by the app's job runner:
+/// the button starts the job and the view says what was written.
+#[test]
+fn the_parts_files_are_written_by_the_job_runner() {
+    let base = tmp("parts-files");
+    let mut h = harness_sized(app(), [1280.0, 1400.0]);
+    h.state_mut()
+        .apply(Action::Lower(leadline::gui::state::LowerView::Parts));
+    let deadline = Instant::now() + Duration::from_secs(20);
+    while rebuilds(h.state()).1 == 0 {
+        assert!(Instant::now() < deadline, "no parts");
+        h.run_steps(1);
+        std::thread::sleep(Duration::from_millis(20));
+    }
+    h.run_steps(2);
+    h.state_mut().widgets.parts.save_base = base.display().to_string();
+    h.get_by_label("Save schematic, netlist, BOM").click();
+    h.run_steps(1);
+    let deadline = Instant::now() + Duration::from_secs(10);
+    while h.query_by_label_contains("wrote ").is_none() {
+        assert!(Instant::now() < deadline, "the parts files did not report");
+        h.run_steps(1);
+        std::thread::sleep(Duration::from_millis(20));
+    }
+    for ext in [".svg", ".cir", "-bom.csv"] {
+        let p = format!("{}{ext}", base.display());
+        assert!(std::fs::metadata(&p).is_ok_and(|m| m.len() > 50), "{p}");
+    }
+}

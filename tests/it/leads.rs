@@ -326,3 +326,39 @@ fn an_electrode_that_comes_off_is_named() {
     let last = last.expect("snapshots");
     assert_eq!(last.electrodes_off, vec!["LA"]);
 }
+
+/// Two limb leads made outside the project with numpy (tests/reference/leads_axis.py) for a
+/// dipole at a known frontal angle: `leads --report` reads the angle back within 2°.
+#[test]
+fn the_axis_of_limb_leads_made_with_numpy_is_read_back() {
+    let Some(py) = crate::record::reference_python() else {
+        return;
+    };
+    let script = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/reference/leads_axis.py");
+    for axis in [-45.0f64, 30.0, 75.0, 120.0] {
+        let csv = tmp(&format!("numpy{axis}.csv"));
+        let out = Command::new(&py)
+            .arg(&script)
+            .arg(axis.to_string())
+            .arg(&csv)
+            .output()
+            .unwrap();
+        assert!(
+            out.status.success(),
+            "{}",
+            String::from_utf8_lossy(&out.stderr)
+        );
+        let rep = tmp(&format!("numpy{axis}.json"));
+        leadline_ok([
+            "leads",
+            "--input",
+            csv.to_str().unwrap(),
+            "--out",
+            tmp(&format!("numpy{axis}.edf")).to_str().unwrap(),
+            "--report",
+            rep.to_str().unwrap(),
+        ]);
+        let got = report(&rep)["frontal_axis_deg"].as_f64().unwrap();
+        assert!((got - axis).abs() <= 2.0, "numpy's {axis}°, read {got}°");
+    }
+}

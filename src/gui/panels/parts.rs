@@ -47,12 +47,9 @@ pub struct PartsView {
     stages: Result<Vec<Stage>, String>,
     curves: Vec<[f64; 5]>,
     /// Base path of the files "Save" writes (.svg, .cir, .csv are added).
-    save_base: String,
+    pub save_base: String,
     /// The op-amps' input bias current, nA (for the offsets shown).
     bias_na: f64,
-    saved: Option<String>,
-    /// The files being written off the UI thread; their message arrives here.
-    saving: Option<crossbeam_channel::Receiver<String>>,
 }
 
 impl Default for PartsView {
@@ -61,8 +58,6 @@ impl Default for PartsView {
             caps_text: "1u 220n 100n 47n 10n".into(),
             save_base: "chain".into(),
             bias_na: 1.0,
-            saved: None,
-            saving: None,
             series: Series::E24,
             r_tol_pct: 1.0,
             c_tol_pct: 5.0,
@@ -211,19 +206,21 @@ pub fn show(
     view: &mut PartsView,
     chain: &ChainSettings,
     design: Option<std::sync::Arc<crate::dsp::Design>>,
-) {
+    report: &crate::gui::model::FileReport,
+) -> Option<crate::gui::action::Action> {
+    let mut action = None;
     controls(ui, view);
     let ctx = ui.ctx().clone();
     view.update(chain, design, move || ctx.request_repaint());
     if view.busy() && view.realisations == 0 {
         ui.label("Choosing parts…");
-        return;
+        return None;
     }
     let stages = match &view.stages {
         Ok(s) => s.clone(),
         Err(e) => {
             ui.colored_label(ui.visuals().error_fg_color, e);
-            return;
+            return None;
         }
     };
     let width = ui.available_width();
@@ -262,7 +259,7 @@ pub fn show(
                                 capacitor_pct: view.c_tol_pct,
                             },
                         );
-                        save_row(ui, view, &c, &chain.describe());
+                        action = save_row(ui, view, &c, &chain.describe(), report);
                         egui::CollapsingHeader::new("Schematic")
                             .default_open(true)
                             .show(ui, |ui| {
@@ -273,6 +270,7 @@ pub fn show(
         });
         response_plot(ui, &view.curves, height);
     });
+    action
 }
 
 /// Capacitors, resistor series and tolerances; the gain budget.
@@ -357,17 +355,15 @@ fn table(ui: &mut egui::Ui, stages: &[Stage]) {
     });
 }
 
-/// Where the schematic, netlist and BOM go, written off the UI thread.
+/// Where the schematic, netlist and BOM go; the app's job runner writes them.
 fn save_row(
     ui: &mut egui::Ui,
     view: &mut PartsView,
     c: &crate::analog::circuit::Circuit,
     title: &str,
-) {
-    if let Some(m) = view.saving.as_ref().and_then(|rx| rx.try_recv().ok()) {
-        view.saved = Some(m);
-        view.saving = None;
-    }
+    report: &crate::gui::model::FileReport,
+) -> Option<crate::gui::action::Action> {
+    let mut action = None;
     ui.horizontal(|ui| {
         ui.add(
             egui::TextEdit::singleline(&mut view.save_base)
@@ -375,25 +371,19 @@ fn save_row(
         )
         .on_hover_text("Base path: the schematic goes to .svg, the SPICE netlist to .cir, the parts list to -bom.csv.");
         if ui.button("Save schematic, netlist, BOM").clicked() {
-            let (tx, rx) = crossbeam_channel::bounded(1);
-            let (base, c, title) = (view.save_base.clone(), c.clone(), title.to_string());
-            let spawned = std::thread::Builder::new()
-                .name("leadline-parts-files".into())
-                .spawn(move || {
-                    let _ = tx.send(save(&base, &c, &title));
-                });
-            match spawned {
-                Ok(_) => {
-                    view.saving = Some(rx);
-                    view.saved = Some("writing…".into());
-                }
-                Err(e) => view.saved = Some(format!("cannot start writing: {e}")),
-            }
+            action = Some(crate::gui::action::Action::Files(
+                crate::gui::action::FilesAction::PartsFiles {
+                    base: view.save_base.clone(),
+                    circuit: Box::new(c.clone()),
+                    title: title.to_string(),
+                },
+            ));
         }
-        if let Some(m) = &view.saved {
-            ui.label(egui::RichText::new(m).small());
+        if !report.message.is_empty() {
+            ui.label(egui::RichText::new(&report.message).small());
         }
     });
+    action
 }
 
 /// The digital chain, the chain built from parts, its tolerance band and the difference.
@@ -490,7 +480,7 @@ fn details(ui: &mut egui::Ui, stages: &[Stage], bias_na: f64) {
 }
 
 /// Writes BASE.svg, BASE.cir and BASE-bom.csv; returns what was done, in a line.
-fn save(base: &str, c: &crate::analog::circuit::Circuit, title: &str) -> String {
+pub fn save(base: &str, c: &crate::analog::circuit::Circuit, title: &str) -> String {
     use crate::analog::{circuit, schematic};
     let files = [
         (format!("{base}.svg"), schematic::svg(&schematic::draw(c))),

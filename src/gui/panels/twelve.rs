@@ -100,19 +100,14 @@ pub fn paper_lines(span: f64) -> (GridLines, GridLines) {
     (xs, ys)
 }
 
-/// Draws the sheet in the space given; returns the cursor actions (cursors are placed at
-/// stream time and the value in µV above the row's line).
-pub fn show(
+/// The paper-grid switch, the scale, and the cursors' readout.
+fn header(
     ui: &mut egui::Ui,
-    snap: Option<&Snapshot>,
     cursors: &TraceState,
     grid: bool,
+    unit: crate::setup::TraceUnit,
 ) -> Vec<Action> {
     let mut out = Vec::new();
-    let Some(snap) = snap.filter(|s| s.leads.is_some()) else {
-        ui.label("The twelve leads need a lead set: choose what the channels are in the Source section (or --lead-set).");
-        return out;
-    };
     ui.horizontal(|ui| {
         let mut on = grid;
         if ui.checkbox(&mut on, "Paper grid").on_hover_text(
@@ -121,7 +116,33 @@ pub fn show(
             out.push(Action::PaperGrid(on));
         }
         ui.label(egui::RichText::new("25 mm/s · 10 mm/mV · 1 mV calibration pulse at each row's start").small());
+        // The same cursors as the traces': click to place, the readout here.
+        if let Some(r) = cursors.readout(unit) {
+            ui.separator();
+            ui.label(egui::RichText::new(r).monospace().strong());
+            if ui.small_button("Clear cursors").clicked() {
+                out.push(Action::Trace(TraceEvent::Clear));
+            }
+        }
     });
+    out
+}
+
+/// Draws the sheet in the space given; returns the cursor actions (cursors are placed at
+/// stream time and the value in µV above the row's line).
+pub fn show(
+    ui: &mut egui::Ui,
+    snap: Option<&Snapshot>,
+    cursors: &TraceState,
+    grid: bool,
+    unit: crate::setup::TraceUnit,
+) -> Vec<Action> {
+    let mut out = Vec::new();
+    let Some(snap) = snap.filter(|s| s.leads.is_some()) else {
+        ui.label("The twelve leads need a lead set: choose what the channels are in the Source section (or --lead-set).");
+        return out;
+    };
+    out.extend(header(ui, cursors, grid, unit));
     let (pieces, t0, span) = sheet(snap);
     let paper = egui::Color32::from_rgba_unmultiplied(220, 90, 90, 60);
     let resp = Plot::new("twelve-leads")
